@@ -1,0 +1,104 @@
+//! The `tutti` command line: parses arguments, calls the library, prints, and exits
+//! with 0 on success, 1 when a check finds programs not equivalent (or some files
+//! failed), 2 on usage or input errors.
+
+use clap::{Args, Parser, Subcommand};
+use std::path::{Path, PathBuf};
+use std::process::ExitCode;
+use tutti::qasm::{self, Limits};
+
+#[derive(Parser)]
+#[command(name = "tutti", version, about = "Compile OpenQASM 2 for collective-gate trapped-ion processors, prove the result equal, and budget it")]
+struct Cli {
+    #[command(subcommand)]
+    command: Command,
+}
+
+#[derive(Args, Clone, Copy)]
+struct LimitArgs {
+    /// Most operations after expanding gate definitions and broadcasts.
+    #[arg(long, default_value_t = Limits::default().max_ops)]
+    max_ops: usize,
+    /// Most qubits in all quantum registers together.
+    #[arg(long, default_value_t = Limits::default().max_qubits)]
+    max_qubits: u64,
+    /// Largest input file, in bytes.
+    #[arg(long, default_value_t = Limits::default().max_file_bytes)]
+    max_file_bytes: usize,
+    /// Deepest nesting of include files.
+    #[arg(long, default_value_t = Limits::default().max_include_depth)]
+    max_include_depth: usize,
+}
+
+impl LimitArgs {
+    fn limits(self) -> Limits {
+        Limits {
+            max_ops: self.max_ops,
+            max_qubits: self.max_qubits,
+            max_clbits: self.max_qubits,
+            max_register_size: self.max_qubits,
+            max_file_bytes: self.max_file_bytes,
+            max_include_depth: self.max_include_depth,
+            ..Limits::default()
+        }
+    }
+}
+
+#[derive(Subcommand)]
+enum Command {
+    /// Read an OpenQASM 2 file and show what it contains: qubits, bits, operations by
+    /// gate, two-qubit gates and depth.
+    Inspect {
+        file: PathBuf,
+        /// Print one JSON object instead of a table.
+        #[arg(long)]
+        json: bool,
+        #[command(flatten)]
+        limits: LimitArgs,
+    },
+}
+
+fn main() -> ExitCode {
+    let cli = Cli::parse();
+    match run(cli) {
+        Ok(code) => code,
+        Err(message) => {
+            eprint!("{message}");
+            if !message.ends_with('\n') {
+                eprintln!();
+            }
+            ExitCode::from(2)
+        }
+    }
+}
+
+/// Reads a circuit, printing warnings to stderr; errors come back rendered.
+fn read(path: &Path, limits: &Limits) -> Result<tutti::circuit::Circuit, String> {
+    let outcome = qasm::read_file(path, limits);
+    let rendered = outcome.render();
+    match outcome.circuit {
+        Some(c) => {
+            eprint!("{rendered}");
+            Ok(c)
+        }
+        None => {
+            let n = outcome.errors().count();
+            Err(format!("{rendered}{n} error(s) in {}\n", path.display()))
+        }
+    }
+}
+
+fn run(cli: Cli) -> Result<ExitCode, String> {
+    match cli.command {
+        Command::Inspect { file, json, limits } => {
+            let circuit = read(&file, &limits.limits())?;
+            let summary = circuit.summary();
+            if json {
+                println!("{}", serde_json::to_string_pretty(&summary).map_err(|e| e.to_string())?);
+            } else {
+                print!("{}", tutti::report::inspect_table(&file.display().to_string(), &summary));
+            }
+            Ok(ExitCode::SUCCESS)
+        }
+    }
+}

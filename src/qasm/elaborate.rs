@@ -1,0 +1,782 @@
+//! Elaboration: resolves names, checks arities, expands `gate` definitions and
+//! broadcasts, and produces the flat [`Circuit`].
+//!
+//! Invariant: elaboration never panics and never allocates beyond the [`Limits`]:
+//! include depth and cycles, expanded operations, register and qubit counts, input
+//! size and gate nesting are all checked and reported as located errors.
+
+use super::ast::*;
+use super::diag::{Diagnostic, FileId, SourceMap, Span};
+use super::parser::parse;
+use crate::circuit::gates::QELIB1_2017;
+use crate::circuit::*;
+use std::collections::HashMap;
+use std::path::{Path, PathBuf};
+
+/// Bounds that keep a hostile or mistaken input from exhausting the machine.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct Limits {
+    pub max_include_depth: usize,
+    pub max_ops: usize,
+    pub max_register_size: u64,
+    pub max_qubits: u64,
+    pub max_clbits: u64,
+    pub max_file_bytes: usize,
+    pub max_gate_nesting: usize,
+}
+
+impl Default for Limits {
+    fn default() -> Limits {
+        Limits {
+            max_include_depth: 16,
+            max_ops: 20_000_000,
+            max_register_size: 1 << 16,
+            max_qubits: 1 << 16,
+            max_clbits: 1 << 16,
+            max_file_bytes: 256 << 20,
+            max_gate_nesting: 64,
+        }
+    }
+}
+
+/// Where included files come from. The standard library is built in and never loaded.
+pub trait Loader {
+    /// Reads the file at `path`, or says why it cannot.
+    fn load(&self, path: &Path) -> Result<String, String>;
+}
+
+/// Reads included files from the file system.
+pub struct FsLoader;
+
+impl Loader for FsLoader {
+    fn load(&self, path: &Path) -> Result<String, String> {
+        std::fs::read_to_string(path).map_err(|e| e.to_string())
+    }
+}
+
+/// Included files held in memory, for tests and embedding.
+#[derive(Default)]
+pub struct MemoryLoader(pub HashMap<PathBuf, String>);
+
+impl Loader for MemoryLoader {
+    fn load(&self, path: &Path) -> Result<String, String> {
+        self.0.get(path).cloned().ok_or_else(|| "no such file".to_string())
+    }
+}
+
+/// The outcome of reading a program: the circuit when there was no error, and every
+/// diagnostic (errors and warnings) with the sources they point into.
+pub struct ReadOutcome {
+    pub circuit: Option<Circuit>,
+    pub diagnostics: Vec<Diagnostic>,
+    pub sources: SourceMap,
+}
+
+impl ReadOutcome {
+    pub fn errors(&self) -> impl Iterator<Item = &Diagnostic> {
+        self.diagnostics.iter().filter(|d| d.is_error())
+    }
+
+    /// All diagnostics rendered as text.
+    pub fn render(&self) -> String {
+        super::diag::render_all(&self.diagnostics, &self.sources)
+    }
+}
+
+/// Reads and elaborates the program `text`, shown in messages as `name`; includes
+/// resolve relative to the folder of `name`.
+pub fn read_with(name: &str, text: &str, limits: &Limits, loader: &dyn Loader) -> ReadOutcome {
+    let mut sources = SourceMap::default();
+    let mut e = Elaborator {
+        limits: *limits,
+        loader,
+        diags: Vec::new(),
+        circuit: Circuit::default(),
+        regs: HashMap::new(),
+        gates: HashMap::new(),
+        defs: Vec::new(),
+        library: false,
+        include_stack: Vec::new(),
+        stopped: false,
+    };
+    let file = sources.add(name, text);
+    e.include_stack.push(PathBuf::from(name));
+    e.file(file, &mut sources, true);
+    let has_error = e.diags.iter().any(|d| d.is_error());
+    let mut diagnostics = e.diags;
+    diagnostics.sort_by_key(|d| (d.span.file.0, d.span.start));
+    ReadOutcome { circuit: if has_error { None } else { Some(e.circuit) }, diagnostics, sources }
+}
+
+#[derive(Clone, Copy)]
+enum RegKind {
+    Quantum(usize),
+    Classical(usize),
+}
+
+enum GateRef {
+    Library(GateKind),
+    Defined(usize),
+}
+
+struct Elaborator<'l> {
+    limits: Limits,
+    loader: &'l dyn Loader,
+    diags: Vec<Diagnostic>,
+    circuit: Circuit,
+    regs: HashMap<String, (RegKind, Span)>,
+    gates: HashMap<String, usize>,
+    defs: Vec<Def>,
+    library: bool,
+    include_stack: Vec<PathBuf>,
+    /// Set when a limit was hit: nothing more is elaborated.
+    stopped: bool,
+}
+
+struct Def {
+    ast: GateDef,
+    opaque_index: Option<u32>,
+    nesting: usize,
+}
+
+impl<'l> Elaborator<'l> {
+    fn file(&mut self, file: FileId, sources: &mut SourceMap, is_main: bool) {
+        let text = sources.text(file).to_string();
+        if text.len() > self.limits.max_file_bytes {
+            self.diags.push(
+                Diagnostic::error(
+                    "file-too-large",
+                    Span::new(file, 0..0),
+                    format!("the file is {} bytes, more than the limit of {}", text.len(), self.limits.max_file_bytes),
+                )
+                .hint("raise the input size limit (--max-file-bytes) if the file is meant to be this large"),
+            );
+            return;
+        }
+        let (program, diags) = parse(file, &text, is_main);
+        self.diags.extend(diags);
+        for stmt in &program.stmts {
+            if self.stopped {
+                return;
+            }
+            self.statement(stmt, file, sources);
+        }
+    }
+
+    fn statement(&mut self, stmt: &Stmt, file: FileId, sources: &mut SourceMap) {
+        match stmt {
+            Stmt::Version { .. } => {}
+            Stmt::Include { path, span } => self.include(path, *span, file, sources),
+            Stmt::Qreg { name, size, .. } => self.declare(name, *size, true),
+            Stmt::Creg { name, size, .. } => self.declare(name, *size, false),
+            Stmt::Gate(def) => self.define(def),
+            Stmt::QOp(op) => self.qop(op, None),
+            Stmt::Barrier { args, .. } => {
+                if let Some(lists) = self.resolve_qargs(args) {
+                    let mut qubits: Vec<Qubit> = lists.into_iter().flatten().collect();
+                    qubits.sort();
+                    qubits.dedup();
+                    self.emit(Op::Barrier { qubits }, None, stmt_span(stmt));
+                }
+            }
+            Stmt::If { creg, value, op, span } => {
+                let Some(index) = self.creg(creg) else { return };
+                let size = self.circuit.cregs[index].size;
+                if size < 64 && value.0 >= 1u64 << size {
+                    self.diags.push(
+                        Diagnostic::error(
+                            "condition-out-of-range",
+                            value.1,
+                            format!("register `{}` has {size} bits and can never equal {}", creg.name, value.0),
+                        )
+                        .hint(format!("the value must be below {}", 1u64 << size)),
+                    );
+                    return;
+                }
+                let _ = span;
+                self.qop(op, Some(Condition { creg: index as u32, value: value.0 }));
+            }
+        }
+    }
+
+    fn include(&mut self, path: &str, span: Span, file: FileId, sources: &mut SourceMap) {
+        if path == "qelib1.inc" {
+            self.library = true;
+            return;
+        }
+        let parent = self.include_stack.last().and_then(|p| p.parent()).map(Path::to_path_buf);
+        let resolved = parent.unwrap_or_default().join(path);
+        if self.include_stack.iter().any(|p| p == &resolved) {
+            self.diags.push(
+                Diagnostic::error("include-cycle", span, format!("`{path}` includes itself (through {})", self.include_chain()))
+                    .hint("remove the include that closes the cycle"),
+            );
+            return;
+        }
+        if self.include_stack.len() > self.limits.max_include_depth {
+            self.diags.push(
+                Diagnostic::error(
+                    "include-too-deep",
+                    span,
+                    format!("includes are nested more than {} deep", self.limits.max_include_depth),
+                )
+                .hint("flatten the includes or raise the include depth limit"),
+            );
+            return;
+        }
+        match self.loader.load(&resolved) {
+            Ok(text) => {
+                let id = sources.add(resolved.display().to_string(), text);
+                self.include_stack.push(resolved);
+                self.file(id, sources, false);
+                self.include_stack.pop();
+            }
+            Err(why) => self.diags.push(
+                Diagnostic::error("include-not-found", span, format!("cannot read `{}`: {why}", resolved.display()))
+                    .hint("paths resolve relative to the including file; the standard library is `qelib1.inc`"),
+            ),
+        }
+        let _ = file;
+    }
+
+    fn include_chain(&self) -> String {
+        self.include_stack.iter().map(|p| p.display().to_string()).collect::<Vec<_>>().join(" -> ")
+    }
+
+    fn declare(&mut self, name: &Ident, size: (u64, Span), quantum: bool) {
+        if let Some((_, prev)) = self.regs.get(&name.name) {
+            let _ = prev;
+            self.diags.push(
+                Diagnostic::error("duplicate-register", name.span, format!("register `{}` is already declared", name.name))
+                    .hint("give each register its own name"),
+            );
+            return;
+        }
+        if size.0 == 0 {
+            self.diags.push(
+                Diagnostic::error("empty-register", size.1, format!("register `{}` has size 0", name.name))
+                    .hint("a register holds at least one bit"),
+            );
+            return;
+        }
+        let (total, limit, kind) = if quantum {
+            (self.circuit.n_qubits() as u64, self.limits.max_qubits, "qubits")
+        } else {
+            (self.circuit.n_clbits() as u64, self.limits.max_clbits, "classical bits")
+        };
+        if size.0 > self.limits.max_register_size || total + size.0 > limit {
+            self.diags.push(
+                Diagnostic::error(
+                    "register-too-large",
+                    size.1,
+                    format!(
+                        "register `{}` of {} {kind} exceeds the limit ({} per register, {} in all)",
+                        name.name, size.0, self.limits.max_register_size, limit
+                    ),
+                )
+                .hint("raise the register limits if the program really needs this many"),
+            );
+            return;
+        }
+        let reg = Register { name: name.name.clone(), offset: total as u32, size: size.0 as u32 };
+        let kind = if quantum {
+            self.circuit.qregs.push(reg);
+            RegKind::Quantum(self.circuit.qregs.len() - 1)
+        } else {
+            self.circuit.cregs.push(reg);
+            RegKind::Classical(self.circuit.cregs.len() - 1)
+        };
+        self.regs.insert(name.name.clone(), (kind, name.span));
+    }
+
+    fn lookup_gate(&self, name: &str) -> Option<GateRef> {
+        if let Some(&i) = self.gates.get(name) {
+            return Some(GateRef::Defined(i));
+        }
+        match GateKind::from_name(name) {
+            Some(k @ (GateKind::BuiltinU | GateKind::BuiltinCx)) => Some(GateRef::Library(k)),
+            Some(k) if self.library => Some(GateRef::Library(k)),
+            _ => None,
+        }
+    }
+
+    /// Parameter and qubit counts of a callable gate.
+    fn signature(&self, g: &GateRef) -> (usize, usize) {
+        match g {
+            GateRef::Library(k) => (k.n_params(), k.n_qubits()),
+            GateRef::Defined(i) => (self.defs[*i].ast.params.len(), self.defs[*i].ast.qargs.len()),
+        }
+    }
+
+    fn undefined_gate(&self, name: &Ident) -> Diagnostic {
+        let hint = if GateKind::from_name(&name.name).is_some() {
+            "this is a standard library gate: add `include \"qelib1.inc\";` at the top".to_string()
+        } else {
+            "define it with `gate` before its first use, or check the spelling".to_string()
+        };
+        Diagnostic::error("undefined-gate", name.span, format!("gate `{}` is not defined", name.name)).hint(hint)
+    }
+
+    /// Checks a call's name and counts; returns the gate it names.
+    fn check_call(&mut self, call: &GateCall) -> Option<GateRef> {
+        let Some(g) = self.lookup_gate(&call.name.name) else {
+            let d = self.undefined_gate(&call.name);
+            self.diags.push(d);
+            return None;
+        };
+        let (n_params, n_qubits) = self.signature(&g);
+        if call.params.len() != n_params {
+            self.diags.push(
+                Diagnostic::error(
+                    "parameter-count",
+                    call.name.span,
+                    format!("gate `{}` takes {n_params} parameter(s), given {}", call.name.name, call.params.len()),
+                )
+                .hint(format!("write `{}` with {n_params} parameter(s) in parentheses", call.name.name)),
+            );
+            return None;
+        }
+        if call.args.len() != n_qubits {
+            self.diags.push(
+                Diagnostic::error(
+                    "qubit-count",
+                    call.span,
+                    format!("gate `{}` acts on {n_qubits} qubit(s), given {}", call.name.name, call.args.len()),
+                )
+                .hint("pass one qubit or register per gate argument, separated by commas"),
+            );
+            return None;
+        }
+        Some(g)
+    }
+
+    fn define(&mut self, def: &GateDef) {
+        let name = &def.name.name;
+        let redefines_library = matches!(name.as_str(), "U" | "CX")
+            || (self.library && QELIB1_2017.contains(&name.as_str()));
+        if redefines_library || self.gates.contains_key(name) {
+            self.diags.push(
+                Diagnostic::error("duplicate-gate", def.name.span, format!("gate `{name}` is already defined"))
+                    .hint("rename this gate; standard library gates cannot be redefined"),
+            );
+            return;
+        }
+        let mut ok = true;
+        for (i, p) in def.params.iter().enumerate() {
+            if def.params[..i].iter().any(|q| q.name == p.name) {
+                self.diags.push(
+                    Diagnostic::error("duplicate-parameter", p.span, format!("parameter `{}` is listed twice", p.name))
+                        .hint("give each parameter its own name"),
+                );
+                ok = false;
+            }
+        }
+        for (i, a) in def.qargs.iter().enumerate() {
+            if def.qargs[..i].iter().any(|q| q.name == a.name) {
+                self.diags.push(
+                    Diagnostic::error("duplicate-argument", a.span, format!("qubit argument `{}` is listed twice", a.name))
+                        .hint("give each qubit argument its own name"),
+                );
+                ok = false;
+            }
+        }
+        let mut nesting = 1;
+        if let Some(body) = &def.body {
+            for stmt in body {
+                let (args, call) = match stmt {
+                    BodyStmt::Call(call) => (&call.args, Some(call)),
+                    BodyStmt::Barrier { args, .. } => (args, None),
+                };
+                for arg in args {
+                    if let Some((_, span)) = arg.index {
+                        self.diags.push(
+                            Diagnostic::error("index-in-gate-body", span, "qubits inside a gate body cannot be indexed")
+                                .hint("use the gate's argument names as they are"),
+                        );
+                        ok = false;
+                    } else if !def.qargs.iter().any(|q| q.name == arg.reg.name) {
+                        self.diags.push(
+                            Diagnostic::error(
+                                "unknown-gate-argument",
+                                arg.reg.span,
+                                format!("`{}` is not an argument of gate `{name}`", arg.reg.name),
+                            )
+                            .hint(format!(
+                                "the arguments are: {}",
+                                def.qargs.iter().map(|q| q.name.as_str()).collect::<Vec<_>>().join(", ")
+                            )),
+                        );
+                        ok = false;
+                    }
+                }
+                let Some(call) = call else { continue };
+                if &call.name.name == name {
+                    self.diags.push(
+                        Diagnostic::error("recursive-gate", call.name.span, format!("gate `{name}` calls itself"))
+                            .hint("OpenQASM 2 gates cannot be recursive"),
+                    );
+                    ok = false;
+                    continue;
+                }
+                match self.check_call(call) {
+                    Some(GateRef::Defined(i)) => nesting = nesting.max(self.defs[i].nesting + 1),
+                    Some(GateRef::Library(_)) => {}
+                    None => ok = false,
+                }
+                for (i, a) in call.args.iter().enumerate() {
+                    if call.args[..i].iter().any(|b| b.reg.name == a.reg.name) {
+                        self.diags.push(
+                            Diagnostic::error("repeated-qubit", a.span, format!("qubit `{}` is used twice in one gate", a.reg.name))
+                                .hint("a gate acts on distinct qubits"),
+                        );
+                        ok = false;
+                    }
+                }
+                for p in &call.params {
+                    ok &= self.check_expr_names(p, &def.params);
+                }
+            }
+        }
+        if nesting > self.limits.max_gate_nesting {
+            self.diags.push(
+                Diagnostic::error(
+                    "gate-nesting",
+                    def.name.span,
+                    format!("gate `{name}` nests gate definitions {nesting} deep, more than the limit {}", self.limits.max_gate_nesting),
+                )
+                .hint("flatten the definitions or raise the nesting limit"),
+            );
+            ok = false;
+        }
+        if !ok {
+            return;
+        }
+        let opaque_index = if def.body.is_none() {
+            self.circuit.opaque.push(OpaqueDecl {
+                name: name.clone(),
+                n_params: def.params.len(),
+                n_qubits: def.qargs.len(),
+            });
+            Some(self.circuit.opaque.len() as u32 - 1)
+        } else {
+            None
+        };
+        self.gates.insert(name.clone(), self.defs.len());
+        self.defs.push(Def { ast: def.clone(), opaque_index, nesting });
+    }
+
+    fn check_expr_names(&mut self, e: &Expr, params: &[Ident]) -> bool {
+        match &e.kind {
+            ExprKind::Number(_) | ExprKind::Pi => true,
+            ExprKind::Param(p) => {
+                if params.iter().any(|q| &q.name == p) {
+                    true
+                } else {
+                    let hint = if params.is_empty() {
+                        "only numbers, `pi` and functions may appear here".to_string()
+                    } else {
+                        format!(
+                            "the parameters in scope are: {}",
+                            params.iter().map(|q| q.name.as_str()).collect::<Vec<_>>().join(", ")
+                        )
+                    };
+                    self.diags.push(
+                        Diagnostic::error("unknown-parameter", e.span, format!("`{p}` is not a parameter in scope")).hint(hint),
+                    );
+                    false
+                }
+            }
+            ExprKind::Neg(a) | ExprKind::Call(_, a) => self.check_expr_names(a, params),
+            ExprKind::Binary(_, a, b) => {
+                let left = self.check_expr_names(a, params);
+                self.check_expr_names(b, params) && left
+            }
+        }
+    }
+
+    fn creg(&mut self, name: &Ident) -> Option<usize> {
+        match self.regs.get(&name.name) {
+            Some((RegKind::Classical(i), _)) => Some(*i),
+            Some((RegKind::Quantum(_), _)) => {
+                self.diags.push(
+                    Diagnostic::error("expected-creg", name.span, format!("`{}` is a quantum register", name.name))
+                        .hint("conditions and measurement results use classical registers (`creg`)"),
+                );
+                None
+            }
+            None => {
+                self.diags.push(
+                    Diagnostic::error("undefined-register", name.span, format!("register `{}` is not declared", name.name))
+                        .hint("declare it with `creg` before use"),
+                );
+                None
+            }
+        }
+    }
+
+    /// Resolves one argument to the global indices it names (one, or a whole register).
+    fn resolve_arg(&mut self, arg: &Arg, quantum: bool) -> Option<Vec<u32>> {
+        let reg = match self.regs.get(&arg.reg.name) {
+            Some((RegKind::Quantum(i), _)) if quantum => &self.circuit.qregs[*i],
+            Some((RegKind::Classical(i), _)) if !quantum => &self.circuit.cregs[*i],
+            Some(_) => {
+                let (is, want, decl) =
+                    if quantum { ("classical", "qubits", "qreg") } else { ("quantum", "classical bits", "creg") };
+                self.diags.push(
+                    Diagnostic::error("wrong-register-kind", arg.reg.span, format!("`{}` is a {is} register", arg.reg.name))
+                        .hint(format!("this place takes {want}: a register declared with `{decl}`")),
+                );
+                return None;
+            }
+            None => {
+                self.diags.push(
+                    Diagnostic::error("undefined-register", arg.reg.span, format!("register `{}` is not declared", arg.reg.name))
+                        .hint(format!("declare it with `{}` before use", if quantum { "qreg" } else { "creg" })),
+                );
+                return None;
+            }
+        };
+        match arg.index {
+            None => Some((reg.offset..reg.offset + reg.size).collect()),
+            Some((i, span)) if i < reg.size as u64 => {
+                let _ = span;
+                Some(vec![reg.offset + i as u32])
+            }
+            Some((i, span)) => {
+                let (name, size) = (reg.name.clone(), reg.size);
+                self.diags.push(
+                    Diagnostic::error("index-out-of-range", span, format!("index {i} is out of range for `{name}[{size}]`"))
+                        .hint(format!("indices of `{name}` run from 0 to {}", size - 1)),
+                );
+                None
+            }
+        }
+    }
+
+    fn resolve_qargs(&mut self, args: &[Arg]) -> Option<Vec<Vec<Qubit>>> {
+        let mut out = Vec::with_capacity(args.len());
+        let mut ok = true;
+        for a in args {
+            match self.resolve_arg(a, true) {
+                Some(v) => out.push(v.into_iter().map(Qubit).collect()),
+                None => ok = false,
+            }
+        }
+        ok.then_some(out)
+    }
+
+    /// The broadcast length of a list of arguments: registers must agree in size.
+    fn broadcast(&mut self, args: &[Arg], lists: &[Vec<u32>]) -> Option<usize> {
+        let mut len: Option<(usize, &Arg)> = None;
+        for (a, l) in args.iter().zip(lists) {
+            if a.index.is_some() {
+                continue;
+            }
+            match len {
+                None => len = Some((l.len(), a)),
+                Some((n, first)) if n != l.len() => {
+                    self.diags.push(
+                        Diagnostic::error(
+                            "register-size-mismatch",
+                            a.span,
+                            format!("register `{}` has {} bits but `{}` has {n}", a.reg.name, l.len(), first.reg.name),
+                        )
+                        .hint("whole-register arguments of one operation must have the same size"),
+                    );
+                    return None;
+                }
+                _ => {}
+            }
+        }
+        Some(len.map_or(1, |(n, _)| n))
+    }
+
+    fn qop(&mut self, op: &QOp, cond: Option<Condition>) {
+        match op {
+            QOp::Call(call) => self.top_call(call, cond),
+            QOp::Measure { src, dst, span } => {
+                let (Some(q), Some(c)) = (self.resolve_arg(src, true), self.resolve_arg(dst, false)) else { return };
+                let Some(n) = self.broadcast(&[src.clone(), dst.clone()], &[q.clone(), c.clone()]) else { return };
+                for k in 0..n {
+                    let qubit = Qubit(q[if q.len() == 1 { 0 } else { k }]);
+                    let clbit = Clbit(c[if c.len() == 1 { 0 } else { k }]);
+                    if !self.emit(Op::Measure { qubit, clbit }, cond, *span) {
+                        return;
+                    }
+                }
+            }
+            QOp::Reset { arg, span } => {
+                let Some(q) = self.resolve_arg(arg, true) else { return };
+                for qubit in q {
+                    if !self.emit(Op::Reset { qubit: Qubit(qubit) }, cond, *span) {
+                        return;
+                    }
+                }
+            }
+        }
+    }
+
+    fn top_call(&mut self, call: &GateCall, cond: Option<Condition>) {
+        let Some(g) = self.check_call(call) else { return };
+        if !self.check_expr_names_all(&call.params) {
+            return;
+        }
+        let mut params = Vec::with_capacity(call.params.len());
+        for p in &call.params {
+            let v = eval(p, &[], &[]);
+            if !v.is_finite() {
+                self.diags.push(
+                    Diagnostic::error("non-finite-parameter", p.span, format!("this parameter evaluates to {v}"))
+                        .hint("check for division by zero or ln/sqrt of a negative number"),
+                );
+                return;
+            }
+            params.push(v);
+        }
+        let mut lists = Vec::with_capacity(call.args.len());
+        for a in &call.args {
+            match self.resolve_arg(a, true) {
+                Some(l) => lists.push(l),
+                None => return,
+            }
+        }
+        let Some(n) = self.broadcast(&call.args, &lists) else { return };
+        let mut qubits = Vec::with_capacity(lists.len());
+        for k in 0..n {
+            qubits.clear();
+            qubits.extend(lists.iter().map(|l| Qubit(l[if l.len() == 1 { 0 } else { k }])));
+            for (i, q) in qubits.iter().enumerate() {
+                if qubits[..i].contains(q) {
+                    let name = self.circuit.qregs.iter().find(|r| q.0 >= r.offset && q.0 < r.offset + r.size);
+                    let shown = name.map_or(String::new(), |r| format!("{}[{}]", r.name, q.0 - r.offset));
+                    self.diags.push(
+                        Diagnostic::error("repeated-qubit", call.span, format!("qubit {shown} is used twice in one gate"))
+                            .hint("a gate acts on distinct qubits"),
+                    );
+                    return;
+                }
+            }
+            let args = qubits.clone();
+            if !self.expand(&g, &params, &args, cond, call.span) {
+                return;
+            }
+        }
+    }
+
+    fn check_expr_names_all(&mut self, params: &[Expr]) -> bool {
+        let mut ok = true;
+        for p in params {
+            ok &= self.check_expr_names(p, &[]);
+        }
+        ok
+    }
+
+    /// Emits a gate with its arguments bound; returns false once a limit was hit.
+    fn expand(&mut self, g: &GateRef, params: &[f64], qubits: &[Qubit], cond: Option<Condition>, at: Span) -> bool {
+        match *g {
+            GateRef::Library(kind) => {
+                self.emit(Op::Gate { gate: Gate::new(kind, params), qubits: qubits.to_vec() }, cond, at)
+            }
+            GateRef::Defined(i) => {
+                if let Some(decl) = self.defs[i].opaque_index {
+                    return self.emit(Op::Opaque { decl, params: params.to_vec(), qubits: qubits.to_vec() }, cond, at);
+                }
+                // The body was checked when the gate was defined, so every name resolves.
+                let body = self.defs[i].ast.body.clone().unwrap_or_default();
+                let param_names: Vec<String> = self.defs[i].ast.params.iter().map(|p| p.name.clone()).collect();
+                let qarg_names: Vec<String> = self.defs[i].ast.qargs.iter().map(|p| p.name.clone()).collect();
+                let bind = |a: &Arg| qubits[qarg_names.iter().position(|n| *n == a.reg.name).unwrap_or(0)];
+                for stmt in &body {
+                    match stmt {
+                        BodyStmt::Barrier { args, .. } => {
+                            let mut qs: Vec<Qubit> = args.iter().map(bind).collect();
+                            qs.sort();
+                            qs.dedup();
+                            if !self.emit(Op::Barrier { qubits: qs }, cond, at) {
+                                return false;
+                            }
+                        }
+                        BodyStmt::Call(call) => {
+                            let Some(inner) = self.lookup_gate(&call.name.name) else { return false };
+                            let mut values = Vec::with_capacity(call.params.len());
+                            for p in &call.params {
+                                let v = eval(p, &param_names, params);
+                                if !v.is_finite() {
+                                    self.diags.push(
+                                        Diagnostic::error(
+                                            "non-finite-parameter",
+                                            at,
+                                            format!("inside gate `{}`, a parameter evaluates to {v}", self.defs[i].ast.name.name),
+                                        )
+                                        .hint("check the parameters passed to this gate"),
+                                    );
+                                    self.stopped = true;
+                                    return false;
+                                }
+                                values.push(v);
+                            }
+                            let args: Vec<Qubit> = call.args.iter().map(bind).collect();
+                            if !self.expand(&inner, &values, &args, cond, at) {
+                                return false;
+                            }
+                        }
+                    }
+                }
+                true
+            }
+        }
+    }
+
+    fn emit(&mut self, op: Op, condition: Option<Condition>, at: Span) -> bool {
+        if self.circuit.instrs.len() >= self.limits.max_ops {
+            self.diags.push(
+                Diagnostic::error(
+                    "too-many-operations",
+                    at,
+                    format!("expanding the program exceeds the limit of {} operations", self.limits.max_ops),
+                )
+                .label("the limit was reached while expanding this statement")
+                .hint("raise the operation limit (--max-ops) if the program is meant to be this large"),
+            );
+            self.stopped = true;
+            return false;
+        }
+        self.circuit.instrs.push(Instr { op, condition });
+        true
+    }
+}
+
+fn stmt_span(stmt: &Stmt) -> Span {
+    match stmt {
+        Stmt::Version { span, .. }
+        | Stmt::Include { span, .. }
+        | Stmt::Qreg { span, .. }
+        | Stmt::Creg { span, .. }
+        | Stmt::Barrier { span, .. }
+        | Stmt::If { span, .. } => *span,
+        Stmt::Gate(d) => d.span,
+        Stmt::QOp(QOp::Call(c)) => c.span,
+        Stmt::QOp(QOp::Measure { span, .. }) | Stmt::QOp(QOp::Reset { span, .. }) => *span,
+    }
+}
+
+/// Evaluates an expression with the named parameters bound to values.
+pub fn eval(e: &Expr, names: &[String], values: &[f64]) -> f64 {
+    match &e.kind {
+        ExprKind::Number(v) => *v,
+        ExprKind::Pi => std::f64::consts::PI,
+        ExprKind::Param(p) => names.iter().position(|n| n == p).map_or(f64::NAN, |i| values[i]),
+        ExprKind::Neg(a) => -eval(a, names, values),
+        ExprKind::Call(f, a) => f.apply(eval(a, names, values)),
+        ExprKind::Binary(op, a, b) => {
+            let (x, y) = (eval(a, names, values), eval(b, names, values));
+            match op {
+                BinOp::Add => x + y,
+                BinOp::Sub => x - y,
+                BinOp::Mul => x * y,
+                BinOp::Div => x / y,
+                BinOp::Pow => x.powf(y),
+            }
+        }
+    }
+}

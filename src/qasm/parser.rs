@@ -1,0 +1,588 @@
+//! Recursive-descent parser from tokens to [`Program`].
+//!
+//! Invariant: the parser never gives up on the first mistake. It returns the tree of
+//! everything it could read plus every diagnostic, recovering at the next `;` or `}`.
+//! Recursion is bounded by [`MAX_EXPR_DEPTH`], so no input overflows the stack.
+
+use super::ast::*;
+use super::diag::{Diagnostic, FileId, Span};
+use super::lexer::{lex, Token};
+use std::ops::Range;
+
+/// Deepest nesting of parentheses and unary operators in one expression.
+pub const MAX_EXPR_DEPTH: usize = 128;
+
+/// Most binary operators in one expression (left-deep chains would otherwise make
+/// evaluation recurse without bound).
+pub const MAX_EXPR_OPS: usize = 1024;
+
+struct Parser<'a> {
+    toks: Vec<(Token, Range<usize>)>,
+    pos: usize,
+    text: &'a str,
+    file: FileId,
+    diags: Vec<Diagnostic>,
+    depth: usize,
+    /// Binary operators in the expression being read; bounds left-deep chains.
+    expr_ops: usize,
+    /// Set when a `;` was missing before a token on a new line: parsing resumes at
+    /// that token instead of skipping the next statement.
+    resume_here: bool,
+}
+
+type PResult<T> = Result<T, ()>;
+
+/// Parses one file. `is_main` asks for the `OPENQASM 2.0;` header (its absence is a
+/// warning, since real files often omit it).
+pub fn parse(file: FileId, text: &str, is_main: bool) -> (Program, Vec<Diagnostic>) {
+    let mut p = Parser { toks: lex(text), pos: 0, text, file, diags: Vec::new(), depth: 0, expr_ops: 0, resume_here: false };
+    let program = p.program(is_main);
+    (program, p.diags)
+}
+
+impl<'a> Parser<'a> {
+    fn peek(&self) -> Token {
+        self.toks[self.pos].0
+    }
+
+    fn span(&self) -> Span {
+        Span::new(self.file, self.toks[self.pos].1.clone())
+    }
+
+    fn prev_span(&self) -> Span {
+        Span::new(self.file, self.toks[self.pos.saturating_sub(1)].1.clone())
+    }
+
+    fn slice(&self) -> &'a str {
+        &self.text[self.toks[self.pos].1.clone()]
+    }
+
+    fn bump(&mut self) -> Span {
+        let s = self.span();
+        if self.pos + 1 < self.toks.len() {
+            self.pos += 1;
+        }
+        s
+    }
+
+    fn found(&self) -> String {
+        match self.peek() {
+            Token::Eof => "the end of the file".to_string(),
+            Token::Error => format!("the unknown character `{}`", self.slice()),
+            _ => format!("`{}`", self.slice()),
+        }
+    }
+
+    fn error_here(&mut self, code: &'static str, message: String, hint: &str) {
+        let d = if self.peek() == Token::Error {
+            Diagnostic::error("unknown-character", self.span(), message)
+                .label("no OpenQASM 2 token starts here")
+                .hint("remove the character; OpenQASM 2 comments start with `//`")
+        } else {
+            Diagnostic::error(code, self.span(), message).hint(hint)
+        };
+        self.diags.push(d);
+    }
+
+    fn expect(&mut self, tok: Token, hint: &str) -> PResult<Span> {
+        if self.peek() == tok {
+            return Ok(self.bump());
+        }
+        let code = if tok == Token::Semi { "missing-semicolon" } else { "unexpected-token" };
+        if tok == Token::Semi && self.pos > 0 {
+            // Point just after the previous token: that is where the `;` belongs.
+            let prev = self.prev_span();
+            let at = Span { file: prev.file, start: prev.end, end: prev.end };
+            let gap = &self.text[prev.end as usize..self.toks[self.pos].1.start];
+            self.resume_here = gap.contains('\n');
+            self.diags.push(
+                Diagnostic::error(code, at, format!("expected `;`, found {}", self.found()))
+                    .label("`;` expected here")
+                    .hint(hint),
+            );
+            return Err(());
+        }
+        let msg = format!("expected {}, found {}", tok.describe(), self.found());
+        self.error_here(code, msg, hint);
+        Err(())
+    }
+
+    fn ident(&mut self, what: &str) -> PResult<Ident> {
+        if self.peek() == Token::Ident {
+            let name = self.slice().to_string();
+            let span = self.bump();
+            return Ok(Ident { name, span });
+        }
+        let keyword = !matches!(
+            self.peek(),
+            Token::Eof | Token::Error | Token::Int | Token::Real | Token::Str
+        ) && self.slice().chars().all(|c| c.is_ascii_alphabetic());
+        let msg = format!("expected {what}, found {}", self.found());
+        let hint = if keyword {
+            "this word is reserved in OpenQASM 2; choose another name"
+        } else {
+            "names start with a letter and continue with letters, digits or `_`"
+        };
+        let code = if keyword { "reserved-word" } else { "expected-name" };
+        self.error_here(code, msg, hint);
+        Err(())
+    }
+
+    fn integer(&mut self, what: &str) -> PResult<(u64, Span)> {
+        if self.peek() == Token::Int {
+            let text = self.slice();
+            let span = self.span();
+            return match text.parse::<u64>() {
+                Ok(v) => {
+                    self.bump();
+                    Ok((v, span))
+                }
+                Err(_) => {
+                    self.diags.push(
+                        Diagnostic::error("integer-too-large", span, format!("{what} `{text}` is too large"))
+                            .hint("integers must fit in 64 bits"),
+                    );
+                    self.bump();
+                    Err(())
+                }
+            };
+        }
+        let msg = format!("expected {what} (a non-negative integer), found {}", self.found());
+        self.error_here("expected-integer", msg, "write a whole number such as `3`");
+        Err(())
+    }
+
+    /// Skips to just after the next `;` or `}` so that parsing can go on.
+    fn recover(&mut self) {
+        loop {
+            match self.peek() {
+                Token::Eof => return,
+                Token::Semi | Token::RBrace => {
+                    self.bump();
+                    return;
+                }
+                _ => {
+                    self.bump();
+                }
+            }
+        }
+    }
+
+    fn program(&mut self, is_main: bool) -> Program {
+        let mut stmts = Vec::new();
+        if is_main && self.peek() != Token::OpenQasm {
+            let at = Span::new(self.file, 0..0);
+            self.diags.push(
+                Diagnostic::warning("missing-header", at, "the file does not start with `OPENQASM 2.0;`")
+                    .label("header expected here")
+                    .hint("add `OPENQASM 2.0;` as the first statement; read as OpenQASM 2.0"),
+            );
+        }
+        while self.peek() != Token::Eof {
+            let start = self.pos;
+            match self.statement(stmts.is_empty()) {
+                Ok(s) => stmts.push(s),
+                Err(()) => {
+                    let resume = std::mem::take(&mut self.resume_here) && self.pos > start;
+                    if !resume && (self.pos == start || self.toks[self.pos - 1].0 != Token::Semi) {
+                        self.recover();
+                    }
+                }
+            }
+        }
+        Program { stmts }
+    }
+
+    fn statement(&mut self, first: bool) -> PResult<Stmt> {
+        let start = self.span();
+        match self.peek() {
+            Token::OpenQasm => {
+                self.bump();
+                let version = self.slice().to_string();
+                if !matches!(self.peek(), Token::Real | Token::Int) {
+                    let msg = format!("expected a version number, found {}", self.found());
+                    self.error_here("bad-version", msg, "write `OPENQASM 2.0;`");
+                    return Err(());
+                }
+                let vspan = self.bump();
+                if !(version == "2" || version.starts_with("2.")) {
+                    self.diags.push(
+                        Diagnostic::error("unsupported-version", vspan, format!("OpenQASM version {version} is not supported"))
+                            .hint("tutti reads OpenQASM 2; write `OPENQASM 2.0;`"),
+                    );
+                }
+                if !first {
+                    self.diags.push(
+                        Diagnostic::error("misplaced-header", start, "`OPENQASM` must be the first statement")
+                            .hint("move the header to the top of the file, before every other statement"),
+                    );
+                }
+                let end = self.expect(Token::Semi, "end the header with `;`")?;
+                Ok(Stmt::Version { version, span: start.to(end) })
+            }
+            Token::Include => {
+                self.bump();
+                if self.peek() != Token::Str {
+                    let msg = format!("expected a file name in double quotes, found {}", self.found());
+                    self.error_here("bad-include", msg, "write e.g. `include \"qelib1.inc\";`");
+                    return Err(());
+                }
+                let raw = self.slice();
+                let path = raw[1..raw.len() - 1].to_string();
+                self.bump();
+                let end = self.expect(Token::Semi, "end the include with `;`")?;
+                Ok(Stmt::Include { path, span: start.to(end) })
+            }
+            Token::Qreg | Token::Creg => {
+                let quantum = self.peek() == Token::Qreg;
+                self.bump();
+                let name = self.ident("a register name")?;
+                self.expect(Token::LBracket, "declare a register as `qreg name[size];`")?;
+                let size = self.integer("a register size")?;
+                self.expect(Token::RBracket, "close the size with `]`")?;
+                let end = self.expect(Token::Semi, "end the declaration with `;`")?;
+                let span = start.to(end);
+                Ok(if quantum { Stmt::Qreg { name, size, span } } else { Stmt::Creg { name, size, span } })
+            }
+            Token::Gate | Token::Opaque => self.gate_def().map(Stmt::Gate),
+            Token::Barrier => {
+                self.bump();
+                let args = self.arg_list()?;
+                let end = self.expect(Token::Semi, "end the barrier with `;`")?;
+                Ok(Stmt::Barrier { args, span: start.to(end) })
+            }
+            Token::If => {
+                self.bump();
+                self.expect(Token::LParen, "write a condition as `if(creg==value)`")?;
+                let creg = self.ident("a classical register name")?;
+                if self.peek() != Token::EqEq {
+                    let msg = format!("expected `==`, found {}", self.found());
+                    self.error_here("bad-condition", msg, "OpenQASM 2 conditions compare a whole register with `==`");
+                    return Err(());
+                }
+                self.bump();
+                let value = self.integer("a register value")?;
+                self.expect(Token::RParen, "close the condition with `)`")?;
+                if self.peek() == Token::If {
+                    self.error_here(
+                        "nested-if",
+                        "`if` cannot be nested".into(),
+                        "OpenQASM 2 allows one condition per operation",
+                    );
+                    return Err(());
+                }
+                let op = self.qop()?;
+                let span = start.to(self.prev_span());
+                Ok(Stmt::If { creg, value, op, span })
+            }
+            Token::Measure | Token::Reset | Token::Ident => self.qop().map(Stmt::QOp),
+            _ => {
+                let msg = format!("expected a statement, found {}", self.found());
+                self.error_here(
+                    "expected-statement",
+                    msg,
+                    "statements are declarations, gate definitions, gate calls, measure, reset, barrier or if",
+                );
+                Err(())
+            }
+        }
+    }
+
+    fn qop(&mut self) -> PResult<QOp> {
+        let start = self.span();
+        match self.peek() {
+            Token::Measure => {
+                self.bump();
+                let src = self.arg()?;
+                self.expect(Token::Arrow, "write a measurement as `measure q[0] -> c[0];`")?;
+                let dst = self.arg()?;
+                let end = self.expect(Token::Semi, "end the measurement with `;`")?;
+                Ok(QOp::Measure { src, dst, span: start.to(end) })
+            }
+            Token::Reset => {
+                self.bump();
+                let arg = self.arg()?;
+                let end = self.expect(Token::Semi, "end the reset with `;`")?;
+                Ok(QOp::Reset { arg, span: start.to(end) })
+            }
+            Token::Ident => self.gate_call().map(QOp::Call),
+            _ => {
+                let msg = format!("expected a gate call, `measure` or `reset`, found {}", self.found());
+                self.error_here("expected-operation", msg, "a condition applies to one quantum operation");
+                Err(())
+            }
+        }
+    }
+
+    fn gate_call(&mut self) -> PResult<GateCall> {
+        let name = self.ident("a gate name")?;
+        let mut params = Vec::new();
+        if self.peek() == Token::LParen {
+            self.bump();
+            if self.peek() != Token::RParen {
+                loop {
+                    params.push(self.expr()?);
+                    if self.peek() == Token::Comma {
+                        self.bump();
+                    } else {
+                        break;
+                    }
+                }
+            }
+            self.expect(Token::RParen, "close the parameter list with `)`")?;
+        }
+        let args = self.arg_list()?;
+        let end = self.expect(Token::Semi, "end the gate call with `;`")?;
+        Ok(GateCall { span: name.span.to(end), name, params, args })
+    }
+
+    fn arg(&mut self) -> PResult<Arg> {
+        let reg = self.ident("a register or argument name")?;
+        let mut span = reg.span;
+        let mut index = None;
+        if self.peek() == Token::LBracket {
+            self.bump();
+            index = Some(self.integer("an index")?);
+            span = span.to(self.expect(Token::RBracket, "close the index with `]`")?);
+        }
+        Ok(Arg { reg, index, span })
+    }
+
+    fn arg_list(&mut self) -> PResult<Vec<Arg>> {
+        let mut args = vec![self.arg()?];
+        while self.peek() == Token::Comma {
+            self.bump();
+            args.push(self.arg()?);
+        }
+        Ok(args)
+    }
+
+    fn gate_def(&mut self) -> PResult<GateDef> {
+        let start = self.span();
+        let opaque = self.peek() == Token::Opaque;
+        self.bump();
+        let name = self.ident("a gate name")?;
+        let mut params = Vec::new();
+        if self.peek() == Token::LParen {
+            self.bump();
+            if self.peek() != Token::RParen {
+                params.push(self.ident("a parameter name")?);
+                while self.peek() == Token::Comma {
+                    self.bump();
+                    params.push(self.ident("a parameter name")?);
+                }
+            }
+            self.expect(Token::RParen, "close the parameter list with `)`")?;
+        }
+        let mut qargs = vec![self.ident("a qubit argument name")?];
+        while self.peek() == Token::Comma {
+            self.bump();
+            qargs.push(self.ident("a qubit argument name")?);
+        }
+        if opaque {
+            let end = self.expect(Token::Semi, "end the opaque declaration with `;`")?;
+            return Ok(GateDef { name, params, qargs, body: None, span: start.to(end) });
+        }
+        self.expect(Token::LBrace, "a gate body starts with `{`")?;
+        let mut body = Vec::new();
+        loop {
+            match self.peek() {
+                Token::RBrace => break,
+                Token::Eof => {
+                    self.diags.push(
+                        Diagnostic::error("unclosed-gate", start, format!("the body of gate `{}` is not closed", name.name))
+                            .label("gate starts here")
+                            .hint("end the gate body with `}`"),
+                    );
+                    return Err(());
+                }
+                Token::Barrier => {
+                    let s = self.bump();
+                    match self.arg_list().and_then(|a| Ok((a, self.expect(Token::Semi, "end the barrier with `;`")?))) {
+                        Ok((args, end)) => body.push(BodyStmt::Barrier { args, span: s.to(end) }),
+                        Err(()) => self.recover_in_body(),
+                    }
+                }
+                Token::Ident => match self.gate_call() {
+                    Ok(call) => body.push(BodyStmt::Call(call)),
+                    Err(()) => self.recover_in_body(),
+                },
+                _ => {
+                    let msg = format!("expected a gate call or `barrier` in a gate body, found {}", self.found());
+                    self.error_here(
+                        "bad-gate-body",
+                        msg,
+                        "a gate body holds only gate calls and barriers; measure, reset, if and declarations are not allowed",
+                    );
+                    self.recover_in_body();
+                }
+            }
+        }
+        let end = self.bump();
+        Ok(GateDef { name, params, qargs, body: Some(body), span: start.to(end) })
+    }
+
+    /// Like [`Parser::recover`] but stops before a `}` so the body can be closed.
+    fn recover_in_body(&mut self) {
+        if self.pos > 0 && self.toks[self.pos - 1].0 == Token::Semi {
+            return;
+        }
+        loop {
+            match self.peek() {
+                Token::Eof | Token::RBrace => return,
+                Token::Semi => {
+                    self.bump();
+                    return;
+                }
+                _ => {
+                    self.bump();
+                }
+            }
+        }
+    }
+
+    fn count_op(&mut self) -> PResult<()> {
+        self.expr_ops += 1;
+        if self.expr_ops > MAX_EXPR_OPS {
+            self.error_here(
+                "expression-too-long",
+                format!("expression has more than {MAX_EXPR_OPS} operators"),
+                "simplify the expression",
+            );
+            return Err(());
+        }
+        Ok(())
+    }
+
+    fn expr(&mut self) -> PResult<Expr> {
+        if self.depth == 0 {
+            self.expr_ops = 0;
+        }
+        let mut lhs = self.term()?;
+        while matches!(self.peek(), Token::Plus | Token::Minus) {
+            self.count_op()?;
+            let op = if self.bump_tok() == Token::Plus { BinOp::Add } else { BinOp::Sub };
+            let rhs = self.term()?;
+            lhs = binary(op, lhs, rhs);
+        }
+        Ok(lhs)
+    }
+
+    fn bump_tok(&mut self) -> Token {
+        let t = self.peek();
+        self.bump();
+        t
+    }
+
+    fn term(&mut self) -> PResult<Expr> {
+        let mut lhs = self.unary()?;
+        while matches!(self.peek(), Token::Star | Token::Slash) {
+            self.count_op()?;
+            let op = if self.bump_tok() == Token::Star { BinOp::Mul } else { BinOp::Div };
+            let rhs = self.unary()?;
+            lhs = binary(op, lhs, rhs);
+        }
+        Ok(lhs)
+    }
+
+    fn enter(&mut self) -> PResult<()> {
+        self.depth += 1;
+        if self.depth > MAX_EXPR_DEPTH {
+            self.error_here(
+                "expression-too-deep",
+                format!("expression nested more than {MAX_EXPR_DEPTH} levels deep"),
+                "simplify the expression",
+            );
+            return Err(());
+        }
+        Ok(())
+    }
+
+    fn unary(&mut self) -> PResult<Expr> {
+        self.enter()?;
+        let result = match self.peek() {
+            Token::Minus => {
+                let s = self.bump();
+                self.unary().map(|e| Expr { span: s.to(e.span), kind: ExprKind::Neg(Box::new(e)) })
+            }
+            Token::Plus => {
+                self.bump();
+                self.unary()
+            }
+            _ => self.power(),
+        };
+        self.depth -= 1;
+        result
+    }
+
+    fn power(&mut self) -> PResult<Expr> {
+        let base = self.atom()?;
+        if self.peek() == Token::Caret {
+            self.count_op()?;
+            self.bump();
+            let exponent = self.unary()?;
+            return Ok(binary(BinOp::Pow, base, exponent));
+        }
+        Ok(base)
+    }
+
+    fn atom(&mut self) -> PResult<Expr> {
+        let span = self.span();
+        let func = match self.peek() {
+            Token::Sin => Some(Func::Sin),
+            Token::Cos => Some(Func::Cos),
+            Token::Tan => Some(Func::Tan),
+            Token::Exp => Some(Func::Exp),
+            Token::Ln => Some(Func::Ln),
+            Token::Sqrt => Some(Func::Sqrt),
+            _ => None,
+        };
+        if let Some(func) = func {
+            self.bump();
+            self.expect(Token::LParen, "a function is applied as `sin(x)`")?;
+            let arg = self.expr()?;
+            let end = self.expect(Token::RParen, "close the function argument with `)`")?;
+            return Ok(Expr { kind: ExprKind::Call(func, Box::new(arg)), span: span.to(end) });
+        }
+        match self.peek() {
+            Token::Int | Token::Real => {
+                let text = self.slice();
+                let v: f64 = text.parse().unwrap_or(f64::NAN);
+                self.bump();
+                Ok(Expr { kind: ExprKind::Number(v), span })
+            }
+            Token::Pi => {
+                self.bump();
+                Ok(Expr { kind: ExprKind::Pi, span })
+            }
+            Token::Ident => {
+                let name = self.slice().to_string();
+                self.bump();
+                Ok(Expr { kind: ExprKind::Param(name), span })
+            }
+            Token::LParen => {
+                self.bump();
+                self.enter()?;
+                let inner = self.expr();
+                self.depth -= 1;
+                let mut inner = inner?;
+                let end = self.expect(Token::RParen, "close the parenthesis with `)`")?;
+                inner.span = span.to(end);
+                Ok(inner)
+            }
+            _ => {
+                let msg = format!("expected an expression, found {}", self.found());
+                self.error_here(
+                    "expected-expression",
+                    msg,
+                    "parameters are numbers, `pi`, parameter names, + - * / ^ and sin cos tan exp ln sqrt",
+                );
+                Err(())
+            }
+        }
+    }
+}
+
+fn binary(op: BinOp, lhs: Expr, rhs: Expr) -> Expr {
+    Expr { span: lhs.span.to(rhs.span), kind: ExprKind::Binary(op, Box::new(lhs), Box::new(rhs)) }
+}

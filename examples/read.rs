@@ -2,5 +2,7 @@ fn main() {
     let path = std::env::args().nth(1).unwrap();
     let out = tutti::qasm::read_file(std::path::Path::new(&path), &Default::default());
     print!("{}", out.render());
-    if let Some(c) = out.circuit { print!("{c}"); }
+    if let Some(c) = out.circuit {
+        print!("{c}");
+    }
 }

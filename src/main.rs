@@ -8,7 +8,11 @@ use std::process::ExitCode;
 use tutti::qasm::{self, Limits};
 
 #[derive(Parser)]
-#[command(name = "tutti", version, about = "Compile OpenQASM 2 for collective-gate trapped-ion processors, prove the result equal, and budget it")]
+#[command(
+    name = "tutti",
+    version,
+    about = "Compile OpenQASM 2 for collective-gate trapped-ion processors, prove the result equal, and budget it"
+)]
 struct Cli {
     #[command(subcommand)]
     command: Command,
@@ -94,9 +98,15 @@ fn run(cli: Cli) -> Result<ExitCode, String> {
             let circuit = read(&file, &limits.limits())?;
             let summary = circuit.summary();
             if json {
-                println!("{}", serde_json::to_string_pretty(&summary).map_err(|e| e.to_string())?);
+                println!(
+                    "{}",
+                    serde_json::to_string_pretty(&summary).map_err(|e| e.to_string())?
+                );
             } else {
-                print!("{}", tutti::report::inspect_table(&file.display().to_string(), &summary));
+                print!(
+                    "{}",
+                    tutti::report::inspect_table(&file.display().to_string(), &summary)
+                );
             }
             Ok(ExitCode::SUCCESS)
         }

@@ -28,6 +28,11 @@ macro_rules! gate_kinds {
                 match self { $( GateKind::$variant => $name, )* }
             }
 
+            /// Looks a library gate up by its file name (`U` and `CX` are the built-ins).
+            pub fn from_name(name: &str) -> Option<GateKind> {
+                match name { $( $name => Some(GateKind::$variant), )* _ => None }
+            }
+
             /// Number of real parameters.
             pub fn n_params(self) -> usize {
                 match self { $( GateKind::$variant => $params, )* }
@@ -88,16 +93,11 @@ gate_kinds! {
 /// redefine these after including the library; the other library names may be
 /// shadowed by a file's own definition (older files define e.g. `rzz` themselves).
 pub const QELIB1_2017: &[&str] = &[
-    "u3", "u2", "u1", "cx", "id", "x", "y", "z", "h", "s", "sdg", "t", "tdg", "rx", "ry",
-    "rz", "cz", "cy", "ch", "ccx", "crz", "cu1", "cu3",
+    "u3", "u2", "u1", "cx", "id", "x", "y", "z", "h", "s", "sdg", "t", "tdg", "rx", "ry", "rz",
+    "cz", "cy", "ch", "ccx", "crz", "cu1", "cu3",
 ];
 
 impl GateKind {
-    /// Looks a library gate up by its file name (`U` and `CX` are the built-ins).
-    pub fn from_name(name: &str) -> Option<GateKind> {
-        GateKind::ALL.iter().copied().find(|k| k.name() == name)
-    }
-
     /// True for gates whose matrix is diagonal for every parameter value.
     pub fn is_diagonal(self) -> bool {
         use GateKind::*;

@@ -10,7 +10,11 @@ pub mod gates;
 
 pub use gates::{Gate, GateKind, Mat2};
 
+use smallvec::SmallVec;
 use std::collections::BTreeMap;
+
+/// The qubits of one operation; up to four are stored without allocation.
+pub type Qubits = SmallVec<[Qubit; 4]>;
 use std::fmt;
 
 /// A qubit of the circuit, numbered across all quantum registers in declaration order.
@@ -40,11 +44,25 @@ pub struct OpaqueDecl {
 /// One operation of the flat IR.
 #[derive(Debug, Clone, PartialEq)]
 pub enum Op {
-    Gate { gate: Gate, qubits: Vec<Qubit> },
-    Opaque { decl: u32, params: Vec<f64>, qubits: Vec<Qubit> },
-    Measure { qubit: Qubit, clbit: Clbit },
-    Reset { qubit: Qubit },
-    Barrier { qubits: Vec<Qubit> },
+    Gate {
+        gate: Gate,
+        qubits: Qubits,
+    },
+    Opaque {
+        decl: u32,
+        params: Vec<f64>,
+        qubits: Qubits,
+    },
+    Measure {
+        qubit: Qubit,
+        clbit: Clbit,
+    },
+    Reset {
+        qubit: Qubit,
+    },
+    Barrier {
+        qubits: Qubits,
+    },
 }
 
 /// `if(creg == value)`: the condition of a classically controlled instruction.
@@ -65,9 +83,7 @@ impl Op {
     /// The qubits this operation touches.
     pub fn qubits(&self) -> &[Qubit] {
         match self {
-            Op::Gate { qubits, .. } | Op::Opaque { qubits, .. } | Op::Barrier { qubits } => {
-                qubits
-            }
+            Op::Gate { qubits, .. } | Op::Opaque { qubits, .. } | Op::Barrier { qubits } => qubits,
             Op::Measure { qubit, .. } | Op::Reset { qubit } => std::slice::from_ref(qubit),
         }
     }
@@ -109,27 +125,38 @@ impl Circuit {
 
     /// Appends an unconditioned operation.
     pub fn push(&mut self, op: Op) {
-        self.instrs.push(Instr { op, condition: None });
+        self.instrs.push(Instr {
+            op,
+            condition: None,
+        });
     }
 
     /// A circuit with one quantum register `q` of `n` qubits and, if `m > 0`, one
     /// classical register `c` of `m` bits.
     pub fn with_registers(n: u32, m: u32) -> Circuit {
         let mut c = Circuit {
-            qregs: vec![Register { name: "q".into(), offset: 0, size: n }],
+            qregs: vec![Register {
+                name: "q".into(),
+                offset: 0,
+                size: n,
+            }],
             ..Circuit::default()
         };
         if m > 0 {
-            c.cregs.push(Register { name: "c".into(), offset: 0, size: m });
+            c.cregs.push(Register {
+                name: "c".into(),
+                offset: 0,
+                size: m,
+            });
         }
         c
     }
 
     /// True when the circuit has no measurement, reset, condition or opaque gate.
     pub fn is_unitary(&self) -> bool {
-        self.instrs.iter().all(|i| {
-            i.condition.is_none() && matches!(i.op, Op::Gate { .. } | Op::Barrier { .. })
-        })
+        self.instrs
+            .iter()
+            .all(|i| i.condition.is_none() && matches!(i.op, Op::Gate { .. } | Op::Barrier { .. }))
     }
 
     /// Counts per gate name, total operations and depth (each operation occupies
@@ -236,7 +263,13 @@ impl fmt::Display for Circuit {
             if params.is_empty() {
                 writeln!(f, "opaque {} {};", d.name, args.join(","))?;
             } else {
-                writeln!(f, "opaque {}({}) {};", d.name, params.join(","), args.join(","))?;
+                writeln!(
+                    f,
+                    "opaque {}({}) {};",
+                    d.name,
+                    params.join(","),
+                    args.join(",")
+                )?;
             }
         }
         for r in &self.qregs {
@@ -247,10 +280,17 @@ impl fmt::Display for Circuit {
         }
         for instr in &self.instrs {
             if let Some(cond) = instr.condition {
-                write!(f, "if({}=={}) ", self.cregs[cond.creg as usize].name, cond.value)?;
+                write!(
+                    f,
+                    "if({}=={}) ",
+                    self.cregs[cond.creg as usize].name, cond.value
+                )?;
             }
             let qubit_list = |qs: &[Qubit]| -> String {
-                qs.iter().map(|q| self.qubit_name(*q)).collect::<Vec<_>>().join(",")
+                qs.iter()
+                    .map(|q| self.qubit_name(*q))
+                    .collect::<Vec<_>>()
+                    .join(",")
             };
             let param_list = |ps: &[f64]| -> String {
                 if ps.is_empty() {
@@ -268,7 +308,11 @@ impl fmt::Display for Circuit {
                     param_list(gate.params()),
                     qubit_list(qubits)
                 )?,
-                Op::Opaque { decl, params, qubits } => writeln!(
+                Op::Opaque {
+                    decl,
+                    params,
+                    qubits,
+                } => writeln!(
                     f,
                     "{}{} {};",
                     self.opaque[*decl as usize].name,

@@ -2,10 +2,15 @@
 //! attached (names are not resolved here).
 
 use super::diag::Span;
+use compact_str::CompactString;
+use smallvec::SmallVec;
+
+/// Arguments of one call; most calls have at most three, kept without allocation.
+pub type ArgList = SmallVec<[Arg; 3]>;
 
 #[derive(Debug, Clone, PartialEq)]
 pub struct Ident {
-    pub name: String,
+    pub name: CompactString,
     pub span: Span,
 }
 
@@ -56,7 +61,7 @@ impl Func {
 pub enum ExprKind {
     Number(f64),
     Pi,
-    Param(String),
+    Param(CompactString),
     Neg(Box<Expr>),
     Binary(BinOp, Box<Expr>, Box<Expr>),
     Call(Func, Box<Expr>),
@@ -80,15 +85,15 @@ pub struct Arg {
 #[derive(Debug, Clone, PartialEq)]
 pub struct GateCall {
     pub name: Ident,
-    pub params: Vec<Expr>,
-    pub args: Vec<Arg>,
+    pub params: SmallVec<[Expr; 3]>,
+    pub args: ArgList,
     pub span: Span,
 }
 
 /// Operations allowed after `if(...)` and at top level.
 #[derive(Debug, Clone, PartialEq)]
 pub enum QOp {
-    Call(GateCall),
+    Call(Box<GateCall>),
     Measure { src: Arg, dst: Arg, span: Span },
     Reset { arg: Arg, span: Span },
 }
@@ -97,7 +102,7 @@ pub enum QOp {
 #[derive(Debug, Clone, PartialEq)]
 pub enum BodyStmt {
     Call(GateCall),
-    Barrier { args: Vec<Arg>, span: Span },
+    Barrier { args: ArgList, span: Span },
 }
 
 #[derive(Debug, Clone, PartialEq)]
@@ -112,14 +117,36 @@ pub struct GateDef {
 
 #[derive(Debug, Clone, PartialEq)]
 pub enum Stmt {
-    Version { version: String, span: Span },
-    Include { path: String, span: Span },
-    Qreg { name: Ident, size: (u64, Span), span: Span },
-    Creg { name: Ident, size: (u64, Span), span: Span },
+    Version {
+        version: String,
+        span: Span,
+    },
+    Include {
+        path: String,
+        span: Span,
+    },
+    Qreg {
+        name: Ident,
+        size: (u64, Span),
+        span: Span,
+    },
+    Creg {
+        name: Ident,
+        size: (u64, Span),
+        span: Span,
+    },
     Gate(GateDef),
     QOp(QOp),
-    Barrier { args: Vec<Arg>, span: Span },
-    If { creg: Ident, value: (u64, Span), op: QOp, span: Span },
+    Barrier {
+        args: ArgList,
+        span: Span,
+    },
+    If {
+        creg: Ident,
+        value: (u64, Span),
+        op: QOp,
+        span: Span,
+    },
 }
 
 #[derive(Debug, Clone, PartialEq, Default)]

@@ -20,12 +20,20 @@ pub struct Span {
 
 impl Span {
     pub fn new(file: FileId, range: Range<usize>) -> Span {
-        Span { file, start: range.start as u32, end: range.end as u32 }
+        Span {
+            file,
+            start: range.start as u32,
+            end: range.end as u32,
+        }
     }
 
     /// The smallest span covering both.
     pub fn to(self, other: Span) -> Span {
-        Span { file: self.file, start: self.start.min(other.start), end: self.end.max(other.end) }
+        Span {
+            file: self.file,
+            start: self.start.min(other.start),
+            end: self.end.max(other.end),
+        }
     }
 }
 
@@ -99,7 +107,10 @@ impl Diagnostic {
     }
 
     pub fn warning(code: &'static str, span: Span, message: impl Into<String>) -> Diagnostic {
-        Diagnostic { severity: Severity::Warning, ..Diagnostic::error(code, span, message) }
+        Diagnostic {
+            severity: Severity::Warning,
+            ..Diagnostic::error(code, span, message)
+        }
     }
 
     pub fn label(mut self, label: impl Into<String>) -> Diagnostic {
@@ -123,25 +134,40 @@ impl Diagnostic {
         let name = sources.name(self.span.file).to_string();
         let text = sources.text(self.span.file);
         let (line, col) = sources.line_col(self.span.file, self.span.start);
-        let to_char = |b: u32| text[..floor_char_boundary(text, b as usize)].chars().count();
+        let to_char = |b: u32| {
+            text[..floor_char_boundary(text, b as usize)]
+                .chars()
+                .count()
+        };
         let start = to_char(self.span.start);
         let end = to_char(self.span.end).max(start + 1);
         let kind = match self.severity {
             Severity::Error => ReportKind::Error,
             Severity::Warning => ReportKind::Warning,
         };
-        let label_text = if self.label.is_empty() { "here" } else { self.label.as_str() };
+        let label_text = if self.label.is_empty() {
+            "here"
+        } else {
+            self.label.as_str()
+        };
         let report = Report::build(kind, name.as_str(), start)
             .with_code(self.code)
             .with_message(format!("{name}:{line}:{col}: {}", self.message))
             .with_label(Label::new((name.as_str(), start..end)).with_message(label_text))
             .with_help(&self.hint)
-            .with_config(Config::default().with_color(false).with_char_set(CharSet::Ascii))
+            .with_config(
+                Config::default()
+                    .with_color(false)
+                    .with_char_set(CharSet::Ascii),
+            )
             .finish();
         let mut out = Vec::new();
         let cache = (name.as_str(), Source::from(text));
         if report.write(cache, &mut out).is_err() {
-            return format!("{name}:{line}:{col}: {}\n  hint: {}\n", self.message, self.hint);
+            return format!(
+                "{name}:{line}:{col}: {}\n  hint: {}\n",
+                self.message, self.hint
+            );
         }
         String::from_utf8_lossy(&out).into_owned()
     }
@@ -155,5 +181,9 @@ impl fmt::Display for Diagnostic {
 
 /// Renders every diagnostic, errors and warnings in source order.
 pub fn render_all(diags: &[Diagnostic], sources: &SourceMap) -> String {
-    diags.iter().map(|d| d.render(sources)).collect::<Vec<_>>().join("")
+    diags
+        .iter()
+        .map(|d| d.render(sources))
+        .collect::<Vec<_>>()
+        .join("")
 }

@@ -7,9 +7,10 @@
 
 use super::ast::*;
 use super::diag::{Diagnostic, FileId, SourceMap, Span};
-use super::parser::parse;
+use super::parser::parse_each;
 use crate::circuit::gates::QELIB1_2017;
 use crate::circuit::*;
+use compact_str::CompactString;
 use std::collections::HashMap;
 use std::path::{Path, PathBuf};
 
@@ -43,6 +44,12 @@ impl Default for Limits {
 pub trait Loader {
     /// Reads the file at `path`, or says why it cannot.
     fn load(&self, path: &Path) -> Result<String, String>;
+
+    /// A name that is equal for every spelling of the same file; include cycles are
+    /// found by comparing these.
+    fn canonical(&self, path: &Path) -> PathBuf {
+        path.to_path_buf()
+    }
 }
 
 /// Reads included files from the file system.
@@ -52,6 +59,10 @@ impl Loader for FsLoader {
     fn load(&self, path: &Path) -> Result<String, String> {
         std::fs::read_to_string(path).map_err(|e| e.to_string())
     }
+
+    fn canonical(&self, path: &Path) -> PathBuf {
+        std::fs::canonicalize(path).unwrap_or_else(|_| path.to_path_buf())
+    }
 }
 
 /// Included files held in memory, for tests and embedding.
@@ -60,7 +71,10 @@ pub struct MemoryLoader(pub HashMap<PathBuf, String>);
 
 impl Loader for MemoryLoader {
     fn load(&self, path: &Path) -> Result<String, String> {
-        self.0.get(path).cloned().ok_or_else(|| "no such file".to_string())
+        self.0
+            .get(path)
+            .cloned()
+            .ok_or_else(|| "no such file".to_string())
     }
 }
 
@@ -100,12 +114,17 @@ pub fn read_with(name: &str, text: &str, limits: &Limits, loader: &dyn Loader) -
         stopped: false,
     };
     let file = sources.add(name, text);
-    e.include_stack.push(PathBuf::from(name));
+    e.include_stack
+        .push((PathBuf::from(name), loader.canonical(Path::new(name))));
     e.file(file, &mut sources, true);
     let has_error = e.diags.iter().any(|d| d.is_error());
     let mut diagnostics = e.diags;
     diagnostics.sort_by_key(|d| (d.span.file.0, d.span.start));
-    ReadOutcome { circuit: if has_error { None } else { Some(e.circuit) }, diagnostics, sources }
+    ReadOutcome {
+        circuit: if has_error { None } else { Some(e.circuit) },
+        diagnostics,
+        sources,
+    }
 }
 
 #[derive(Clone, Copy)]
@@ -124,17 +143,18 @@ struct Elaborator<'l> {
     loader: &'l dyn Loader,
     diags: Vec<Diagnostic>,
     circuit: Circuit,
-    regs: HashMap<String, (RegKind, Span)>,
-    gates: HashMap<String, usize>,
+    regs: HashMap<CompactString, (RegKind, Span)>,
+    gates: HashMap<CompactString, usize>,
     defs: Vec<Def>,
     library: bool,
-    include_stack: Vec<PathBuf>,
+    /// The files being read, outermost first: (name as shown, canonical name).
+    include_stack: Vec<(PathBuf, PathBuf)>,
     /// Set when a limit was hit: nothing more is elaborated.
     stopped: bool,
 }
 
 struct Def {
-    ast: GateDef,
+    ast: std::rc::Rc<GateDef>,
     opaque_index: Option<u32>,
     nesting: usize,
 }
@@ -153,14 +173,11 @@ impl<'l> Elaborator<'l> {
             );
             return;
         }
-        let (program, diags) = parse(file, &text, is_main);
+        let diags = parse_each(file, &text, is_main, |stmt| {
+            self.statement(&stmt, file, sources);
+            !self.stopped
+        });
         self.diags.extend(diags);
-        for stmt in &program.stmts {
-            if self.stopped {
-                return;
-            }
-            self.statement(stmt, file, sources);
-        }
     }
 
     fn statement(&mut self, stmt: &Stmt, file: FileId, sources: &mut SourceMap) {
@@ -176,10 +193,21 @@ impl<'l> Elaborator<'l> {
                     let mut qubits: Vec<Qubit> = lists.into_iter().flatten().collect();
                     qubits.sort();
                     qubits.dedup();
-                    self.emit(Op::Barrier { qubits }, None, stmt_span(stmt));
+                    self.emit(
+                        Op::Barrier {
+                            qubits: qubits.into(),
+                        },
+                        None,
+                        stmt_span(stmt),
+                    );
                 }
             }
-            Stmt::If { creg, value, op, span } => {
+            Stmt::If {
+                creg,
+                value,
+                op,
+                span,
+            } => {
                 let Some(index) = self.creg(creg) else { return };
                 let size = self.circuit.cregs[index].size;
                 if size < 64 && value.0 >= 1u64 << size {
@@ -187,14 +215,23 @@ impl<'l> Elaborator<'l> {
                         Diagnostic::error(
                             "condition-out-of-range",
                             value.1,
-                            format!("register `{}` has {size} bits and can never equal {}", creg.name, value.0),
+                            format!(
+                                "register `{}` has {size} bits and can never equal {}",
+                                creg.name, value.0
+                            ),
                         )
                         .hint(format!("the value must be below {}", 1u64 << size)),
                     );
                     return;
                 }
                 let _ = span;
-                self.qop(op, Some(Condition { creg: index as u32, value: value.0 }));
+                self.qop(
+                    op,
+                    Some(Condition {
+                        creg: index as u32,
+                        value: value.0,
+                    }),
+                );
             }
         }
     }
@@ -204,12 +241,24 @@ impl<'l> Elaborator<'l> {
             self.library = true;
             return;
         }
-        let parent = self.include_stack.last().and_then(|p| p.parent()).map(Path::to_path_buf);
+        let parent = self
+            .include_stack
+            .last()
+            .and_then(|p| p.0.parent())
+            .map(Path::to_path_buf);
         let resolved = parent.unwrap_or_default().join(path);
-        if self.include_stack.iter().any(|p| p == &resolved) {
+        let canonical = self.loader.canonical(&resolved);
+        if self.include_stack.iter().any(|p| p.1 == canonical) {
             self.diags.push(
-                Diagnostic::error("include-cycle", span, format!("`{path}` includes itself (through {})", self.include_chain()))
-                    .hint("remove the include that closes the cycle"),
+                Diagnostic::error(
+                    "include-cycle",
+                    span,
+                    format!(
+                        "`{path}` includes itself (through {})",
+                        self.include_chain()
+                    ),
+                )
+                .hint("remove the include that closes the cycle"),
             );
             return;
         }
@@ -218,7 +267,10 @@ impl<'l> Elaborator<'l> {
                 Diagnostic::error(
                     "include-too-deep",
                     span,
-                    format!("includes are nested more than {} deep", self.limits.max_include_depth),
+                    format!(
+                        "includes are nested more than {} deep",
+                        self.limits.max_include_depth
+                    ),
                 )
                 .hint("flatten the includes or raise the include depth limit"),
             );
@@ -227,7 +279,7 @@ impl<'l> Elaborator<'l> {
         match self.loader.load(&resolved) {
             Ok(text) => {
                 let id = sources.add(resolved.display().to_string(), text);
-                self.include_stack.push(resolved);
+                self.include_stack.push((resolved, canonical));
                 self.file(id, sources, false);
                 self.include_stack.pop();
             }
@@ -240,29 +292,49 @@ impl<'l> Elaborator<'l> {
     }
 
     fn include_chain(&self) -> String {
-        self.include_stack.iter().map(|p| p.display().to_string()).collect::<Vec<_>>().join(" -> ")
+        self.include_stack
+            .iter()
+            .map(|p| p.0.display().to_string())
+            .collect::<Vec<_>>()
+            .join(" -> ")
     }
 
     fn declare(&mut self, name: &Ident, size: (u64, Span), quantum: bool) {
         if let Some((_, prev)) = self.regs.get(&name.name) {
             let _ = prev;
             self.diags.push(
-                Diagnostic::error("duplicate-register", name.span, format!("register `{}` is already declared", name.name))
-                    .hint("give each register its own name"),
+                Diagnostic::error(
+                    "duplicate-register",
+                    name.span,
+                    format!("register `{}` is already declared", name.name),
+                )
+                .hint("give each register its own name"),
             );
             return;
         }
         if size.0 == 0 {
             self.diags.push(
-                Diagnostic::error("empty-register", size.1, format!("register `{}` has size 0", name.name))
-                    .hint("a register holds at least one bit"),
+                Diagnostic::error(
+                    "empty-register",
+                    size.1,
+                    format!("register `{}` has size 0", name.name),
+                )
+                .hint("a register holds at least one bit"),
             );
             return;
         }
         let (total, limit, kind) = if quantum {
-            (self.circuit.n_qubits() as u64, self.limits.max_qubits, "qubits")
+            (
+                self.circuit.n_qubits() as u64,
+                self.limits.max_qubits,
+                "qubits",
+            )
         } else {
-            (self.circuit.n_clbits() as u64, self.limits.max_clbits, "classical bits")
+            (
+                self.circuit.n_clbits() as u64,
+                self.limits.max_clbits,
+                "classical bits",
+            )
         };
         if size.0 > self.limits.max_register_size || total + size.0 > limit {
             self.diags.push(
@@ -278,7 +350,11 @@ impl<'l> Elaborator<'l> {
             );
             return;
         }
-        let reg = Register { name: name.name.clone(), offset: total as u32, size: size.0 as u32 };
+        let reg = Register {
+            name: name.name.to_string(),
+            offset: total as u32,
+            size: size.0 as u32,
+        };
         let kind = if quantum {
             self.circuit.qregs.push(reg);
             RegKind::Quantum(self.circuit.qregs.len() - 1)
@@ -304,7 +380,10 @@ impl<'l> Elaborator<'l> {
     fn signature(&self, g: &GateRef) -> (usize, usize) {
         match g {
             GateRef::Library(k) => (k.n_params(), k.n_qubits()),
-            GateRef::Defined(i) => (self.defs[*i].ast.params.len(), self.defs[*i].ast.qargs.len()),
+            GateRef::Defined(i) => (
+                self.defs[*i].ast.params.len(),
+                self.defs[*i].ast.qargs.len(),
+            ),
         }
     }
 
@@ -314,7 +393,12 @@ impl<'l> Elaborator<'l> {
         } else {
             "define it with `gate` before its first use, or check the spelling".to_string()
         };
-        Diagnostic::error("undefined-gate", name.span, format!("gate `{}` is not defined", name.name)).hint(hint)
+        Diagnostic::error(
+            "undefined-gate",
+            name.span,
+            format!("gate `{}` is not defined", name.name),
+        )
+        .hint(hint)
     }
 
     /// Checks a call's name and counts; returns the gate it names.
@@ -330,9 +414,16 @@ impl<'l> Elaborator<'l> {
                 Diagnostic::error(
                     "parameter-count",
                     call.name.span,
-                    format!("gate `{}` takes {n_params} parameter(s), given {}", call.name.name, call.params.len()),
+                    format!(
+                        "gate `{}` takes {n_params} parameter(s), given {}",
+                        call.name.name,
+                        call.params.len()
+                    ),
                 )
-                .hint(format!("write `{}` with {n_params} parameter(s) in parentheses", call.name.name)),
+                .hint(format!(
+                    "write `{}` with {n_params} parameter(s) in parentheses",
+                    call.name.name
+                )),
             );
             return None;
         }
@@ -341,7 +432,11 @@ impl<'l> Elaborator<'l> {
                 Diagnostic::error(
                     "qubit-count",
                     call.span,
-                    format!("gate `{}` acts on {n_qubits} qubit(s), given {}", call.name.name, call.args.len()),
+                    format!(
+                        "gate `{}` acts on {n_qubits} qubit(s), given {}",
+                        call.name.name,
+                        call.args.len()
+                    ),
                 )
                 .hint("pass one qubit or register per gate argument, separated by commas"),
             );
@@ -356,8 +451,12 @@ impl<'l> Elaborator<'l> {
             || (self.library && QELIB1_2017.contains(&name.as_str()));
         if redefines_library || self.gates.contains_key(name) {
             self.diags.push(
-                Diagnostic::error("duplicate-gate", def.name.span, format!("gate `{name}` is already defined"))
-                    .hint("rename this gate; standard library gates cannot be redefined"),
+                Diagnostic::error(
+                    "duplicate-gate",
+                    def.name.span,
+                    format!("gate `{name}` is already defined"),
+                )
+                .hint("rename this gate; standard library gates cannot be redefined"),
             );
             return;
         }
@@ -365,8 +464,12 @@ impl<'l> Elaborator<'l> {
         for (i, p) in def.params.iter().enumerate() {
             if def.params[..i].iter().any(|q| q.name == p.name) {
                 self.diags.push(
-                    Diagnostic::error("duplicate-parameter", p.span, format!("parameter `{}` is listed twice", p.name))
-                        .hint("give each parameter its own name"),
+                    Diagnostic::error(
+                        "duplicate-parameter",
+                        p.span,
+                        format!("parameter `{}` is listed twice", p.name),
+                    )
+                    .hint("give each parameter its own name"),
                 );
                 ok = false;
             }
@@ -374,8 +477,12 @@ impl<'l> Elaborator<'l> {
         for (i, a) in def.qargs.iter().enumerate() {
             if def.qargs[..i].iter().any(|q| q.name == a.name) {
                 self.diags.push(
-                    Diagnostic::error("duplicate-argument", a.span, format!("qubit argument `{}` is listed twice", a.name))
-                        .hint("give each qubit argument its own name"),
+                    Diagnostic::error(
+                        "duplicate-argument",
+                        a.span,
+                        format!("qubit argument `{}` is listed twice", a.name),
+                    )
+                    .hint("give each qubit argument its own name"),
                 );
                 ok = false;
             }
@@ -390,8 +497,12 @@ impl<'l> Elaborator<'l> {
                 for arg in args {
                     if let Some((_, span)) = arg.index {
                         self.diags.push(
-                            Diagnostic::error("index-in-gate-body", span, "qubits inside a gate body cannot be indexed")
-                                .hint("use the gate's argument names as they are"),
+                            Diagnostic::error(
+                                "index-in-gate-body",
+                                span,
+                                "qubits inside a gate body cannot be indexed",
+                            )
+                            .hint("use the gate's argument names as they are"),
                         );
                         ok = false;
                     } else if !def.qargs.iter().any(|q| q.name == arg.reg.name) {
@@ -403,17 +514,25 @@ impl<'l> Elaborator<'l> {
                             )
                             .hint(format!(
                                 "the arguments are: {}",
-                                def.qargs.iter().map(|q| q.name.as_str()).collect::<Vec<_>>().join(", ")
+                                def.qargs
+                                    .iter()
+                                    .map(|q| q.name.as_str())
+                                    .collect::<Vec<_>>()
+                                    .join(", ")
                             )),
                         );
                         ok = false;
                     }
                 }
                 let Some(call) = call else { continue };
-                if &call.name.name == name {
+                if call.name.name == *name {
                     self.diags.push(
-                        Diagnostic::error("recursive-gate", call.name.span, format!("gate `{name}` calls itself"))
-                            .hint("OpenQASM 2 gates cannot be recursive"),
+                        Diagnostic::error(
+                            "recursive-gate",
+                            call.name.span,
+                            format!("gate `{name}` calls itself"),
+                        )
+                        .hint("OpenQASM 2 gates cannot be recursive"),
                     );
                     ok = false;
                     continue;
@@ -426,8 +545,12 @@ impl<'l> Elaborator<'l> {
                 for (i, a) in call.args.iter().enumerate() {
                     if call.args[..i].iter().any(|b| b.reg.name == a.reg.name) {
                         self.diags.push(
-                            Diagnostic::error("repeated-qubit", a.span, format!("qubit `{}` is used twice in one gate", a.reg.name))
-                                .hint("a gate acts on distinct qubits"),
+                            Diagnostic::error(
+                                "repeated-qubit",
+                                a.span,
+                                format!("qubit `{}` is used twice in one gate", a.reg.name),
+                            )
+                            .hint("a gate acts on distinct qubits"),
                         );
                         ok = false;
                     }
@@ -453,7 +576,7 @@ impl<'l> Elaborator<'l> {
         }
         let opaque_index = if def.body.is_none() {
             self.circuit.opaque.push(OpaqueDecl {
-                name: name.clone(),
+                name: name.to_string(),
                 n_params: def.params.len(),
                 n_qubits: def.qargs.len(),
             });
@@ -462,14 +585,18 @@ impl<'l> Elaborator<'l> {
             None
         };
         self.gates.insert(name.clone(), self.defs.len());
-        self.defs.push(Def { ast: def.clone(), opaque_index, nesting });
+        self.defs.push(Def {
+            ast: std::rc::Rc::new(def.clone()),
+            opaque_index,
+            nesting,
+        });
     }
 
     fn check_expr_names(&mut self, e: &Expr, params: &[Ident]) -> bool {
         match &e.kind {
             ExprKind::Number(_) | ExprKind::Pi => true,
             ExprKind::Param(p) => {
-                if params.iter().any(|q| &q.name == p) {
+                if params.iter().any(|q| q.name == *p) {
                     true
                 } else {
                     let hint = if params.is_empty() {
@@ -477,11 +604,20 @@ impl<'l> Elaborator<'l> {
                     } else {
                         format!(
                             "the parameters in scope are: {}",
-                            params.iter().map(|q| q.name.as_str()).collect::<Vec<_>>().join(", ")
+                            params
+                                .iter()
+                                .map(|q| q.name.as_str())
+                                .collect::<Vec<_>>()
+                                .join(", ")
                         )
                     };
                     self.diags.push(
-                        Diagnostic::error("unknown-parameter", e.span, format!("`{p}` is not a parameter in scope")).hint(hint),
+                        Diagnostic::error(
+                            "unknown-parameter",
+                            e.span,
+                            format!("`{p}` is not a parameter in scope"),
+                        )
+                        .hint(hint),
                     );
                     false
                 }
@@ -499,15 +635,23 @@ impl<'l> Elaborator<'l> {
             Some((RegKind::Classical(i), _)) => Some(*i),
             Some((RegKind::Quantum(_), _)) => {
                 self.diags.push(
-                    Diagnostic::error("expected-creg", name.span, format!("`{}` is a quantum register", name.name))
-                        .hint("conditions and measurement results use classical registers (`creg`)"),
+                    Diagnostic::error(
+                        "expected-creg",
+                        name.span,
+                        format!("`{}` is a quantum register", name.name),
+                    )
+                    .hint("conditions and measurement results use classical registers (`creg`)"),
                 );
                 None
             }
             None => {
                 self.diags.push(
-                    Diagnostic::error("undefined-register", name.span, format!("register `{}` is not declared", name.name))
-                        .hint("declare it with `creg` before use"),
+                    Diagnostic::error(
+                        "undefined-register",
+                        name.span,
+                        format!("register `{}` is not declared", name.name),
+                    )
+                    .hint("declare it with `creg` before use"),
                 );
                 None
             }
@@ -515,38 +659,61 @@ impl<'l> Elaborator<'l> {
     }
 
     /// Resolves one argument to the global indices it names (one, or a whole register).
-    fn resolve_arg(&mut self, arg: &Arg, quantum: bool) -> Option<Vec<u32>> {
+    fn resolve_arg(&mut self, arg: &Arg, quantum: bool) -> Option<Bits> {
         let reg = match self.regs.get(&arg.reg.name) {
             Some((RegKind::Quantum(i), _)) if quantum => &self.circuit.qregs[*i],
             Some((RegKind::Classical(i), _)) if !quantum => &self.circuit.cregs[*i],
             Some(_) => {
-                let (is, want, decl) =
-                    if quantum { ("classical", "qubits", "qreg") } else { ("quantum", "classical bits", "creg") };
+                let (is, want, decl) = if quantum {
+                    ("classical", "qubits", "qreg")
+                } else {
+                    ("quantum", "classical bits", "creg")
+                };
                 self.diags.push(
-                    Diagnostic::error("wrong-register-kind", arg.reg.span, format!("`{}` is a {is} register", arg.reg.name))
-                        .hint(format!("this place takes {want}: a register declared with `{decl}`")),
+                    Diagnostic::error(
+                        "wrong-register-kind",
+                        arg.reg.span,
+                        format!("`{}` is a {is} register", arg.reg.name),
+                    )
+                    .hint(format!(
+                        "this place takes {want}: a register declared with `{decl}`"
+                    )),
                 );
                 return None;
             }
             None => {
                 self.diags.push(
-                    Diagnostic::error("undefined-register", arg.reg.span, format!("register `{}` is not declared", arg.reg.name))
-                        .hint(format!("declare it with `{}` before use", if quantum { "qreg" } else { "creg" })),
+                    Diagnostic::error(
+                        "undefined-register",
+                        arg.reg.span,
+                        format!("register `{}` is not declared", arg.reg.name),
+                    )
+                    .hint(format!(
+                        "declare it with `{}` before use",
+                        if quantum { "qreg" } else { "creg" }
+                    )),
                 );
                 return None;
             }
         };
         match arg.index {
-            None => Some((reg.offset..reg.offset + reg.size).collect()),
-            Some((i, span)) if i < reg.size as u64 => {
-                let _ = span;
-                Some(vec![reg.offset + i as u32])
-            }
+            None => Some(Bits {
+                start: reg.offset,
+                len: reg.size,
+            }),
+            Some((i, _)) if i < reg.size as u64 => Some(Bits {
+                start: reg.offset + i as u32,
+                len: 1,
+            }),
             Some((i, span)) => {
                 let (name, size) = (reg.name.clone(), reg.size);
                 self.diags.push(
-                    Diagnostic::error("index-out-of-range", span, format!("index {i} is out of range for `{name}[{size}]`"))
-                        .hint(format!("indices of `{name}` run from 0 to {}", size - 1)),
+                    Diagnostic::error(
+                        "index-out-of-range",
+                        span,
+                        format!("index {i} is out of range for `{name}[{size}]`"),
+                    )
+                    .hint(format!("indices of `{name}` run from 0 to {}", size - 1)),
                 );
                 None
             }
@@ -558,7 +725,7 @@ impl<'l> Elaborator<'l> {
         let mut ok = true;
         for a in args {
             match self.resolve_arg(a, true) {
-                Some(v) => out.push(v.into_iter().map(Qubit).collect()),
+                Some(v) => out.push((0..v.len).map(|k| Qubit(v.start + k)).collect()),
                 None => ok = false,
             }
         }
@@ -566,20 +733,24 @@ impl<'l> Elaborator<'l> {
     }
 
     /// The broadcast length of a list of arguments: registers must agree in size.
-    fn broadcast(&mut self, args: &[Arg], lists: &[Vec<u32>]) -> Option<usize> {
+    fn broadcast(&mut self, args: &[&Arg], lists: &[Bits]) -> Option<usize> {
         let mut len: Option<(usize, &Arg)> = None;
         for (a, l) in args.iter().zip(lists) {
             if a.index.is_some() {
                 continue;
             }
+            let l_len = l.len as usize;
             match len {
-                None => len = Some((l.len(), a)),
-                Some((n, first)) if n != l.len() => {
+                None => len = Some((l_len, a)),
+                Some((n, first)) if n != l_len => {
                     self.diags.push(
                         Diagnostic::error(
                             "register-size-mismatch",
                             a.span,
-                            format!("register `{}` has {} bits but `{}` has {n}", a.reg.name, l.len(), first.reg.name),
+                            format!(
+                                "register `{}` has {} bits but `{}` has {n}",
+                                a.reg.name, l_len, first.reg.name
+                            ),
                         )
                         .hint("whole-register arguments of one operation must have the same size"),
                     );
@@ -595,20 +766,34 @@ impl<'l> Elaborator<'l> {
         match op {
             QOp::Call(call) => self.top_call(call, cond),
             QOp::Measure { src, dst, span } => {
-                let (Some(q), Some(c)) = (self.resolve_arg(src, true), self.resolve_arg(dst, false)) else { return };
-                let Some(n) = self.broadcast(&[src.clone(), dst.clone()], &[q.clone(), c.clone()]) else { return };
-                for k in 0..n {
-                    let qubit = Qubit(q[if q.len() == 1 { 0 } else { k }]);
-                    let clbit = Clbit(c[if c.len() == 1 { 0 } else { k }]);
+                let (Some(q), Some(c)) =
+                    (self.resolve_arg(src, true), self.resolve_arg(dst, false))
+                else {
+                    return;
+                };
+                let Some(n) = self.broadcast(&[src, dst], &[q, c]) else {
+                    return;
+                };
+                for k in 0..n as u32 {
+                    let qubit = Qubit(q.at(k));
+                    let clbit = Clbit(c.at(k));
                     if !self.emit(Op::Measure { qubit, clbit }, cond, *span) {
                         return;
                     }
                 }
             }
             QOp::Reset { arg, span } => {
-                let Some(q) = self.resolve_arg(arg, true) else { return };
-                for qubit in q {
-                    if !self.emit(Op::Reset { qubit: Qubit(qubit) }, cond, *span) {
+                let Some(q) = self.resolve_arg(arg, true) else {
+                    return;
+                };
+                for k in 0..q.len {
+                    if !self.emit(
+                        Op::Reset {
+                            qubit: Qubit(q.start + k),
+                        },
+                        cond,
+                        *span,
+                    ) {
                         return;
                     }
                 }
@@ -617,7 +802,9 @@ impl<'l> Elaborator<'l> {
     }
 
     fn top_call(&mut self, call: &GateCall, cond: Option<Condition>) {
-        let Some(g) = self.check_call(call) else { return };
+        let Some(g) = self.check_call(call) else {
+            return;
+        };
         if !self.check_expr_names_all(&call.params) {
             return;
         }
@@ -626,8 +813,12 @@ impl<'l> Elaborator<'l> {
             let v = eval(p, &[], &[]);
             if !v.is_finite() {
                 self.diags.push(
-                    Diagnostic::error("non-finite-parameter", p.span, format!("this parameter evaluates to {v}"))
-                        .hint("check for division by zero or ln/sqrt of a negative number"),
+                    Diagnostic::error(
+                        "non-finite-parameter",
+                        p.span,
+                        format!("this parameter evaluates to {v}"),
+                    )
+                    .hint("check for division by zero or ln/sqrt of a negative number"),
                 );
                 return;
             }
@@ -640,24 +831,35 @@ impl<'l> Elaborator<'l> {
                 None => return,
             }
         }
-        let Some(n) = self.broadcast(&call.args, &lists) else { return };
+        let arg_refs: Vec<&Arg> = call.args.iter().collect();
+        let Some(n) = self.broadcast(&arg_refs, &lists) else {
+            return;
+        };
         let mut qubits = Vec::with_capacity(lists.len());
-        for k in 0..n {
+        for k in 0..n as u32 {
             qubits.clear();
-            qubits.extend(lists.iter().map(|l| Qubit(l[if l.len() == 1 { 0 } else { k }])));
+            qubits.extend(lists.iter().map(|l| Qubit(l.at(k))));
             for (i, q) in qubits.iter().enumerate() {
                 if qubits[..i].contains(q) {
-                    let name = self.circuit.qregs.iter().find(|r| q.0 >= r.offset && q.0 < r.offset + r.size);
-                    let shown = name.map_or(String::new(), |r| format!("{}[{}]", r.name, q.0 - r.offset));
+                    let name = self
+                        .circuit
+                        .qregs
+                        .iter()
+                        .find(|r| q.0 >= r.offset && q.0 < r.offset + r.size);
+                    let shown =
+                        name.map_or(String::new(), |r| format!("{}[{}]", r.name, q.0 - r.offset));
                     self.diags.push(
-                        Diagnostic::error("repeated-qubit", call.span, format!("qubit {shown} is used twice in one gate"))
-                            .hint("a gate acts on distinct qubits"),
+                        Diagnostic::error(
+                            "repeated-qubit",
+                            call.span,
+                            format!("qubit {shown} is used twice in one gate"),
+                        )
+                        .hint("a gate acts on distinct qubits"),
                     );
                     return;
                 }
             }
-            let args = qubits.clone();
-            if !self.expand(&g, &params, &args, cond, call.span) {
+            if !self.expand(&g, &params, &qubits, cond, call.span) {
                 return;
             }
         }
@@ -672,32 +874,69 @@ impl<'l> Elaborator<'l> {
     }
 
     /// Emits a gate with its arguments bound; returns false once a limit was hit.
-    fn expand(&mut self, g: &GateRef, params: &[f64], qubits: &[Qubit], cond: Option<Condition>, at: Span) -> bool {
+    fn expand(
+        &mut self,
+        g: &GateRef,
+        params: &[f64],
+        qubits: &[Qubit],
+        cond: Option<Condition>,
+        at: Span,
+    ) -> bool {
         match *g {
-            GateRef::Library(kind) => {
-                self.emit(Op::Gate { gate: Gate::new(kind, params), qubits: qubits.to_vec() }, cond, at)
-            }
+            GateRef::Library(kind) => self.emit(
+                Op::Gate {
+                    gate: Gate::new(kind, params),
+                    qubits: Qubits::from_slice(qubits),
+                },
+                cond,
+                at,
+            ),
             GateRef::Defined(i) => {
                 if let Some(decl) = self.defs[i].opaque_index {
-                    return self.emit(Op::Opaque { decl, params: params.to_vec(), qubits: qubits.to_vec() }, cond, at);
+                    return self.emit(
+                        Op::Opaque {
+                            decl,
+                            params: params.to_vec(),
+                            qubits: Qubits::from_slice(qubits),
+                        },
+                        cond,
+                        at,
+                    );
                 }
                 // The body was checked when the gate was defined, so every name resolves.
                 let body = self.defs[i].ast.body.clone().unwrap_or_default();
-                let param_names: Vec<String> = self.defs[i].ast.params.iter().map(|p| p.name.clone()).collect();
-                let qarg_names: Vec<String> = self.defs[i].ast.qargs.iter().map(|p| p.name.clone()).collect();
-                let bind = |a: &Arg| qubits[qarg_names.iter().position(|n| *n == a.reg.name).unwrap_or(0)];
+                let param_names: Vec<CompactString> = self.defs[i]
+                    .ast
+                    .params
+                    .iter()
+                    .map(|p| p.name.clone())
+                    .collect();
+                let qarg_names: Vec<CompactString> = self.defs[i]
+                    .ast
+                    .qargs
+                    .iter()
+                    .map(|p| p.name.clone())
+                    .collect();
+                let bind = |a: &Arg| {
+                    qubits[qarg_names
+                        .iter()
+                        .position(|n| *n == a.reg.name)
+                        .unwrap_or(0)]
+                };
                 for stmt in &body {
                     match stmt {
                         BodyStmt::Barrier { args, .. } => {
                             let mut qs: Vec<Qubit> = args.iter().map(bind).collect();
                             qs.sort();
                             qs.dedup();
-                            if !self.emit(Op::Barrier { qubits: qs }, cond, at) {
+                            if !self.emit(Op::Barrier { qubits: qs.into() }, cond, at) {
                                 return false;
                             }
                         }
                         BodyStmt::Call(call) => {
-                            let Some(inner) = self.lookup_gate(&call.name.name) else { return false };
+                            let Some(inner) = self.lookup_gate(&call.name.name) else {
+                                return false;
+                            };
                             let mut values = Vec::with_capacity(call.params.len());
                             for p in &call.params {
                                 let v = eval(p, &param_names, params);
@@ -706,7 +945,10 @@ impl<'l> Elaborator<'l> {
                                         Diagnostic::error(
                                             "non-finite-parameter",
                                             at,
-                                            format!("inside gate `{}`, a parameter evaluates to {v}", self.defs[i].ast.name.name),
+                                            format!(
+                                                "inside gate `{}`, a parameter evaluates to {v}",
+                                                self.defs[i].ast.name.name
+                                            ),
                                         )
                                         .hint("check the parameters passed to this gate"),
                                     );
@@ -746,6 +988,24 @@ impl<'l> Elaborator<'l> {
     }
 }
 
+/// The bits an argument names: one, or a whole register.
+#[derive(Clone, Copy)]
+struct Bits {
+    start: u32,
+    len: u32,
+}
+
+impl Bits {
+    /// The `k`-th bit of a broadcast: a single bit repeats.
+    fn at(self, k: u32) -> u32 {
+        if self.len == 1 {
+            self.start
+        } else {
+            self.start + k
+        }
+    }
+}
+
 fn stmt_span(stmt: &Stmt) -> Span {
     match stmt {
         Stmt::Version { span, .. }
@@ -761,11 +1021,14 @@ fn stmt_span(stmt: &Stmt) -> Span {
 }
 
 /// Evaluates an expression with the named parameters bound to values.
-pub fn eval(e: &Expr, names: &[String], values: &[f64]) -> f64 {
+pub fn eval(e: &Expr, names: &[CompactString], values: &[f64]) -> f64 {
     match &e.kind {
         ExprKind::Number(v) => *v,
         ExprKind::Pi => std::f64::consts::PI,
-        ExprKind::Param(p) => names.iter().position(|n| n == p).map_or(f64::NAN, |i| values[i]),
+        ExprKind::Param(p) => names
+            .iter()
+            .position(|n| n == p)
+            .map_or(f64::NAN, |i| values[i]),
         ExprKind::Neg(a) => -eval(a, names, values),
         ExprKind::Call(f, a) => f.apply(eval(a, names, values)),
         ExprKind::Binary(op, a, b) => {

@@ -8,8 +8,10 @@ use logos::Logos;
 #[derive(Logos, Debug, Clone, Copy, PartialEq)]
 #[logos(skip r"[ \t\r\n\f]+")]
 #[logos(skip r"//[^\n]*")]
-#[logos(skip r"/\*([^*]|\*+[^*/])*\*+/")]
 pub enum Token {
+    /// A `/* ... */` comment (not in the standard, but harmless); never returned.
+    #[token("/*", skip_block_comment)]
+    BlockComment,
     #[token("OPENQASM")]
     OpenQasm,
     #[token("include")]
@@ -126,7 +128,21 @@ impl Token {
             Slash => "`/`",
             Caret => "`^`",
             Error => "an unknown character",
+            BlockComment => "a comment",
             Eof => "the end of the file",
+        }
+    }
+}
+
+fn skip_block_comment(lex: &mut logos::Lexer<Token>) -> logos::FilterResult<(), ()> {
+    match lex.remainder().find("*/") {
+        Some(end) => {
+            lex.bump(end + 2);
+            logos::FilterResult::Skip
+        }
+        None => {
+            lex.bump(lex.remainder().len());
+            logos::FilterResult::Error(())
         }
     }
 }

@@ -34,7 +34,11 @@ pub fn read_file(path: &Path, limits: &Limits) -> ReadOutcome {
                 format!("the file is {} bytes, more than the limit of {}", m.len(), limits.max_file_bytes),
             )
             .hint("raise the input size limit (--max-file-bytes) if the file is meant to be this large");
-            return ReadOutcome { circuit: None, diagnostics: vec![d], sources };
+            return ReadOutcome {
+                circuit: None,
+                diagnostics: vec![d],
+                sources,
+            };
         }
         _ => {}
     }
@@ -46,9 +50,17 @@ pub fn read_file(path: &Path, limits: &Limits) -> ReadOutcome {
         Err(e) => {
             let mut sources = SourceMap::default();
             let id = sources.add(name.clone(), String::new());
-            let d = Diagnostic::error("cannot-read", Span::new(id, 0..0), format!("cannot read {name}: {e}"))
-                .hint("check the path and the file's permissions");
-            ReadOutcome { circuit: None, diagnostics: vec![d], sources }
+            let d = Diagnostic::error(
+                "cannot-read",
+                Span::new(id, 0..0),
+                format!("cannot read {name}: {e}"),
+            )
+            .hint("check the path and the file's permissions");
+            ReadOutcome {
+                circuit: None,
+                diagnostics: vec![d],
+                sources,
+            }
         }
     }
 }

@@ -6,7 +6,8 @@
 
 use super::ast::*;
 use super::diag::{Diagnostic, FileId, Span};
-use super::lexer::{lex, Token};
+use super::lexer::Token;
+use logos::Logos;
 use std::ops::Range;
 
 /// Deepest nesting of parentheses and unary operators in one expression.
@@ -17,7 +18,11 @@ pub const MAX_EXPR_DEPTH: usize = 128;
 pub const MAX_EXPR_OPS: usize = 1024;
 
 struct Parser<'a> {
-    toks: Vec<(Token, Range<usize>)>,
+    lexer: logos::Lexer<'a, Token>,
+    /// The current token and the one before it.
+    cur: (Token, Range<usize>),
+    prev: (Token, Range<usize>),
+    /// Tokens consumed so far; tells whether a rule made progress.
     pos: usize,
     text: &'a str,
     file: FileId,
@@ -35,31 +40,70 @@ type PResult<T> = Result<T, ()>;
 /// Parses one file. `is_main` asks for the `OPENQASM 2.0;` header (its absence is a
 /// warning, since real files often omit it).
 pub fn parse(file: FileId, text: &str, is_main: bool) -> (Program, Vec<Diagnostic>) {
-    let mut p = Parser { toks: lex(text), pos: 0, text, file, diags: Vec::new(), depth: 0, expr_ops: 0, resume_here: false };
-    let program = p.program(is_main);
-    (program, p.diags)
+    let mut stmts = Vec::new();
+    let diags = parse_each(file, text, is_main, |s| {
+        stmts.push(s);
+        true
+    });
+    (Program { stmts }, diags)
+}
+
+/// Parses one file and hands each statement to `on_stmt` as soon as it is read, so
+/// that a large file is never held as a whole tree; `on_stmt` returns false to stop.
+/// Returns the parser's diagnostics.
+pub fn parse_each(
+    file: FileId,
+    text: &str,
+    is_main: bool,
+    on_stmt: impl FnMut(Stmt) -> bool,
+) -> Vec<Diagnostic> {
+    let mut lexer = Token::lexer(text);
+    let first = next_token(&mut lexer, text.len());
+    let mut p = Parser {
+        lexer,
+        cur: first,
+        prev: (Token::Eof, 0..0),
+        pos: 0,
+        text,
+        file,
+        diags: Vec::new(),
+        depth: 0,
+        expr_ops: 0,
+        resume_here: false,
+    };
+    p.program(is_main, on_stmt);
+    p.diags
+}
+
+fn next_token(lexer: &mut logos::Lexer<'_, Token>, len: usize) -> (Token, Range<usize>) {
+    match lexer.next() {
+        Some(tok) => (tok.unwrap_or(Token::Error), lexer.span()),
+        None => (Token::Eof, len..len),
+    }
 }
 
 impl<'a> Parser<'a> {
     fn peek(&self) -> Token {
-        self.toks[self.pos].0
+        self.cur.0
     }
 
     fn span(&self) -> Span {
-        Span::new(self.file, self.toks[self.pos].1.clone())
+        Span::new(self.file, self.cur.1.clone())
     }
 
     fn prev_span(&self) -> Span {
-        Span::new(self.file, self.toks[self.pos.saturating_sub(1)].1.clone())
+        Span::new(self.file, self.prev.1.clone())
     }
 
     fn slice(&self) -> &'a str {
-        &self.text[self.toks[self.pos].1.clone()]
+        &self.text[self.cur.1.clone()]
     }
 
     fn bump(&mut self) -> Span {
         let s = self.span();
-        if self.pos + 1 < self.toks.len() {
+        if self.cur.0 != Token::Eof {
+            let next = next_token(&mut self.lexer, self.text.len());
+            self.prev = std::mem::replace(&mut self.cur, next);
             self.pos += 1;
         }
         s
@@ -88,12 +132,20 @@ impl<'a> Parser<'a> {
         if self.peek() == tok {
             return Ok(self.bump());
         }
-        let code = if tok == Token::Semi { "missing-semicolon" } else { "unexpected-token" };
+        let code = if tok == Token::Semi {
+            "missing-semicolon"
+        } else {
+            "unexpected-token"
+        };
         if tok == Token::Semi && self.pos > 0 {
             // Point just after the previous token: that is where the `;` belongs.
             let prev = self.prev_span();
-            let at = Span { file: prev.file, start: prev.end, end: prev.end };
-            let gap = &self.text[prev.end as usize..self.toks[self.pos].1.start];
+            let at = Span {
+                file: prev.file,
+                start: prev.end,
+                end: prev.end,
+            };
+            let gap = &self.text[prev.end as usize..self.cur.1.start];
             self.resume_here = gap.contains('\n');
             self.diags.push(
                 Diagnostic::error(code, at, format!("expected `;`, found {}", self.found()))
@@ -109,7 +161,7 @@ impl<'a> Parser<'a> {
 
     fn ident(&mut self, what: &str) -> PResult<Ident> {
         if self.peek() == Token::Ident {
-            let name = self.slice().to_string();
+            let name = self.slice().into();
             let span = self.bump();
             return Ok(Ident { name, span });
         }
@@ -123,7 +175,11 @@ impl<'a> Parser<'a> {
         } else {
             "names start with a letter and continue with letters, digits or `_`"
         };
-        let code = if keyword { "reserved-word" } else { "expected-name" };
+        let code = if keyword {
+            "reserved-word"
+        } else {
+            "expected-name"
+        };
         self.error_here(code, msg, hint);
         Err(())
     }
@@ -139,15 +195,22 @@ impl<'a> Parser<'a> {
                 }
                 Err(_) => {
                     self.diags.push(
-                        Diagnostic::error("integer-too-large", span, format!("{what} `{text}` is too large"))
-                            .hint("integers must fit in 64 bits"),
+                        Diagnostic::error(
+                            "integer-too-large",
+                            span,
+                            format!("{what} `{text}` is too large"),
+                        )
+                        .hint("integers must fit in 64 bits"),
                     );
                     self.bump();
                     Err(())
                 }
             };
         }
-        let msg = format!("expected {what} (a non-negative integer), found {}", self.found());
+        let msg = format!(
+            "expected {what} (a non-negative integer), found {}",
+            self.found()
+        );
         self.error_here("expected-integer", msg, "write a whole number such as `3`");
         Err(())
     }
@@ -168,29 +231,37 @@ impl<'a> Parser<'a> {
         }
     }
 
-    fn program(&mut self, is_main: bool) -> Program {
-        let mut stmts = Vec::new();
+    fn program(&mut self, is_main: bool, mut on_stmt: impl FnMut(Stmt) -> bool) {
+        let mut n_stmts = 0usize;
         if is_main && self.peek() != Token::OpenQasm {
             let at = Span::new(self.file, 0..0);
             self.diags.push(
-                Diagnostic::warning("missing-header", at, "the file does not start with `OPENQASM 2.0;`")
-                    .label("header expected here")
-                    .hint("add `OPENQASM 2.0;` as the first statement; read as OpenQASM 2.0"),
+                Diagnostic::warning(
+                    "missing-header",
+                    at,
+                    "the file does not start with `OPENQASM 2.0;`",
+                )
+                .label("header expected here")
+                .hint("add `OPENQASM 2.0;` as the first statement; read as OpenQASM 2.0"),
             );
         }
         while self.peek() != Token::Eof {
             let start = self.pos;
-            match self.statement(stmts.is_empty()) {
-                Ok(s) => stmts.push(s),
+            match self.statement(n_stmts == 0) {
+                Ok(s) => {
+                    n_stmts += 1;
+                    if !on_stmt(s) {
+                        return;
+                    }
+                }
                 Err(()) => {
                     let resume = std::mem::take(&mut self.resume_here) && self.pos > start;
-                    if !resume && (self.pos == start || self.toks[self.pos - 1].0 != Token::Semi) {
+                    if !resume && (self.pos == start || self.prev.0 != Token::Semi) {
                         self.recover();
                     }
                 }
             }
         }
-        Program { stmts }
     }
 
     fn statement(&mut self, first: bool) -> PResult<Stmt> {
@@ -207,23 +278,39 @@ impl<'a> Parser<'a> {
                 let vspan = self.bump();
                 if !(version == "2" || version.starts_with("2.")) {
                     self.diags.push(
-                        Diagnostic::error("unsupported-version", vspan, format!("OpenQASM version {version} is not supported"))
-                            .hint("tutti reads OpenQASM 2; write `OPENQASM 2.0;`"),
+                        Diagnostic::error(
+                            "unsupported-version",
+                            vspan,
+                            format!("OpenQASM version {version} is not supported"),
+                        )
+                        .hint("tutti reads OpenQASM 2; write `OPENQASM 2.0;`"),
                     );
                 }
                 if !first {
                     self.diags.push(
-                        Diagnostic::error("misplaced-header", start, "`OPENQASM` must be the first statement")
-                            .hint("move the header to the top of the file, before every other statement"),
+                        Diagnostic::error(
+                            "misplaced-header",
+                            start,
+                            "`OPENQASM` must be the first statement",
+                        )
+                        .hint(
+                            "move the header to the top of the file, before every other statement",
+                        ),
                     );
                 }
                 let end = self.expect(Token::Semi, "end the header with `;`")?;
-                Ok(Stmt::Version { version, span: start.to(end) })
+                Ok(Stmt::Version {
+                    version,
+                    span: start.to(end),
+                })
             }
             Token::Include => {
                 self.bump();
                 if self.peek() != Token::Str {
-                    let msg = format!("expected a file name in double quotes, found {}", self.found());
+                    let msg = format!(
+                        "expected a file name in double quotes, found {}",
+                        self.found()
+                    );
                     self.error_here("bad-include", msg, "write e.g. `include \"qelib1.inc\";`");
                     return Err(());
                 }
@@ -231,7 +318,10 @@ impl<'a> Parser<'a> {
                 let path = raw[1..raw.len() - 1].to_string();
                 self.bump();
                 let end = self.expect(Token::Semi, "end the include with `;`")?;
-                Ok(Stmt::Include { path, span: start.to(end) })
+                Ok(Stmt::Include {
+                    path,
+                    span: start.to(end),
+                })
             }
             Token::Qreg | Token::Creg => {
                 let quantum = self.peek() == Token::Qreg;
@@ -242,14 +332,21 @@ impl<'a> Parser<'a> {
                 self.expect(Token::RBracket, "close the size with `]`")?;
                 let end = self.expect(Token::Semi, "end the declaration with `;`")?;
                 let span = start.to(end);
-                Ok(if quantum { Stmt::Qreg { name, size, span } } else { Stmt::Creg { name, size, span } })
+                Ok(if quantum {
+                    Stmt::Qreg { name, size, span }
+                } else {
+                    Stmt::Creg { name, size, span }
+                })
             }
             Token::Gate | Token::Opaque => self.gate_def().map(Stmt::Gate),
             Token::Barrier => {
                 self.bump();
                 let args = self.arg_list()?;
                 let end = self.expect(Token::Semi, "end the barrier with `;`")?;
-                Ok(Stmt::Barrier { args, span: start.to(end) })
+                Ok(Stmt::Barrier {
+                    args,
+                    span: start.to(end),
+                })
             }
             Token::If => {
                 self.bump();
@@ -257,7 +354,11 @@ impl<'a> Parser<'a> {
                 let creg = self.ident("a classical register name")?;
                 if self.peek() != Token::EqEq {
                     let msg = format!("expected `==`, found {}", self.found());
-                    self.error_here("bad-condition", msg, "OpenQASM 2 conditions compare a whole register with `==`");
+                    self.error_here(
+                        "bad-condition",
+                        msg,
+                        "OpenQASM 2 conditions compare a whole register with `==`",
+                    );
                     return Err(());
                 }
                 self.bump();
@@ -273,7 +374,12 @@ impl<'a> Parser<'a> {
                 }
                 let op = self.qop()?;
                 let span = start.to(self.prev_span());
-                Ok(Stmt::If { creg, value, op, span })
+                Ok(Stmt::If {
+                    creg,
+                    value,
+                    op,
+                    span,
+                })
             }
             Token::Measure | Token::Reset | Token::Ident => self.qop().map(Stmt::QOp),
             _ => {
@@ -294,21 +400,38 @@ impl<'a> Parser<'a> {
             Token::Measure => {
                 self.bump();
                 let src = self.arg()?;
-                self.expect(Token::Arrow, "write a measurement as `measure q[0] -> c[0];`")?;
+                self.expect(
+                    Token::Arrow,
+                    "write a measurement as `measure q[0] -> c[0];`",
+                )?;
                 let dst = self.arg()?;
                 let end = self.expect(Token::Semi, "end the measurement with `;`")?;
-                Ok(QOp::Measure { src, dst, span: start.to(end) })
+                Ok(QOp::Measure {
+                    src,
+                    dst,
+                    span: start.to(end),
+                })
             }
             Token::Reset => {
                 self.bump();
                 let arg = self.arg()?;
                 let end = self.expect(Token::Semi, "end the reset with `;`")?;
-                Ok(QOp::Reset { arg, span: start.to(end) })
+                Ok(QOp::Reset {
+                    arg,
+                    span: start.to(end),
+                })
             }
-            Token::Ident => self.gate_call().map(QOp::Call),
+            Token::Ident => self.gate_call().map(|c| QOp::Call(Box::new(c))),
             _ => {
-                let msg = format!("expected a gate call, `measure` or `reset`, found {}", self.found());
-                self.error_here("expected-operation", msg, "a condition applies to one quantum operation");
+                let msg = format!(
+                    "expected a gate call, `measure` or `reset`, found {}",
+                    self.found()
+                );
+                self.error_here(
+                    "expected-operation",
+                    msg,
+                    "a condition applies to one quantum operation",
+                );
                 Err(())
             }
         }
@@ -316,7 +439,7 @@ impl<'a> Parser<'a> {
 
     fn gate_call(&mut self) -> PResult<GateCall> {
         let name = self.ident("a gate name")?;
-        let mut params = Vec::new();
+        let mut params = smallvec::SmallVec::new();
         if self.peek() == Token::LParen {
             self.bump();
             if self.peek() != Token::RParen {
@@ -333,7 +456,12 @@ impl<'a> Parser<'a> {
         }
         let args = self.arg_list()?;
         let end = self.expect(Token::Semi, "end the gate call with `;`")?;
-        Ok(GateCall { span: name.span.to(end), name, params, args })
+        Ok(GateCall {
+            span: name.span.to(end),
+            name,
+            params,
+            args,
+        })
     }
 
     fn arg(&mut self) -> PResult<Arg> {
@@ -348,8 +476,8 @@ impl<'a> Parser<'a> {
         Ok(Arg { reg, index, span })
     }
 
-    fn arg_list(&mut self) -> PResult<Vec<Arg>> {
-        let mut args = vec![self.arg()?];
+    fn arg_list(&mut self) -> PResult<ArgList> {
+        let mut args = smallvec::smallvec![self.arg()?];
         while self.peek() == Token::Comma {
             self.bump();
             args.push(self.arg()?);
@@ -381,50 +509,75 @@ impl<'a> Parser<'a> {
         }
         if opaque {
             let end = self.expect(Token::Semi, "end the opaque declaration with `;`")?;
-            return Ok(GateDef { name, params, qargs, body: None, span: start.to(end) });
+            return Ok(GateDef {
+                name,
+                params,
+                qargs,
+                body: None,
+                span: start.to(end),
+            });
         }
         self.expect(Token::LBrace, "a gate body starts with `{`")?;
         let mut body = Vec::new();
         loop {
+            let stmt_start = self.pos;
             match self.peek() {
                 Token::RBrace => break,
                 Token::Eof => {
                     self.diags.push(
-                        Diagnostic::error("unclosed-gate", start, format!("the body of gate `{}` is not closed", name.name))
-                            .label("gate starts here")
-                            .hint("end the gate body with `}`"),
+                        Diagnostic::error(
+                            "unclosed-gate",
+                            start,
+                            format!("the body of gate `{}` is not closed", name.name),
+                        )
+                        .label("gate starts here")
+                        .hint("end the gate body with `}`"),
                     );
                     return Err(());
                 }
                 Token::Barrier => {
                     let s = self.bump();
-                    match self.arg_list().and_then(|a| Ok((a, self.expect(Token::Semi, "end the barrier with `;`")?))) {
-                        Ok((args, end)) => body.push(BodyStmt::Barrier { args, span: s.to(end) }),
-                        Err(()) => self.recover_in_body(),
+                    match self.arg_list().and_then(|a| {
+                        Ok((a, self.expect(Token::Semi, "end the barrier with `;`")?))
+                    }) {
+                        Ok((args, end)) => body.push(BodyStmt::Barrier {
+                            args,
+                            span: s.to(end),
+                        }),
+                        Err(()) => self.recover_in_body(stmt_start),
                     }
                 }
                 Token::Ident => match self.gate_call() {
                     Ok(call) => body.push(BodyStmt::Call(call)),
-                    Err(()) => self.recover_in_body(),
+                    Err(()) => self.recover_in_body(stmt_start),
                 },
                 _ => {
-                    let msg = format!("expected a gate call or `barrier` in a gate body, found {}", self.found());
+                    let msg = format!(
+                        "expected a gate call or `barrier` in a gate body, found {}",
+                        self.found()
+                    );
                     self.error_here(
                         "bad-gate-body",
                         msg,
                         "a gate body holds only gate calls and barriers; measure, reset, if and declarations are not allowed",
                     );
-                    self.recover_in_body();
+                    self.recover_in_body(stmt_start);
                 }
             }
         }
         let end = self.bump();
-        Ok(GateDef { name, params, qargs, body: Some(body), span: start.to(end) })
+        Ok(GateDef {
+            name,
+            params,
+            qargs,
+            body: Some(body),
+            span: start.to(end),
+        })
     }
 
     /// Like [`Parser::recover`] but stops before a `}` so the body can be closed.
-    fn recover_in_body(&mut self) {
-        if self.pos > 0 && self.toks[self.pos - 1].0 == Token::Semi {
+    fn recover_in_body(&mut self, start: usize) {
+        if self.pos > start && self.prev.0 == Token::Semi {
             return;
         }
         loop {
@@ -461,7 +614,11 @@ impl<'a> Parser<'a> {
         let mut lhs = self.term()?;
         while matches!(self.peek(), Token::Plus | Token::Minus) {
             self.count_op()?;
-            let op = if self.bump_tok() == Token::Plus { BinOp::Add } else { BinOp::Sub };
+            let op = if self.bump_tok() == Token::Plus {
+                BinOp::Add
+            } else {
+                BinOp::Sub
+            };
             let rhs = self.term()?;
             lhs = binary(op, lhs, rhs);
         }
@@ -478,7 +635,11 @@ impl<'a> Parser<'a> {
         let mut lhs = self.unary()?;
         while matches!(self.peek(), Token::Star | Token::Slash) {
             self.count_op()?;
-            let op = if self.bump_tok() == Token::Star { BinOp::Mul } else { BinOp::Div };
+            let op = if self.bump_tok() == Token::Star {
+                BinOp::Mul
+            } else {
+                BinOp::Div
+            };
             let rhs = self.unary()?;
             lhs = binary(op, lhs, rhs);
         }
@@ -503,7 +664,10 @@ impl<'a> Parser<'a> {
         let result = match self.peek() {
             Token::Minus => {
                 let s = self.bump();
-                self.unary().map(|e| Expr { span: s.to(e.span), kind: ExprKind::Neg(Box::new(e)) })
+                self.unary().map(|e| Expr {
+                    span: s.to(e.span),
+                    kind: ExprKind::Neg(Box::new(e)),
+                })
             }
             Token::Plus => {
                 self.bump();
@@ -542,23 +706,35 @@ impl<'a> Parser<'a> {
             self.expect(Token::LParen, "a function is applied as `sin(x)`")?;
             let arg = self.expr()?;
             let end = self.expect(Token::RParen, "close the function argument with `)`")?;
-            return Ok(Expr { kind: ExprKind::Call(func, Box::new(arg)), span: span.to(end) });
+            return Ok(Expr {
+                kind: ExprKind::Call(func, Box::new(arg)),
+                span: span.to(end),
+            });
         }
         match self.peek() {
             Token::Int | Token::Real => {
                 let text = self.slice();
                 let v: f64 = text.parse().unwrap_or(f64::NAN);
                 self.bump();
-                Ok(Expr { kind: ExprKind::Number(v), span })
+                Ok(Expr {
+                    kind: ExprKind::Number(v),
+                    span,
+                })
             }
             Token::Pi => {
                 self.bump();
-                Ok(Expr { kind: ExprKind::Pi, span })
+                Ok(Expr {
+                    kind: ExprKind::Pi,
+                    span,
+                })
             }
             Token::Ident => {
-                let name = self.slice().to_string();
+                let name = self.slice().into();
                 self.bump();
-                Ok(Expr { kind: ExprKind::Param(name), span })
+                Ok(Expr {
+                    kind: ExprKind::Param(name),
+                    span,
+                })
             }
             Token::LParen => {
                 self.bump();
@@ -584,5 +760,8 @@ impl<'a> Parser<'a> {
 }
 
 fn binary(op: BinOp, lhs: Expr, rhs: Expr) -> Expr {
-    Expr { span: lhs.span.to(rhs.span), kind: ExprKind::Binary(op, Box::new(lhs), Box::new(rhs)) }
+    Expr {
+        span: lhs.span.to(rhs.span),
+        kind: ExprKind::Binary(op, Box::new(lhs), Box::new(rhs)),
+    }
 }

@@ -1,0 +1,2 @@
+OPENQASM two;
+qreg q[1];

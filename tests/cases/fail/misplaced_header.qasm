@@ -1,0 +1,3 @@
+include "qelib1.inc";
+OPENQASM 2.0;
+qreg q[1];

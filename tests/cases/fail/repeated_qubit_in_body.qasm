@@ -1,0 +1,3 @@
+OPENQASM 2.0;
+include "qelib1.inc";
+gate g a,b { cx a,a; }

@@ -1,0 +1,4 @@
+OPENQASM 2.0;
+include "qelib1.inc";
+gate g a { h a;
+qreg q[1];

@@ -1,0 +1,12 @@
+OPENQASM 2.0;
+include "qelib1.inc";
+qreg a[3];
+qreg b[3];
+creg c[3];
+h a;
+cx a,b;
+cx a[0],b;
+reset b;
+barrier a,b[1];
+measure b -> c;
+measure a[2] -> c[0];

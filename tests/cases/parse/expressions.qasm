@@ -1,0 +1,14 @@
+OPENQASM 2.0;
+include "qelib1.inc";
+qreg q[1];
+rz(-pi/2) q[0];
+rz(2*-pi) q[0];
+rz(- -1.5e-1) q[0];
+rz(2^3^2) q[0];
+rz(-2^2) q[0];
+rz(sin(pi/6)+cos(0)*tan(pi/4)) q[0];
+rz(exp(1)-ln(exp(2))+sqrt(16)) q[0];
+rz(.5) q[0];
+rz(1E2) q[0];
+rz((1+2)*(3-4)/5) q[0];
+u3 (1,2,3) q[0];

@@ -1,0 +1,3 @@
+include "qelib1.inc";
+qreg q[1];
+x q[0];

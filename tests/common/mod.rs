@@ -1,0 +1,70 @@
+//! Shared helpers for the data-driven tests.
+#![allow(dead_code)]
+
+use std::path::{Path, PathBuf};
+
+/// Compares `actual` with the expectation stored at `expect_path`. With
+/// `TUTTI_BLESS=1` in the environment the expectation is rewritten instead.
+/// Returns a description of the mismatch, or `None` when they agree.
+pub fn check(expect_path: &Path, actual: &str) -> Option<String> {
+    if std::env::var("TUTTI_BLESS").as_deref() == Ok("1") {
+        std::fs::write(expect_path, actual).expect("write expectation");
+        return None;
+    }
+    let expected = std::fs::read_to_string(expect_path).unwrap_or_default();
+    if expected == actual {
+        return None;
+    }
+    let mut diff = format!("--- {} (expected)\n+++ actual\n", expect_path.display());
+    let (e, a): (Vec<&str>, Vec<&str>) = (expected.lines().collect(), actual.lines().collect());
+    for i in 0..e.len().max(a.len()) {
+        match (e.get(i), a.get(i)) {
+            (Some(x), Some(y)) if x == y => {}
+            (x, y) => {
+                if let Some(x) = x {
+                    diff.push_str(&format!("-{x}\n"));
+                }
+                if let Some(y) = y {
+                    diff.push_str(&format!("+{y}\n"));
+                }
+            }
+        }
+    }
+    diff.push_str("re-bless with TUTTI_BLESS=1 cargo test if the change is intended\n");
+    Some(diff)
+}
+
+/// Every file with the extension `ext` under `dir`, sorted, recursively.
+pub fn files(dir: &str, ext: &str) -> Vec<PathBuf> {
+    fn walk(dir: &Path, ext: &str, out: &mut Vec<PathBuf>) {
+        let Ok(entries) = std::fs::read_dir(dir) else {
+            return;
+        };
+        for e in entries.flatten() {
+            let p = e.path();
+            if p.is_dir() {
+                walk(&p, ext, out);
+            } else if p.extension().and_then(|x| x.to_str()) == Some(ext) {
+                out.push(p);
+            }
+        }
+    }
+    let mut out = Vec::new();
+    walk(Path::new(dir), ext, &mut out);
+    out.sort();
+    out
+}
+
+/// The vendored outside circuits (QASMBench subset; see tests/data/qasmbench/PROVENANCE.md).
+pub fn qasmbench_files() -> Vec<PathBuf> {
+    files("tests/data/qasmbench", "qasm")
+}
+
+/// Reads a circuit that must be valid.
+pub fn read_ok(path: &Path) -> tutti::circuit::Circuit {
+    let outcome = tutti::qasm::read_file(path, &Default::default());
+    match outcome.circuit {
+        Some(c) => c,
+        None => panic!("{} did not read:\n{}", path.display(), outcome.render()),
+    }
+}

@@ -1,0 +1,154 @@
+//! Property tests of the front end: printing and reading back is the identity on
+//! the IR, and no input makes it panic.
+
+mod common;
+
+use proptest::prelude::*;
+use tutti::circuit::*;
+use tutti::qasm::{elaborate, Limits, MemoryLoader};
+
+fn arb_circuit() -> impl Strategy<Value = Circuit> {
+    let regs = (
+        prop::collection::vec(1u32..4, 1..4),
+        prop::collection::vec(1u32..4, 0..3),
+    );
+    regs.prop_flat_map(|(qsizes, csizes)| {
+        let nq: u32 = qsizes.iter().sum();
+        let nc: u32 = csizes.iter().sum();
+        let n_cregs = csizes.len() as u32;
+        let instr = (
+            0..GateKind::ALL.len(),
+            prop::collection::vec(-10.0f64..10.0, 3),
+            Just((0..nq).collect::<Vec<u32>>()).prop_shuffle(),
+            0u8..10,
+            0u32..8,
+            0u64..4,
+        )
+            .prop_map(move |(k, params, perm, which, cb, value)| {
+                let kind = GateKind::ALL[k];
+                let op = if which == 0 && nc > 0 {
+                    Op::Measure {
+                        qubit: Qubit(perm[0]),
+                        clbit: Clbit(cb % nc),
+                    }
+                } else if which == 1 {
+                    Op::Reset {
+                        qubit: Qubit(perm[0]),
+                    }
+                } else if which == 2 {
+                    let mut qs: Vec<Qubit> = perm.iter().take(2).map(|&q| Qubit(q)).collect();
+                    qs.sort();
+                    Op::Barrier { qubits: qs.into() }
+                } else if kind.n_qubits() as u32 <= nq {
+                    let gate = Gate::new(kind, &params[..kind.n_params()]);
+                    Op::Gate {
+                        gate,
+                        qubits: perm
+                            .iter()
+                            .take(kind.n_qubits())
+                            .map(|&q| Qubit(q))
+                            .collect(),
+                    }
+                } else {
+                    Op::Gate {
+                        gate: Gate::new(GateKind::H, &[]),
+                        qubits: vec![Qubit(perm[0])].into(),
+                    }
+                };
+                let condition = (which == 3 && n_cregs > 0 && !matches!(op, Op::Barrier { .. }))
+                    .then(|| Condition {
+                        creg: cb % n_cregs,
+                        value: value % 2,
+                    });
+                Instr { op, condition }
+            });
+        prop::collection::vec(instr, 0..30).prop_map(move |instrs| {
+            let mut c = Circuit::default();
+            let mut off = 0;
+            for (i, s) in qsizes.iter().enumerate() {
+                c.qregs.push(Register {
+                    name: format!("q{i}"),
+                    offset: off,
+                    size: *s,
+                });
+                off += s;
+            }
+            off = 0;
+            for (i, s) in csizes.iter().enumerate() {
+                c.cregs.push(Register {
+                    name: format!("c{i}"),
+                    offset: off,
+                    size: *s,
+                });
+                off += s;
+            }
+            c.instrs = instrs;
+            c
+        })
+    })
+}
+
+/// Reading must never panic; a failure must carry a located error inside the file.
+fn read_never_panics(text: &str) {
+    let limits = Limits {
+        max_ops: 100_000,
+        ..Limits::default()
+    };
+    let out = elaborate::read_with("fuzz.qasm", text, &limits, &MemoryLoader::default());
+    if out.circuit.is_none() {
+        let first = out
+            .errors()
+            .next()
+            .expect("a failed read names at least one error");
+        assert!(first.span.start as usize <= text.len() + 1);
+        assert!(!first.hint.is_empty());
+        let rendered = out.render();
+        assert!(rendered.contains("fuzz.qasm:"));
+    }
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig { cases: 200, ..ProptestConfig::default() })]
+
+    #[test]
+    fn printed_circuits_read_back_to_the_same_ir(c in arb_circuit()) {
+        let text = c.to_string();
+        let out = tutti::qasm::read_str("printed.qasm", &text);
+        let back = out.circuit.clone();
+        prop_assert!(back.is_some(), "{}\n{}", text, out.render());
+        prop_assert_eq!(back.unwrap(), c);
+    }
+
+    #[test]
+    fn random_bytes_never_panic(bytes in prop::collection::vec(any::<u8>(), 0..400)) {
+        read_never_panics(&String::from_utf8_lossy(&bytes));
+    }
+
+    #[test]
+    fn random_token_soup_never_panics(words in prop::collection::vec(prop::sample::select(vec![
+        "OPENQASM", "2.0", "include", "\"qelib1.inc\"", "qreg", "creg", "q", "c", "[", "]", "3", ";",
+        "gate", "g", "(", ")", "{", "}", "a", ",", "h", "cx", "measure", "->", "if", "==", "pi", "-",
+        "*", "/", "^", "sin", "barrier", "reset", "opaque", "U", "CX", "1e9", "\n", "//",
+    ]), 0..80)) {
+        read_never_panics(&words.join(" "));
+    }
+
+    #[test]
+    fn mutated_outside_files_never_panic(
+        file in 0usize..30,
+        edits in prop::collection::vec((any::<prop::sample::Index>(), 0u8..3, any::<u8>()), 1..6),
+    ) {
+        let path = &common::qasmbench_files()[file];
+        let mut bytes = std::fs::read(path).unwrap();
+        for (at, kind, byte) in edits {
+            let i = at.index(bytes.len().max(1));
+            match kind {
+                0 if !bytes.is_empty() => { bytes.remove(i.min(bytes.len() - 1)); }
+                1 => bytes.insert(i.min(bytes.len()), byte),
+                _ if !bytes.is_empty() => { let j = i.min(bytes.len() - 1); bytes[j] = byte; }
+                _ => {}
+            }
+        }
+        read_never_panics(&String::from_utf8_lossy(&bytes));
+    }
+}

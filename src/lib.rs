@@ -10,4 +10,7 @@
 
 pub mod circuit;
 pub mod qasm;
+pub mod native;
+pub mod compile;
+pub mod sim;
 pub mod report;

@@ -6,6 +6,7 @@ use clap::{Args, Parser, Subcommand};
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
 use tutti::qasm::{self, Limits};
+use tutti::sim::{CheckConfig, Mode};
 
 #[derive(Parser)]
 #[command(
@@ -55,6 +56,36 @@ enum Command {
     Inspect {
         file: PathBuf,
         /// Print one JSON object instead of a table.
+        #[arg(long)]
+        json: bool,
+        #[command(flatten)]
+        limits: LimitArgs,
+    },
+    /// Decide whether two programs are the same unitary up to global phase (exit 0
+    /// equivalent, 1 not equivalent, 2 error).
+    Check {
+        a: PathBuf,
+        b: PathBuf,
+        /// How to compare: exact unitaries, random states, stabilizer tableaux, or
+        /// chosen by size and Clifford-ness.
+        #[arg(long, value_enum, default_value_t = Mode::Auto)]
+        mode: Mode,
+        /// Random states per segment in random mode.
+        #[arg(long, default_value_t = CheckConfig::default().trials)]
+        trials: usize,
+        /// Seed of the random states.
+        #[arg(long, default_value_t = CheckConfig::default().seed)]
+        seed: u64,
+        /// Fidelities within this of one count as equal.
+        #[arg(long, default_value_t = CheckConfig::default().tolerance)]
+        tolerance: f64,
+        /// Statevector memory budget in MiB.
+        #[arg(long, default_value_t = CheckConfig::default().memory_budget >> 20)]
+        memory: usize,
+        /// Accept a difference by a diagonal on the qubits measured at the end.
+        #[arg(long)]
+        up_to_final_diagonal: bool,
+        /// Print one JSON object.
         #[arg(long)]
         json: bool,
         #[command(flatten)]
@@ -110,5 +141,32 @@ fn run(cli: Cli) -> Result<ExitCode, String> {
             }
             Ok(ExitCode::SUCCESS)
         }
+        Command::Check { a, b, mode, trials, seed, tolerance, memory, up_to_final_diagonal, json, limits } => {
+            let limits = limits.limits();
+            let pa = load_program(&a, &limits)?;
+            let pb = load_program(&b, &limits)?;
+            let cfg = CheckConfig {
+                mode,
+                trials,
+                seed,
+                tolerance,
+                memory_budget: memory << 20,
+                up_to_final_diagonal,
+                ..CheckConfig::default()
+            };
+            let verdict = tutti::sim::check(&pa, &pb, &cfg).map_err(|e| format!("error: {e}"))?;
+            if json {
+                println!("{}", serde_json::to_string_pretty(&verdict).map_err(|e| e.to_string())?);
+            } else {
+                print!("{}", tutti::report::verdict_text(&verdict));
+            }
+            Ok(if verdict.equivalent { ExitCode::SUCCESS } else { ExitCode::from(1) })
+        }
     }
+}
+
+/// Reads a program for the checker from any format tutti reads.
+fn load_program(path: &Path, limits: &Limits) -> Result<tutti::sim::Program, String> {
+    let circuit = read(path, limits)?;
+    tutti::sim::Program::from_circuit(&circuit).map_err(|e| format!("error: {}: {e}", path.display()))
 }

@@ -1,6 +1,7 @@
 //! Human-readable tables and machine-readable figures.
 
 use crate::circuit::Summary;
+use crate::sim::Verdict;
 use std::fmt::Write;
 
 /// The table `tutti inspect` prints.
@@ -20,6 +21,26 @@ pub fn inspect_table(name: &str, s: &Summary) -> String {
     let width = s.by_name.keys().map(|k| k.len()).max().unwrap_or(0);
     for (name, count) in &s.by_name {
         let _ = writeln!(out, "    {name:<width$}  {count}");
+    }
+    out
+}
+
+/// The text `tutti check` prints.
+pub fn verdict_text(v: &Verdict) -> String {
+    let mut out = String::new();
+    let word = if v.equivalent { "EQUIVALENT" } else { "NOT EQUIVALENT" };
+    let _ = writeln!(out, "{word} (mode {}, {} qubits, {} segment(s))", v.mode.name(), v.qubits, v.segments);
+    let _ = writeln!(out, "  fidelity      {:.12}", v.fidelity);
+    match v.global_phase {
+        Some(g) => {
+            let _ = writeln!(out, "  global phase  {g:.9} rad");
+        }
+        None => {
+            let _ = writeln!(out, "  global phase  not measured in this mode");
+        }
+    }
+    if !v.detail.is_empty() {
+        let _ = writeln!(out, "  {}", v.detail);
     }
     out
 }

@@ -1,0 +1,151 @@
+//! Hadamard matrices for sign-vector echoes.
+//!
+//! Constructions (each checked to give `H H^T = m I` when built): Sylvester's
+//! doubling, Paley I (order `q + 1` for a prime `q = 3 mod 4`) and Paley II (order
+//! `2(q + 1)` for a prime `q = 1 mod 4`), and doubling of those (Paley, "On
+//! orthogonal matrices", J. Math. Phys. 12, 311, 1933; common practice).
+
+/// A Hadamard matrix of order `m` as rows of `+1/-1`.
+pub type Hadamard = Vec<Vec<i8>>;
+
+fn is_prime(q: usize) -> bool {
+    q >= 2 && (2..).take_while(|d| d * d <= q).all(|d| q % d != 0)
+}
+
+/// The quadratic character modulo a prime `q`: 0, 1 or -1.
+fn chi(a: usize, q: usize) -> i8 {
+    let a = a % q;
+    if a == 0 {
+        return 0;
+    }
+    if (1..q).any(|x| x * x % q == a) {
+        1
+    } else {
+        -1
+    }
+}
+
+fn sylvester(m: usize) -> Hadamard {
+    let mut h: Hadamard = vec![vec![1]];
+    while h.len() < m {
+        h = double(&h);
+    }
+    h
+}
+
+fn double(h: &Hadamard) -> Hadamard {
+    let n = h.len();
+    let mut out = vec![vec![0i8; 2 * n]; 2 * n];
+    for i in 0..n {
+        for j in 0..n {
+            out[i][j] = h[i][j];
+            out[i][j + n] = h[i][j];
+            out[i + n][j] = h[i][j];
+            out[i + n][j + n] = -h[i][j];
+        }
+    }
+    out
+}
+
+/// Jacobsthal matrix `Q[i][j] = chi(j - i)`.
+fn jacobsthal(q: usize) -> Vec<Vec<i8>> {
+    (0..q).map(|i| (0..q).map(|j| chi(j + q - i, q)).collect()).collect()
+}
+
+fn paley1(q: usize) -> Hadamard {
+    let jq = jacobsthal(q);
+    let m = q + 1;
+    let mut h = vec![vec![0i8; m]; m];
+    for j in 0..m {
+        h[0][j] = 1;
+    }
+    for i in 1..m {
+        h[i][0] = -1;
+        for j in 1..m {
+            h[i][j] = jq[i - 1][j - 1] + if i == j { 1 } else { 0 };
+        }
+    }
+    h
+}
+
+fn paley2(q: usize) -> Hadamard {
+    let jq = jacobsthal(q);
+    let n = q + 1;
+    // C = [[0, 1^T], [1, Q]], symmetric conference matrix; replace 0 by
+    // [[1,-1],[-1,-1]] and +-1 by +-[[1,1],[1,-1]].
+    let mut c = vec![vec![0i8; n]; n];
+    for j in 1..n {
+        c[0][j] = 1;
+        c[j][0] = 1;
+    }
+    for i in 1..n {
+        for j in 1..n {
+            c[i][j] = jq[i - 1][j - 1];
+        }
+    }
+    let mut h = vec![vec![0i8; 2 * n]; 2 * n];
+    for i in 0..n {
+        for j in 0..n {
+            let block: [[i8; 2]; 2] = match c[i][j] {
+                0 => [[1, -1], [-1, -1]],
+                s => [[s, s], [s, -s]],
+            };
+            for a in 0..2 {
+                for b in 0..2 {
+                    h[2 * i + a][2 * j + b] = block[a][b];
+                }
+            }
+        }
+    }
+    h
+}
+
+/// True when `h h^T = m I`.
+pub fn is_hadamard(h: &Hadamard) -> bool {
+    let m = h.len();
+    h.iter().all(|r| r.len() == m)
+        && (0..m).all(|i| {
+            (0..m).all(|j| {
+                let dot: i32 = (0..m).map(|k| h[i][k] as i32 * h[j][k] as i32).sum();
+                dot == if i == j { m as i32 } else { 0 }
+            })
+        })
+}
+
+/// A Hadamard matrix of order `m`, if one of the constructions above gives it.
+pub fn hadamard_of_order(m: usize) -> Option<Hadamard> {
+    if m == 1 || m == 2 {
+        return Some(sylvester(m));
+    }
+    if m % 4 != 0 {
+        return None;
+    }
+    if m.is_power_of_two() {
+        return Some(sylvester(m));
+    }
+    let q = m - 1;
+    if is_prime(q) && q % 4 == 3 {
+        return Some(paley1(q));
+    }
+    if m % 2 == 0 {
+        let q = m / 2 - 1;
+        if is_prime(q) && q % 4 == 1 {
+            return Some(paley2(q));
+        }
+        if let Some(h) = hadamard_of_order(m / 2) {
+            return Some(double(&h));
+        }
+    }
+    None
+}
+
+/// The smallest constructible Hadamard matrix of order at least `k`.
+pub fn smallest_hadamard(k: usize) -> Hadamard {
+    let mut m = k.max(1);
+    loop {
+        if let Some(h) = hadamard_of_order(m) {
+            return h;
+        }
+        m += 1;
+    }
+}

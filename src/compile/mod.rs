@@ -1,0 +1,3 @@
+//! Compilation from circuits to native sequences.
+
+pub mod hadamard;

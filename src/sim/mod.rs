@@ -1,0 +1,16 @@
+//! Simulation and proof of equality: statevector kernels, the unitary builder, a
+//! stabilizer tableau, and the equivalence checker that uses them.
+//!
+//! Invariant: the checker never reports "equivalent" without having compared the
+//! two programs in the mode it names; programs it cannot compare are refused with
+//! the reason.
+
+pub mod apply;
+pub mod equiv;
+pub mod program;
+pub mod state;
+pub mod tableau;
+
+pub use equiv::{check, CheckConfig, CheckError, Mode, Verdict};
+pub use program::{Item, Kernel, Program};
+pub use state::StateVector;

@@ -1,0 +1,369 @@
+//! Stabilizer tableaux (Aaronson and Gottesman, "Improved simulation of stabilizer
+//! circuits", PRA 70, 052328, 2004) and the recognition of Clifford kernels.
+//!
+//! A Clifford unitary is determined up to global phase by the images of all `X_j`
+//! and `Z_j` with their signs: the full `2n`-row tableau (destabilizers and
+//! stabilizers) started from the identity. Two Clifford programs are equal up to
+//! global phase exactly when their tableaux are equal. Cost per gate `O(n / 64)`
+//! words, per comparison `O(n^2 / 64)`.
+
+use super::apply::z_to_sigma;
+use super::program::Kernel;
+use crate::circuit::Mat2;
+use num_complex::Complex64 as C64;
+use std::f64::consts::{FRAC_PI_2, FRAC_PI_4, PI};
+use std::sync::OnceLock;
+
+/// A Clifford generator.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Cliff {
+    H(usize),
+    S(usize),
+    Cx(usize, usize),
+}
+
+/// The tableau of a Clifford unitary on `n` qubits, stored by columns of bits over
+/// the `2n` rows so that each gate is a few word operations per 64 rows.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct Tableau {
+    pub n: usize,
+    words: usize,
+    x: Vec<Vec<u64>>,
+    z: Vec<Vec<u64>>,
+    r: Vec<u64>,
+}
+
+impl Tableau {
+    /// The identity: row `i < n` is `X_i`, row `n + i` is `Z_i`.
+    pub fn identity(n: usize) -> Tableau {
+        let words = (2 * n).div_ceil(64).max(1);
+        let mut t = Tableau { n, words, x: vec![vec![0; words]; n], z: vec![vec![0; words]; n], r: vec![0; words] };
+        for q in 0..n {
+            t.x[q][q / 64] |= 1 << (q % 64);
+            let row = n + q;
+            t.z[q][row / 64] |= 1 << (row % 64);
+        }
+        t
+    }
+
+    pub fn apply(&mut self, g: Cliff) {
+        match g {
+            Cliff::H(a) => {
+                for w in 0..self.words {
+                    self.r[w] ^= self.x[a][w] & self.z[a][w];
+                }
+                std::mem::swap(&mut self.x[a], &mut self.z[a]);
+            }
+            Cliff::S(a) => {
+                for w in 0..self.words {
+                    self.r[w] ^= self.x[a][w] & self.z[a][w];
+                    self.z[a][w] ^= self.x[a][w];
+                }
+            }
+            Cliff::Cx(a, b) => {
+                for w in 0..self.words {
+                    let (xa, za, xb, zb) = (self.x[a][w], self.z[a][w], self.x[b][w], self.z[b][w]);
+                    self.r[w] ^= xa & zb & !(xb ^ za);
+                    self.x[b][w] = xb ^ xa;
+                    self.z[a][w] = za ^ zb;
+                }
+            }
+        }
+    }
+}
+
+/// The 24 single-qubit Cliffords as words over H and S (time order), with their
+/// matrices normalised to a fixed global phase.
+fn single_qubit_cliffords() -> &'static Vec<(Vec<Cliff>, Mat2)> {
+    static TABLE: OnceLock<Vec<(Vec<Cliff>, Mat2)>> = OnceLock::new();
+    TABLE.get_or_init(|| {
+        let r = std::f64::consts::FRAC_1_SQRT_2;
+        let h = [[C64::new(r, 0.0), C64::new(r, 0.0)], [C64::new(r, 0.0), C64::new(-r, 0.0)]];
+        let s = [[C64::new(1.0, 0.0), C64::new(0.0, 0.0)], [C64::new(0.0, 0.0), C64::new(0.0, 1.0)]];
+        let id = [[C64::new(1.0, 0.0), C64::new(0.0, 0.0)], [C64::new(0.0, 0.0), C64::new(1.0, 0.0)]];
+        let mut found: Vec<(Vec<Cliff>, Mat2)> = vec![(vec![], normalise(&id))];
+        let mut frontier = 0;
+        while frontier < found.len() {
+            let (word, m) = found[frontier].clone();
+            for (g, gm) in [(Cliff::H(0), h), (Cliff::S(0), s)] {
+                let next = normalise(&mul(&gm, &m));
+                if !found.iter().any(|(_, f)| close(f, &next)) {
+                    let mut w = word.clone();
+                    w.push(g);
+                    found.push((w, next));
+                }
+            }
+            frontier += 1;
+        }
+        debug_assert_eq!(found.len(), 24);
+        found
+    })
+}
+
+fn mul(a: &Mat2, b: &Mat2) -> Mat2 {
+    let mut out = [[C64::new(0.0, 0.0); 2]; 2];
+    for i in 0..2 {
+        for j in 0..2 {
+            out[i][j] = a[i][0] * b[0][j] + a[i][1] * b[1][j];
+        }
+    }
+    out
+}
+
+/// Divides by the phase of the first entry of modulus above one half.
+fn normalise(m: &Mat2) -> Mat2 {
+    let pivot = [m[0][0], m[0][1], m[1][0], m[1][1]].into_iter().find(|e| e.norm() > 0.5).unwrap_or(C64::new(1.0, 0.0));
+    let ph = pivot / pivot.norm();
+    [[m[0][0] / ph, m[0][1] / ph], [m[1][0] / ph, m[1][1] / ph]]
+}
+
+fn close(a: &Mat2, b: &Mat2) -> bool {
+    (0..2).all(|i| (0..2).all(|j| (a[i][j] - b[i][j]).norm() < 1e-9))
+}
+
+/// The H/S word of a single-qubit Clifford, if `m` is one (up to global phase).
+pub fn clifford_word(m: &Mat2) -> Option<&'static [Cliff]> {
+    let n = normalise(m);
+    single_qubit_cliffords().iter().find(|(_, f)| close(f, &n)).map(|(w, _)| w.as_slice())
+}
+
+/// `m = t P` for a Pauli `P` (0 = I, 1 = X, 2 = Y, 3 = Z): returns `(P, t)`.
+pub fn as_pauli(m: &Mat2) -> Option<(u8, C64)> {
+    let t = [
+        (m[0][0] + m[1][1]) / 2.0,
+        (m[0][1] + m[1][0]) / 2.0,
+        (m[1][0] - m[0][1]) / C64::new(0.0, 2.0),
+        (m[0][0] - m[1][1]) / 2.0,
+    ];
+    (0..4u8).find(|&p| (t[p as usize].norm() - 1.0).abs() < 1e-9).map(|p| (p, t[p as usize]))
+}
+
+/// `k` with `x = k * unit` (mod `period`), if `x` is such a multiple.
+fn multiple_of(x: f64, unit: f64, period: u32) -> Option<u32> {
+    let k = (x / unit).round();
+    ((x - k * unit).abs() < 1e-9).then(|| (k.rem_euclid(period as f64)) as u32)
+}
+
+fn push_word(out: &mut Vec<Cliff>, word: &[Cliff], q: usize) {
+    out.extend(word.iter().map(|g| match g {
+        Cliff::H(_) => Cliff::H(q),
+        Cliff::S(_) => Cliff::S(q),
+        Cliff::Cx(..) => unreachable!("single-qubit words hold only H and S"),
+    }));
+}
+
+/// `exp(-i w sum P_a P_b)` over `terms` with `P = Z` or `sigma_axis`, as Clifford
+/// generators; `None` unless every `w` is a multiple of pi/4 and the axis of pi/2.
+fn ising(axis: Option<f64>, terms: &[(usize, usize, f64)], out: &mut Vec<Cliff>) -> Option<()> {
+    let mut qubits: Vec<usize> = terms.iter().flat_map(|t| [t.0, t.1]).collect();
+    qubits.sort_unstable();
+    qubits.dedup();
+    let basis = match axis {
+        Some(phi) => {
+            multiple_of(phi, FRAC_PI_2, 4)?;
+            let (w, wd) = z_to_sigma(phi);
+            Some((clifford_word(&w)?, clifford_word(&wd)?))
+        }
+        None => None,
+    };
+    if let Some((_, wd)) = basis {
+        for &q in &qubits {
+            push_word(out, wd, q);
+        }
+    }
+    for &(a, b, w) in terms {
+        // exp(-i pi/4 Z_a Z_b) = CX(a,b) exp(-i pi/4 Z_b) CX(a,b), and exp(-i pi/4 Z) is
+        // S up to phase; four units make -1.
+        let units = multiple_of(w, FRAC_PI_4, 4)?;
+        for _ in 0..units {
+            out.extend([Cliff::Cx(a, b), Cliff::S(b), Cliff::Cx(a, b)]);
+        }
+    }
+    if let Some((w, _)) = basis {
+        for &q in &qubits {
+            push_word(out, w, q);
+        }
+    }
+    Some(())
+}
+
+/// The Clifford generators of a kernel, or `None` if it is not Clifford.
+pub fn kernel_to_clifford(k: &Kernel, out: &mut Vec<Cliff>) -> Option<()> {
+    match k {
+        Kernel::One { q, m } => push_word(out, clifford_word(m)?, *q),
+        Kernel::Collective { m, qubits } => {
+            let w = clifford_word(m)?;
+            for &q in qubits {
+                push_word(out, w, q);
+            }
+        }
+        Kernel::Controlled { controls, target, m } if controls.len() == 1 => {
+            let (c, t) = (controls[0], *target);
+            let (p, factor) = as_pauli(m)?;
+            // controlled-(e^{i a} P) = diag(1, e^{i a}) on the control, times controlled-P.
+            let quarter_turns = multiple_of(factor.arg(), FRAC_PI_2, 4)?;
+            match p {
+                0 => {}
+                1 => out.push(Cliff::Cx(c, t)),
+                2 => {
+                    out.extend([Cliff::S(t), Cliff::S(t), Cliff::S(t)]);
+                    out.push(Cliff::Cx(c, t));
+                    out.push(Cliff::S(t));
+                }
+                _ => out.extend([Cliff::H(t), Cliff::Cx(c, t), Cliff::H(t)]),
+            }
+            for _ in 0..quarter_turns {
+                out.push(Cliff::S(c));
+            }
+        }
+        Kernel::Controlled { .. } | Kernel::Dense { .. } => return None,
+        Kernel::Swap { a, b } => out.extend([Cliff::Cx(*a, *b), Cliff::Cx(*b, *a), Cliff::Cx(*a, *b)]),
+        Kernel::Ising { axis, terms } => ising(*axis, terms, out)?,
+        Kernel::Ms { theta, phi, qubits } => {
+            multiple_of(theta / 2.0, FRAC_PI_4, 4)?;
+            let mut terms = Vec::new();
+            for (i, &a) in qubits.iter().enumerate() {
+                for &b in &qubits[i + 1..] {
+                    terms.push((a, b, theta / 2.0));
+                }
+            }
+            ising(Some(*phi), &terms, out)?;
+        }
+    }
+    Some(())
+}
+
+/// Whether a Pauli (0 I, 1 X, 2 Y, 3 Z) commutes (`Some(false)`) or anticommutes
+/// (`Some(true)`) with `sigma_phi`; `None` when it does neither.
+fn anticommutes_with_sigma(p: u8, phi: f64) -> Option<bool> {
+    let along_x = multiple_of(phi, PI, 2).is_some();
+    let along_y = multiple_of(phi - FRAC_PI_2, PI, 2).is_some();
+    match p {
+        0 => Some(false),
+        3 => Some(true),
+        1 if along_x => Some(false),
+        1 if along_y => Some(true),
+        2 if along_x => Some(true),
+        2 if along_y => Some(false),
+        _ => None,
+    }
+}
+
+/// Fuses each run of MS kernels on the same qubits with the same axis (mod pi),
+/// separated only by Pauli operations, into one Ising kernel followed by those
+/// Paulis. Pushing a Pauli `P` past `exp(-i w sigma_a sigma_b)` flips the sign of
+/// `w` when `P` anticommutes with exactly one of `sigma_a`, `sigma_b`, so the
+/// coupling matrix is tracked with signs. The product is unchanged (up to global
+/// phase), and a sign-vector echo of non-Clifford pulses becomes a Clifford
+/// interaction when its couplings are.
+pub fn fuse_xx_runs(kernels: &[Kernel]) -> Vec<Kernel> {
+    struct Run {
+        phi: f64,
+        qubits: Vec<usize>,
+        weights: Vec<f64>,
+        signs: Vec<f64>,
+        paulis: Vec<Kernel>,
+    }
+    fn flush(run: &mut Option<Run>, out: &mut Vec<Kernel>) {
+        if let Some(r) = run.take() {
+            let mut terms = Vec::new();
+            let mut k = 0;
+            for (i, &a) in r.qubits.iter().enumerate() {
+                for &b in &r.qubits[i + 1..] {
+                    terms.push((a, b, r.weights[k]));
+                    k += 1;
+                }
+            }
+            out.push(Kernel::Ising { axis: Some(r.phi), terms });
+            out.extend(r.paulis);
+        }
+    }
+    let mut out = Vec::with_capacity(kernels.len());
+    let mut run: Option<Run> = None;
+    for k in kernels {
+        match k {
+            Kernel::Ms { theta, phi, qubits } => {
+                let compatible = run.as_ref().is_some_and(|r| {
+                    r.qubits == *qubits && multiple_of(phi - r.phi, PI, 2).is_some()
+                });
+                if !compatible {
+                    flush(&mut run, &mut out);
+                    let m = qubits.len();
+                    run = Some(Run {
+                        phi: *phi,
+                        qubits: qubits.clone(),
+                        weights: vec![0.0; m * (m.saturating_sub(1)) / 2],
+                        signs: vec![1.0; m],
+                        paulis: Vec::new(),
+                    });
+                }
+                let r = run.as_mut().expect("a run is open");
+                let mut idx = 0;
+                for i in 0..r.qubits.len() {
+                    for j in i + 1..r.qubits.len() {
+                        r.weights[idx] += theta / 2.0 * r.signs[i] * r.signs[j];
+                        idx += 1;
+                    }
+                }
+            }
+            Kernel::One { q, m } if run.is_some() => {
+                let r = run.as_mut().expect("checked");
+                match as_pauli(m).and_then(|(p, _)| anticommutes_with_sigma(p, r.phi)) {
+                    Some(anti) => {
+                        if anti {
+                            if let Some(i) = r.qubits.iter().position(|x| x == q) {
+                                r.signs[i] = -r.signs[i];
+                            }
+                        }
+                        r.paulis.push(k.clone());
+                    }
+                    None => {
+                        flush(&mut run, &mut out);
+                        out.push(k.clone());
+                    }
+                }
+            }
+            Kernel::Collective { m, qubits } if run.is_some() => {
+                let r = run.as_mut().expect("checked");
+                match as_pauli(m).and_then(|(p, _)| anticommutes_with_sigma(p, r.phi)) {
+                    Some(anti) => {
+                        if anti {
+                            for q in qubits {
+                                if let Some(i) = r.qubits.iter().position(|x| x == q) {
+                                    r.signs[i] = -r.signs[i];
+                                }
+                            }
+                        }
+                        r.paulis.push(k.clone());
+                    }
+                    None => {
+                        flush(&mut run, &mut out);
+                        out.push(k.clone());
+                    }
+                }
+            }
+            other => {
+                flush(&mut run, &mut out);
+                out.push(other.clone());
+            }
+        }
+    }
+    flush(&mut run, &mut out);
+    out
+}
+
+/// The tableau of a list of kernels, or the first kernel that is not Clifford.
+pub fn tableau_of(kernels: &[Kernel], n: usize) -> Result<Tableau, Kernel> {
+    let mut t = Tableau::identity(n);
+    let mut gates = Vec::new();
+    for k in kernels {
+        gates.clear();
+        if kernel_to_clifford(k, &mut gates).is_none() {
+            return Err(k.clone());
+        }
+        for &g in &gates {
+            t.apply(g);
+        }
+    }
+    Ok(t)
+}

@@ -9,8 +9,8 @@
 //! ```
 
 pub mod circuit;
-pub mod qasm;
-pub mod native;
 pub mod compile;
-pub mod sim;
+pub mod native;
+pub mod qasm;
 pub mod report;
+pub mod sim;

@@ -141,7 +141,18 @@ fn run(cli: Cli) -> Result<ExitCode, String> {
             }
             Ok(ExitCode::SUCCESS)
         }
-        Command::Check { a, b, mode, trials, seed, tolerance, memory, up_to_final_diagonal, json, limits } => {
+        Command::Check {
+            a,
+            b,
+            mode,
+            trials,
+            seed,
+            tolerance,
+            memory,
+            up_to_final_diagonal,
+            json,
+            limits,
+        } => {
             let limits = limits.limits();
             let pa = load_program(&a, &limits)?;
             let pb = load_program(&b, &limits)?;
@@ -156,11 +167,18 @@ fn run(cli: Cli) -> Result<ExitCode, String> {
             };
             let verdict = tutti::sim::check(&pa, &pb, &cfg).map_err(|e| format!("error: {e}"))?;
             if json {
-                println!("{}", serde_json::to_string_pretty(&verdict).map_err(|e| e.to_string())?);
+                println!(
+                    "{}",
+                    serde_json::to_string_pretty(&verdict).map_err(|e| e.to_string())?
+                );
             } else {
                 print!("{}", tutti::report::verdict_text(&verdict));
             }
-            Ok(if verdict.equivalent { ExitCode::SUCCESS } else { ExitCode::from(1) })
+            Ok(if verdict.equivalent {
+                ExitCode::SUCCESS
+            } else {
+                ExitCode::from(1)
+            })
         }
     }
 }
@@ -168,5 +186,6 @@ fn run(cli: Cli) -> Result<ExitCode, String> {
 /// Reads a program for the checker from any format tutti reads.
 fn load_program(path: &Path, limits: &Limits) -> Result<tutti::sim::Program, String> {
     let circuit = read(path, limits)?;
-    tutti::sim::Program::from_circuit(&circuit).map_err(|e| format!("error: {}: {e}", path.display()))
+    tutti::sim::Program::from_circuit(&circuit)
+        .map_err(|e| format!("error: {}: {e}", path.display()))
 }

@@ -49,7 +49,9 @@ fn double(h: &Hadamard) -> Hadamard {
 
 /// Jacobsthal matrix `Q[i][j] = chi(j - i)`.
 fn jacobsthal(q: usize) -> Vec<Vec<i8>> {
-    (0..q).map(|i| (0..q).map(|j| chi(j + q - i, q)).collect()).collect()
+    (0..q)
+        .map(|i| (0..q).map(|j| chi(j + q - i, q)).collect())
+        .collect()
 }
 
 fn paley1(q: usize) -> Hadamard {

@@ -14,23 +14,51 @@
 //!
 //! Invariant: every ion index of a [`Sequence`] is below `n_ions`.
 
-
 use crate::circuit::{Clbit, Condition, Register};
 
 /// One native operation.
 #[derive(Debug, Clone, Copy, PartialEq, serde::Serialize, serde::Deserialize)]
 #[serde(tag = "op", rename_all = "snake_case")]
 pub enum NativeOp {
-    Collective { theta: f64, phi: f64 },
-    LightShift { ion: u32, theta: f64 },
-    Ms { theta: f64, phi: f64 },
-    PairMs { a: u32, b: u32, theta: f64, phi: f64 },
-    Addressed { ion: u32, theta: f64, phi: f64 },
-    VirtualZ { theta: f64 },
-    Hide { ion: u32 },
-    Unhide { ion: u32 },
-    Measure { ion: u32, clbit: u32 },
-    Reset { ion: u32 },
+    Collective {
+        theta: f64,
+        phi: f64,
+    },
+    LightShift {
+        ion: u32,
+        theta: f64,
+    },
+    Ms {
+        theta: f64,
+        phi: f64,
+    },
+    PairMs {
+        a: u32,
+        b: u32,
+        theta: f64,
+        phi: f64,
+    },
+    Addressed {
+        ion: u32,
+        theta: f64,
+        phi: f64,
+    },
+    VirtualZ {
+        theta: f64,
+    },
+    Hide {
+        ion: u32,
+    },
+    Unhide {
+        ion: u32,
+    },
+    Measure {
+        ion: u32,
+        clbit: u32,
+    },
+    Reset {
+        ion: u32,
+    },
 }
 
 impl NativeOp {
@@ -58,11 +86,18 @@ pub struct Sequence {
 
 impl Sequence {
     pub fn new(n_ions: u32, cregs: Vec<Register>) -> Sequence {
-        Sequence { n_ions, cregs, steps: Vec::new() }
+        Sequence {
+            n_ions,
+            cregs,
+            steps: Vec::new(),
+        }
     }
 
     pub fn push(&mut self, op: NativeOp) {
-        self.steps.push(Step { op, condition: None });
+        self.steps.push(Step {
+            op,
+            condition: None,
+        });
     }
 
     pub fn n_clbits(&self) -> u32 {

@@ -28,8 +28,18 @@ pub fn inspect_table(name: &str, s: &Summary) -> String {
 /// The text `tutti check` prints.
 pub fn verdict_text(v: &Verdict) -> String {
     let mut out = String::new();
-    let word = if v.equivalent { "EQUIVALENT" } else { "NOT EQUIVALENT" };
-    let _ = writeln!(out, "{word} (mode {}, {} qubits, {} segment(s))", v.mode.name(), v.qubits, v.segments);
+    let word = if v.equivalent {
+        "EQUIVALENT"
+    } else {
+        "NOT EQUIVALENT"
+    };
+    let _ = writeln!(
+        out,
+        "{word} (mode {}, {} qubits, {} segment(s))",
+        v.mode.name(),
+        v.qubits,
+        v.segments
+    );
     let _ = writeln!(out, "  fidelity      {:.12}", v.fidelity);
     match v.global_phase {
         Some(g) => {

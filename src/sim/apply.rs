@@ -14,7 +14,10 @@ pub fn z_to_sigma(phi: f64) -> (Mat2, Mat2) {
     let e = C64::from_polar(1.0, phi / 2.0);
     // Rz(phi) H = [[e^{-i phi/2}, e^{-i phi/2}], [e^{i phi/2}, -e^{i phi/2}]] / sqrt 2.
     let w = [[e.conj() * r, e.conj() * r], [e * r, -e * r]];
-    let wd = [[w[0][0].conj(), w[1][0].conj()], [w[0][1].conj(), w[1][1].conj()]];
+    let wd = [
+        [w[0][0].conj(), w[1][0].conj()],
+        [w[0][1].conj(), w[1][1].conj()],
+    ];
     (w, wd)
 }
 
@@ -35,9 +38,16 @@ pub fn apply_kernel(s: &mut StateVector, k: &Kernel) {
                 s.apply_mat2(*q, m);
             }
         }
-        Kernel::Controlled { controls, target, m } => s.apply_controlled(controls, *target, m),
+        Kernel::Controlled {
+            controls,
+            target,
+            m,
+        } => s.apply_controlled(controls, *target, m),
         Kernel::Swap { a, b } => {
-            let x = [[C64::new(0.0, 0.0), C64::new(1.0, 0.0)], [C64::new(1.0, 0.0), C64::new(0.0, 0.0)]];
+            let x = [
+                [C64::new(0.0, 0.0), C64::new(1.0, 0.0)],
+                [C64::new(1.0, 0.0), C64::new(0.0, 0.0)],
+            ];
             s.apply_controlled(&[*a], *b, &x);
             s.apply_controlled(&[*b], *a, &x);
             s.apply_controlled(&[*a], *b, &x);

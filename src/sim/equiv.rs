@@ -96,7 +96,11 @@ pub enum CheckError {
     #[error(transparent)]
     Lower(#[from] LowerError),
     #[error("{qubits} qubits need {needed} bytes of statevector memory, more than the budget of {budget} bytes; raise --memory or make both programs Clifford for tableau mode")]
-    TooLarge { qubits: usize, needed: usize, budget: usize },
+    TooLarge {
+        qubits: usize,
+        needed: usize,
+        budget: usize,
+    },
     #[error("tableau mode needs Clifford programs, but {0}")]
     NotClifford(String),
     #[error("the programs cannot be compared segment by segment: {0}")]
@@ -108,9 +112,17 @@ pub enum CheckError {
 #[derive(Debug, Clone, PartialEq)]
 enum Seg {
     Unitary(Vec<Kernel>),
-    Measure { q: usize, clbit: u32 },
-    Reset { q: usize },
-    Conditioned { condition: Condition, body: Vec<Kernel> },
+    Measure {
+        q: usize,
+        clbit: u32,
+    },
+    Reset {
+        q: usize,
+    },
+    Conditioned {
+        condition: Condition,
+        body: Vec<Kernel>,
+    },
 }
 
 /// Cuts a program into alternating unitary segments and cuts: `U B U B ... U`.
@@ -132,13 +144,19 @@ fn segments(p: &Program) -> Vec<Seg> {
                 if !matches!(out.last(), Some(Seg::Unitary(_))) {
                     out.push(Seg::Unitary(Vec::new()));
                 }
-                out.push(Seg::Conditioned { condition: *condition, body: vec![kernel.clone()] });
+                out.push(Seg::Conditioned {
+                    condition: *condition,
+                    body: vec![kernel.clone()],
+                });
             }
             Item::Measure { q, clbit } => {
                 if !matches!(out.last(), Some(Seg::Unitary(_))) {
                     out.push(Seg::Unitary(Vec::new()));
                 }
-                out.push(Seg::Measure { q: *q, clbit: *clbit });
+                out.push(Seg::Measure {
+                    q: *q,
+                    clbit: *clbit,
+                });
             }
             Item::Reset { q } => {
                 if !matches!(out.last(), Some(Seg::Unitary(_))) {
@@ -197,18 +215,37 @@ pub fn check(a: &Program, b: &Program, cfg: &CheckConfig) -> Result<Verdict, Che
         detail: String::new(),
     };
     let mut rank = 0;
-    let last_unitary = sa.iter().rposition(|s| matches!(s, Seg::Unitary(v) if !v.is_empty())).unwrap_or(0);
-    let last_unitary_b = sb.iter().rposition(|s| matches!(s, Seg::Unitary(v) if !v.is_empty())).unwrap_or(0);
+    let last_unitary = sa
+        .iter()
+        .rposition(|s| matches!(s, Seg::Unitary(v) if !v.is_empty()))
+        .unwrap_or(0);
+    let last_unitary_b = sb
+        .iter()
+        .rposition(|s| matches!(s, Seg::Unitary(v) if !v.is_empty()))
+        .unwrap_or(0);
     let final_index = last_unitary.max(last_unitary_b);
     for (i, (x, y)) in sa.iter().zip(&sb).enumerate() {
         let bodies = match (x, y) {
             (Seg::Unitary(p), Seg::Unitary(q)) => Some((p, q, false)),
-            (Seg::Conditioned { condition: c1, body: p }, Seg::Conditioned { condition: c2, body: q }) if c1 == c2 => {
-                Some((p, q, true))
+            (
+                Seg::Conditioned {
+                    condition: c1,
+                    body: p,
+                },
+                Seg::Conditioned {
+                    condition: c2,
+                    body: q,
+                },
+            ) if c1 == c2 => Some((p, q, true)),
+            (Seg::Measure { q: q1, clbit: c1 }, Seg::Measure { q: q2, clbit: c2 })
+                if q1 == q2 && c1 == c2 =>
+            {
+                None
             }
-            (Seg::Measure { q: q1, clbit: c1 }, Seg::Measure { q: q2, clbit: c2 }) if q1 == q2 && c1 == c2 => None,
             (Seg::Reset { q: q1 }, Seg::Reset { q: q2 }) if q1 == q2 => None,
-            _ if i > final_index && matches!((x, y), (Seg::Measure { .. }, Seg::Measure { .. })) => {
+            _ if i > final_index
+                && matches!((x, y), (Seg::Measure { .. }, Seg::Measure { .. })) =>
+            {
                 // Terminal measurements in another order are still the same readout.
                 let mb = trailing_measured(&sb);
                 let (mut p, mut q) = (measured_a.clone(), mb);
@@ -229,7 +266,9 @@ pub fn check(a: &Program, b: &Program, cfg: &CheckConfig) -> Result<Verdict, Che
                 )))
             }
         };
-        let Some((p, q, _conditioned)) = bodies else { continue };
+        let Some((p, q, _conditioned)) = bodies else {
+            continue;
+        };
         let diagonal = if cfg.up_to_final_diagonal && i == final_index && !measured_a.is_empty() {
             Some(measured_a.as_slice())
         } else {
@@ -251,11 +290,22 @@ pub fn check(a: &Program, b: &Program, cfg: &CheckConfig) -> Result<Verdict, Che
         verdict.fidelity = verdict.fidelity.min(r.fidelity);
         if !r.equal && verdict.equivalent {
             verdict.equivalent = false;
-            verdict.detail = format!("segment {} differs (fidelity {:.12})", i / 2 + 1, r.fidelity);
+            verdict.detail = format!(
+                "segment {} differs (fidelity {:.12})",
+                i / 2 + 1,
+                r.fidelity
+            );
         }
     }
-    if sa.len() == 1 && matches!(&sa[0], Seg::Unitary(v) if v.is_empty()) && matches!(&sb[0], Seg::Unitary(v) if v.is_empty()) {
-        verdict.mode = if cfg.mode == Mode::Auto { Mode::Tableau } else { cfg.mode };
+    if sa.len() == 1
+        && matches!(&sa[0], Seg::Unitary(v) if v.is_empty())
+        && matches!(&sb[0], Seg::Unitary(v) if v.is_empty())
+    {
+        verdict.mode = if cfg.mode == Mode::Auto {
+            Mode::Tableau
+        } else {
+            cfg.mode
+        };
     }
     Ok(verdict)
 }
@@ -266,7 +316,10 @@ fn describe(s: &Seg) -> String {
         Seg::Measure { q, clbit } => format!("measure of qubit {q} into bit {clbit}"),
         Seg::Reset { q } => format!("reset of qubit {q}"),
         Seg::Conditioned { condition, .. } => {
-            format!("operations conditioned on register #{} == {}", condition.creg, condition.value)
+            format!(
+                "operations conditioned on register #{} == {}",
+                condition.creg, condition.value
+            )
         }
     }
 }
@@ -275,28 +328,52 @@ fn state_bytes(n: usize) -> usize {
     16usize.saturating_mul(1usize.checked_shl(n as u32).unwrap_or(usize::MAX))
 }
 
-fn compare(p: &[Kernel], q: &[Kernel], n: usize, cfg: &CheckConfig, diagonal: Option<&[usize]>) -> Result<SegResult, CheckError> {
+fn compare(
+    p: &[Kernel],
+    q: &[Kernel],
+    n: usize,
+    cfg: &CheckConfig,
+    diagonal: Option<&[usize]>,
+) -> Result<SegResult, CheckError> {
     let want_tableau = matches!(cfg.mode, Mode::Auto | Mode::Tableau) && diagonal.is_none();
     if want_tableau {
         let (fp, fq) = (fuse_xx_runs(p), fuse_xx_runs(q));
         match (tableau_of(&fp, n), tableau_of(&fq, n)) {
             (Ok(ta), Ok(tb)) => {
                 let equal = ta == tb;
-                return Ok(SegResult { equal, mode: Mode::Tableau, fidelity: if equal { 1.0 } else { 0.0 }, phase: None });
+                return Ok(SegResult {
+                    equal,
+                    mode: Mode::Tableau,
+                    fidelity: if equal { 1.0 } else { 0.0 },
+                    phase: None,
+                });
             }
             (Err(k), _) | (_, Err(k)) if cfg.mode == Mode::Tableau => {
-                return Err(CheckError::NotClifford(format!("{k} is not a Clifford operation")));
+                return Err(CheckError::NotClifford(format!(
+                    "{k} is not a Clifford operation"
+                )));
             }
             _ => {}
         }
     }
     if cfg.mode == Mode::Tableau {
-        return Err(CheckError::Unsupported("tableau mode cannot compare up to a final diagonal".into()));
+        return Err(CheckError::Unsupported(
+            "tableau mode cannot compare up to a final diagonal".into(),
+        ));
     }
-    let use_unitary = cfg.mode == Mode::Unitary || (cfg.mode == Mode::Auto && n <= cfg.max_unitary_qubits);
-    let needed = if use_unitary { state_bytes(2 * n).saturating_mul(2) } else { state_bytes(n).saturating_mul(2) };
+    let use_unitary =
+        cfg.mode == Mode::Unitary || (cfg.mode == Mode::Auto && n <= cfg.max_unitary_qubits);
+    let needed = if use_unitary {
+        state_bytes(2 * n).saturating_mul(2)
+    } else {
+        state_bytes(n).saturating_mul(2)
+    };
     if needed > cfg.memory_budget || n >= 48 {
-        return Err(CheckError::TooLarge { qubits: n, needed, budget: cfg.memory_budget });
+        return Err(CheckError::TooLarge {
+            qubits: n,
+            needed,
+            budget: cfg.memory_budget,
+        });
     }
     if use_unitary {
         let (ua, ub) = (unitary_of(p, n), unitary_of(q, n));
@@ -308,13 +385,22 @@ fn compare(p: &[Kernel], q: &[Kernel], n: usize, cfg: &CheckConfig, diagonal: Op
             let mut worst: f64 = 0.0;
             for i in 0..d.nrows() {
                 for j in 0..d.ncols() {
-                    let want = if i == j { d[(i & mask, i & mask)] } else { C64::new(0.0, 0.0) };
+                    let want = if i == j {
+                        d[(i & mask, i & mask)]
+                    } else {
+                        C64::new(0.0, 0.0)
+                    };
                     worst = worst.max((d[(i, j)] - want).norm());
                 }
                 worst = worst.max((d[(i, i)].norm() - 1.0).abs());
             }
             let fidelity = (1.0 - worst).max(0.0);
-            return Ok(SegResult { equal: worst < cfg.tolerance.sqrt(), mode: Mode::Unitary, fidelity, phase: None });
+            return Ok(SegResult {
+                equal: worst < cfg.tolerance.sqrt(),
+                mode: Mode::Unitary,
+                fidelity,
+                phase: None,
+            });
         }
         let tr = (ua.adjoint() * &ub).trace() / dim;
         let fidelity = tr.norm_sqr();
@@ -342,7 +428,12 @@ fn compare(p: &[Kernel], q: &[Kernel], n: usize, cfg: &CheckConfig, diagonal: Op
         };
         worst = worst.min(f);
     }
-    Ok(SegResult { equal: worst > 1.0 - cfg.tolerance, mode: Mode::Random, fidelity: worst, phase })
+    Ok(SegResult {
+        equal: worst > 1.0 - cfg.tolerance,
+        mode: Mode::Random,
+        fidelity: worst,
+        phase,
+    })
 }
 
 /// `(sum_m |<a_m|b_m>|)^2` over the patterns `m` of the measured bits, where `a_m` is

@@ -14,28 +14,59 @@ use num_complex::Complex64 as C64;
 #[derive(Debug, Clone, PartialEq)]
 pub enum Kernel {
     /// A 2x2 on one qubit.
-    One { q: usize, m: Mat2 },
+    One {
+        q: usize,
+        m: Mat2,
+    },
     /// A 2x2 on `target` when every control is 1.
-    Controlled { controls: Vec<usize>, target: usize, m: Mat2 },
-    Swap { a: usize, b: usize },
+    Controlled {
+        controls: Vec<usize>,
+        target: usize,
+        m: Mat2,
+    },
+    Swap {
+        a: usize,
+        b: usize,
+    },
     /// `exp(-i sum_k w_k P_a P_b)` with `P = Z` when `axis` is `None`, else `sigma_axis`.
-    Ising { axis: Option<f64>, terms: Vec<(usize, usize, f64)> },
+    Ising {
+        axis: Option<f64>,
+        terms: Vec<(usize, usize, f64)>,
+    },
     /// `exp(-i theta/4 S_phi^2)` over `qubits` (the global MS pulse).
-    Ms { theta: f64, phi: f64, qubits: Vec<usize> },
+    Ms {
+        theta: f64,
+        phi: f64,
+        qubits: Vec<usize>,
+    },
     /// The same 2x2 on each of `qubits` (a collective rotation).
-    Collective { m: Mat2, qubits: Vec<usize> },
+    Collective {
+        m: Mat2,
+        qubits: Vec<usize>,
+    },
     /// A dense matrix on up to six qubits (argument 0 = bit 0).
-    Dense { qubits: Vec<usize>, m: DMatrix<C64> },
+    Dense {
+        qubits: Vec<usize>,
+        m: DMatrix<C64>,
+    },
 }
 
 /// One item of a program.
 #[derive(Debug, Clone, PartialEq)]
 pub enum Item {
     Unitary(Kernel),
-    Measure { q: usize, clbit: u32 },
-    Reset { q: usize },
+    Measure {
+        q: usize,
+        clbit: u32,
+    },
+    Reset {
+        q: usize,
+    },
     /// A unitary applied only when the condition holds.
-    Conditioned { condition: Condition, kernel: Kernel },
+    Conditioned {
+        condition: Condition,
+        kernel: Kernel,
+    },
 }
 
 /// A program over `n_qubits` qubits, ready for the simulator and the checker.
@@ -48,7 +79,9 @@ pub struct Program {
 /// Why a program cannot be simulated.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
 pub enum LowerError {
-    #[error("gate `{0}` is opaque: its unitary is unknown, so it can be neither simulated nor compiled")]
+    #[error(
+        "gate `{0}` is opaque: its unitary is unknown, so it can be neither simulated nor compiled"
+    )]
     Opaque(String),
 }
 
@@ -57,13 +90,19 @@ pub fn rotation(theta: f64, phi: f64) -> Mat2 {
     let (s, c) = (theta / 2.0).sin_cos();
     let e = C64::from_polar(1.0, phi);
     let mi = C64::new(0.0, -1.0);
-    [[C64::new(c, 0.0), mi * s * e.conj()], [mi * s * e, C64::new(c, 0.0)]]
+    [
+        [C64::new(c, 0.0), mi * s * e.conj()],
+        [mi * s * e, C64::new(c, 0.0)],
+    ]
 }
 
 /// `exp(-i theta/2 Z)`.
 pub fn z_rotation(theta: f64) -> Mat2 {
     let z = C64::new(0.0, 0.0);
-    [[C64::from_polar(1.0, -theta / 2.0), z], [z, C64::from_polar(1.0, theta / 2.0)]]
+    [
+        [C64::from_polar(1.0, -theta / 2.0), z],
+        [z, C64::from_polar(1.0, theta / 2.0)],
+    ]
 }
 
 impl Kernel {
@@ -73,17 +112,34 @@ impl Kernel {
             return Kernel::One { q: qubits[0], m };
         }
         if let Some((n_controls, m)) = gate.controlled() {
-            return Kernel::Controlled { controls: qubits[..n_controls].to_vec(), target: qubits[n_controls], m };
+            return Kernel::Controlled {
+                controls: qubits[..n_controls].to_vec(),
+                target: qubits[n_controls],
+                m,
+            };
         }
         let t = gate.params[0];
         match gate.kind {
-            GateKind::Swap => Kernel::Swap { a: qubits[0], b: qubits[1] },
-            GateKind::Rzz => Kernel::Ising { axis: None, terms: vec![(qubits[0], qubits[1], t / 2.0)] },
-            GateKind::Rxx => Kernel::Ising { axis: Some(0.0), terms: vec![(qubits[0], qubits[1], t / 2.0)] },
-            GateKind::Ryy => {
-                Kernel::Ising { axis: Some(std::f64::consts::FRAC_PI_2), terms: vec![(qubits[0], qubits[1], t / 2.0)] }
-            }
-            _ => Kernel::Dense { qubits: qubits.to_vec(), m: gate.matrix() },
+            GateKind::Swap => Kernel::Swap {
+                a: qubits[0],
+                b: qubits[1],
+            },
+            GateKind::Rzz => Kernel::Ising {
+                axis: None,
+                terms: vec![(qubits[0], qubits[1], t / 2.0)],
+            },
+            GateKind::Rxx => Kernel::Ising {
+                axis: Some(0.0),
+                terms: vec![(qubits[0], qubits[1], t / 2.0)],
+            },
+            GateKind::Ryy => Kernel::Ising {
+                axis: Some(std::f64::consts::FRAC_PI_2),
+                terms: vec![(qubits[0], qubits[1], t / 2.0)],
+            },
+            _ => Kernel::Dense {
+                qubits: qubits.to_vec(),
+                m: gate.matrix(),
+            },
         }
     }
 
@@ -91,7 +147,9 @@ impl Kernel {
     pub fn qubits(&self) -> Vec<usize> {
         match self {
             Kernel::One { q, .. } => vec![*q],
-            Kernel::Controlled { controls, target, .. } => {
+            Kernel::Controlled {
+                controls, target, ..
+            } => {
                 let mut v = controls.clone();
                 v.push(*target);
                 v
@@ -103,9 +161,9 @@ impl Kernel {
                 v.dedup();
                 v
             }
-            Kernel::Ms { qubits, .. } | Kernel::Collective { qubits, .. } | Kernel::Dense { qubits, .. } => {
-                qubits.clone()
-            }
+            Kernel::Ms { qubits, .. }
+            | Kernel::Collective { qubits, .. }
+            | Kernel::Dense { qubits, .. } => qubits.clone(),
         }
     }
 }
@@ -120,14 +178,21 @@ impl Program {
                     let qs: Vec<usize> = qubits.iter().map(|q| q.0 as usize).collect();
                     Kernel::of_gate(gate, &qs)
                 }
-                Op::Opaque { decl, .. } => return Err(LowerError::Opaque(c.opaque[*decl as usize].name.clone())),
+                Op::Opaque { decl, .. } => {
+                    return Err(LowerError::Opaque(c.opaque[*decl as usize].name.clone()))
+                }
                 Op::Barrier { .. } => continue,
                 Op::Measure { qubit, clbit } => {
-                    items.push(Item::Measure { q: qubit.0 as usize, clbit: clbit.0 });
+                    items.push(Item::Measure {
+                        q: qubit.0 as usize,
+                        clbit: clbit.0,
+                    });
                     continue;
                 }
                 Op::Reset { qubit } => {
-                    items.push(Item::Reset { q: qubit.0 as usize });
+                    items.push(Item::Reset {
+                        q: qubit.0 as usize,
+                    });
                     continue;
                 }
             };
@@ -136,7 +201,10 @@ impl Program {
                 None => Item::Unitary(kernel),
             });
         }
-        Ok(Program { n_qubits: c.n_qubits() as usize, items })
+        Ok(Program {
+            n_qubits: c.n_qubits() as usize,
+            items,
+        })
     }
 
     /// Lowers a native sequence, resolving hidden ions: collective and MS pulses act
@@ -148,14 +216,32 @@ impl Program {
         for step in &s.steps {
             let visible = || (0..n).filter(|&i| !hidden[i]).collect::<Vec<usize>>();
             let kernel = match step.op {
-                NativeOp::Collective { theta, phi } => Kernel::Collective { m: rotation(theta, phi), qubits: visible() },
-                NativeOp::VirtualZ { theta } => Kernel::Collective { m: z_rotation(theta), qubits: (0..n).collect() },
-                NativeOp::LightShift { ion, theta } => Kernel::One { q: ion as usize, m: z_rotation(theta) },
-                NativeOp::Addressed { ion, theta, phi } => Kernel::One { q: ion as usize, m: rotation(theta, phi) },
-                NativeOp::Ms { theta, phi } => Kernel::Ms { theta, phi, qubits: visible() },
-                NativeOp::PairMs { a, b, theta, phi } => {
-                    Kernel::Ms { theta, phi, qubits: vec![a as usize, b as usize] }
-                }
+                NativeOp::Collective { theta, phi } => Kernel::Collective {
+                    m: rotation(theta, phi),
+                    qubits: visible(),
+                },
+                NativeOp::VirtualZ { theta } => Kernel::Collective {
+                    m: z_rotation(theta),
+                    qubits: (0..n).collect(),
+                },
+                NativeOp::LightShift { ion, theta } => Kernel::One {
+                    q: ion as usize,
+                    m: z_rotation(theta),
+                },
+                NativeOp::Addressed { ion, theta, phi } => Kernel::One {
+                    q: ion as usize,
+                    m: rotation(theta, phi),
+                },
+                NativeOp::Ms { theta, phi } => Kernel::Ms {
+                    theta,
+                    phi,
+                    qubits: visible(),
+                },
+                NativeOp::PairMs { a, b, theta, phi } => Kernel::Ms {
+                    theta,
+                    phi,
+                    qubits: vec![a as usize, b as usize],
+                },
                 NativeOp::Hide { ion } => {
                     hidden[ion as usize] = true;
                     continue;
@@ -165,7 +251,10 @@ impl Program {
                     continue;
                 }
                 NativeOp::Measure { ion, clbit } => {
-                    items.push(Item::Measure { q: ion as usize, clbit });
+                    items.push(Item::Measure {
+                        q: ion as usize,
+                        clbit,
+                    });
                     continue;
                 }
                 NativeOp::Reset { ion } => {
@@ -199,14 +288,24 @@ impl std::fmt::Display for Kernel {
     fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
         match self {
             Kernel::One { q, .. } => write!(f, "a single-qubit gate on qubit {q}"),
-            Kernel::Controlled { controls, target, .. } => {
+            Kernel::Controlled {
+                controls, target, ..
+            } => {
                 write!(f, "a gate on qubit {target} controlled by {controls:?}")
             }
             Kernel::Swap { a, b } => write!(f, "a swap of qubits {a} and {b}"),
-            Kernel::Ising { terms, .. } => write!(f, "a two-qubit interaction on {} pair(s)", terms.len()),
-            Kernel::Ms { theta, qubits, .. } => write!(f, "an MS pulse of area {theta} on {} ions", qubits.len()),
-            Kernel::Collective { qubits, .. } => write!(f, "a collective rotation on {} ions", qubits.len()),
-            Kernel::Dense { qubits, .. } => write!(f, "a {}-qubit gate on {qubits:?}", qubits.len()),
+            Kernel::Ising { terms, .. } => {
+                write!(f, "a two-qubit interaction on {} pair(s)", terms.len())
+            }
+            Kernel::Ms { theta, qubits, .. } => {
+                write!(f, "an MS pulse of area {theta} on {} ions", qubits.len())
+            }
+            Kernel::Collective { qubits, .. } => {
+                write!(f, "a collective rotation on {} ions", qubits.len())
+            }
+            Kernel::Dense { qubits, .. } => {
+                write!(f, "a {}-qubit gate on {qubits:?}", qubits.len())
+            }
         }
     }
 }

@@ -94,9 +94,17 @@ impl StateVector {
     /// `<self|other>`.
     pub fn inner(&self, other: &StateVector) -> C64 {
         if self.amps.len() >= PAR_LEN {
-            self.amps.par_iter().zip(other.amps.par_iter()).map(|(a, b)| a.conj() * b).sum()
+            self.amps
+                .par_iter()
+                .zip(other.amps.par_iter())
+                .map(|(a, b)| a.conj() * b)
+                .sum()
         } else {
-            self.amps.iter().zip(&other.amps).map(|(a, b)| a.conj() * b).sum()
+            self.amps
+                .iter()
+                .zip(&other.amps)
+                .map(|(a, b)| a.conj() * b)
+                .sum()
         }
     }
 
@@ -117,7 +125,9 @@ impl StateVector {
                     .for_each(|(l, h)| butterfly(l, h, m));
             });
         } else {
-            self.amps.par_chunks_mut(CHUNK.max(2 * half)).for_each(|c| mat2_serial(c, q, m));
+            self.amps
+                .par_chunks_mut(CHUNK.max(2 * half))
+                .for_each(|c| mat2_serial(c, q, m));
         }
     }
 
@@ -150,27 +160,40 @@ impl StateVector {
                 apply(pi * 2 * half, lo, hi);
             }
         } else if half >= CHUNK {
-            self.amps.par_chunks_mut(2 * half).enumerate().for_each(|(pi, pair)| {
-                let (lo, hi) = pair.split_at_mut(half);
-                lo.par_chunks_mut(CHUNK)
-                    .zip(hi.par_chunks_mut(CHUNK))
-                    .enumerate()
-                    .for_each(|(k, (l, h))| apply(pi * 2 * half + k * CHUNK, l, h));
-            });
+            self.amps
+                .par_chunks_mut(2 * half)
+                .enumerate()
+                .for_each(|(pi, pair)| {
+                    let (lo, hi) = pair.split_at_mut(half);
+                    lo.par_chunks_mut(CHUNK)
+                        .zip(hi.par_chunks_mut(CHUNK))
+                        .enumerate()
+                        .for_each(|(k, (l, h))| apply(pi * 2 * half + k * CHUNK, l, h));
+                });
         } else {
-            self.amps.par_chunks_mut(block).enumerate().for_each(|(ci, c)| run(ci, c));
+            self.amps
+                .par_chunks_mut(block)
+                .enumerate()
+                .for_each(|(ci, c)| run(ci, c));
         }
     }
 
     /// Multiplies amplitude `i` by `phase(i)`. One pass.
     pub fn apply_diagonal(&mut self, phase: impl Fn(usize) -> C64 + Sync) {
         if self.amps.len() < PAR_LEN {
-            self.amps.iter_mut().enumerate().for_each(|(i, a)| *a *= phase(i));
+            self.amps
+                .iter_mut()
+                .enumerate()
+                .for_each(|(i, a)| *a *= phase(i));
         } else {
             self.amps
                 .par_chunks_mut(CHUNK)
                 .enumerate()
-                .for_each(|(ci, c)| c.iter_mut().enumerate().for_each(|(k, a)| *a *= phase(ci * CHUNK + k)));
+                .for_each(|(ci, c)| {
+                    c.iter_mut()
+                        .enumerate()
+                        .for_each(|(k, a)| *a *= phase(ci * CHUNK + k))
+                });
         }
     }
 
@@ -202,8 +225,14 @@ impl StateVector {
     /// One pass applying `m` to each qubit of `group` (ascending, at most GROUP).
     fn apply_product_pass(&mut self, group: &[usize], m: &Mat2) {
         let k = group.len();
-        let offsets: Vec<usize> =
-            (0..1usize << k).map(|s| (0..k).filter(|&j| s >> j & 1 == 1).map(|j| 1usize << group[j]).sum()).collect();
+        let offsets: Vec<usize> = (0..1usize << k)
+            .map(|s| {
+                (0..k)
+                    .filter(|&j| s >> j & 1 == 1)
+                    .map(|j| 1usize << group[j])
+                    .sum()
+            })
+            .collect();
         let outer = self.amps.len() >> k;
         let ptr = SharedPtr(self.amps.as_mut_ptr());
         let body = move |c: usize| {
@@ -235,7 +264,10 @@ impl StateVector {
         if self.amps.len() < PAR_LEN {
             (0..outer).for_each(body);
         } else {
-            (0..outer).into_par_iter().with_min_len(CHUNK).for_each(body);
+            (0..outer)
+                .into_par_iter()
+                .with_min_len(CHUNK)
+                .for_each(body);
         }
     }
 
@@ -245,8 +277,14 @@ impl StateVector {
         let dim = 1usize << k;
         let mut sorted = qubits.to_vec();
         sorted.sort_unstable();
-        let offsets: Vec<usize> =
-            (0..dim).map(|s| (0..k).filter(|&j| s >> j & 1 == 1).map(|j| 1usize << qubits[j]).sum()).collect();
+        let offsets: Vec<usize> = (0..dim)
+            .map(|s| {
+                (0..k)
+                    .filter(|&j| s >> j & 1 == 1)
+                    .map(|j| 1usize << qubits[j])
+                    .sum()
+            })
+            .collect();
         let outer = self.amps.len() >> k;
         let ptr = SharedPtr(self.amps.as_mut_ptr());
         let sorted = &sorted;
@@ -275,7 +313,10 @@ impl StateVector {
         if self.amps.len() < PAR_LEN {
             (0..outer).for_each(body);
         } else {
-            (0..outer).into_par_iter().with_min_len(CHUNK / dim.max(1)).for_each(body);
+            (0..outer)
+                .into_par_iter()
+                .with_min_len(CHUNK / dim.max(1))
+                .for_each(body);
         }
     }
 
@@ -299,7 +340,9 @@ impl StateVector {
         if self.amps.len() < PAR_LEN {
             dst.copy_from_slice(&self.amps);
         } else {
-            dst.par_chunks_mut(CHUNK).zip(self.amps.par_chunks(CHUNK)).for_each(|(d, s)| d.copy_from_slice(s));
+            dst.par_chunks_mut(CHUNK)
+                .zip(self.amps.par_chunks(CHUNK))
+                .for_each(|(d, s)| d.copy_from_slice(s));
         }
     }
 }

@@ -37,7 +37,13 @@ impl Tableau {
     /// The identity: row `i < n` is `X_i`, row `n + i` is `Z_i`.
     pub fn identity(n: usize) -> Tableau {
         let words = (2 * n).div_ceil(64).max(1);
-        let mut t = Tableau { n, words, x: vec![vec![0; words]; n], z: vec![vec![0; words]; n], r: vec![0; words] };
+        let mut t = Tableau {
+            n,
+            words,
+            x: vec![vec![0; words]; n],
+            z: vec![vec![0; words]; n],
+            r: vec![0; words],
+        };
         for q in 0..n {
             t.x[q][q / 64] |= 1 << (q % 64);
             let row = n + q;
@@ -78,9 +84,18 @@ fn single_qubit_cliffords() -> &'static Vec<(Vec<Cliff>, Mat2)> {
     static TABLE: OnceLock<Vec<(Vec<Cliff>, Mat2)>> = OnceLock::new();
     TABLE.get_or_init(|| {
         let r = std::f64::consts::FRAC_1_SQRT_2;
-        let h = [[C64::new(r, 0.0), C64::new(r, 0.0)], [C64::new(r, 0.0), C64::new(-r, 0.0)]];
-        let s = [[C64::new(1.0, 0.0), C64::new(0.0, 0.0)], [C64::new(0.0, 0.0), C64::new(0.0, 1.0)]];
-        let id = [[C64::new(1.0, 0.0), C64::new(0.0, 0.0)], [C64::new(0.0, 0.0), C64::new(1.0, 0.0)]];
+        let h = [
+            [C64::new(r, 0.0), C64::new(r, 0.0)],
+            [C64::new(r, 0.0), C64::new(-r, 0.0)],
+        ];
+        let s = [
+            [C64::new(1.0, 0.0), C64::new(0.0, 0.0)],
+            [C64::new(0.0, 0.0), C64::new(0.0, 1.0)],
+        ];
+        let id = [
+            [C64::new(1.0, 0.0), C64::new(0.0, 0.0)],
+            [C64::new(0.0, 0.0), C64::new(1.0, 0.0)],
+        ];
         let mut found: Vec<(Vec<Cliff>, Mat2)> = vec![(vec![], normalise(&id))];
         let mut frontier = 0;
         while frontier < found.len() {
@@ -112,7 +127,10 @@ fn mul(a: &Mat2, b: &Mat2) -> Mat2 {
 
 /// Divides by the phase of the first entry of modulus above one half.
 fn normalise(m: &Mat2) -> Mat2 {
-    let pivot = [m[0][0], m[0][1], m[1][0], m[1][1]].into_iter().find(|e| e.norm() > 0.5).unwrap_or(C64::new(1.0, 0.0));
+    let pivot = [m[0][0], m[0][1], m[1][0], m[1][1]]
+        .into_iter()
+        .find(|e| e.norm() > 0.5)
+        .unwrap_or(C64::new(1.0, 0.0));
     let ph = pivot / pivot.norm();
     [[m[0][0] / ph, m[0][1] / ph], [m[1][0] / ph, m[1][1] / ph]]
 }
@@ -124,7 +142,10 @@ fn close(a: &Mat2, b: &Mat2) -> bool {
 /// The H/S word of a single-qubit Clifford, if `m` is one (up to global phase).
 pub fn clifford_word(m: &Mat2) -> Option<&'static [Cliff]> {
     let n = normalise(m);
-    single_qubit_cliffords().iter().find(|(_, f)| close(f, &n)).map(|(w, _)| w.as_slice())
+    single_qubit_cliffords()
+        .iter()
+        .find(|(_, f)| close(f, &n))
+        .map(|(w, _)| w.as_slice())
 }
 
 /// `m = t P` for a Pauli `P` (0 = I, 1 = X, 2 = Y, 3 = Z): returns `(P, t)`.
@@ -135,7 +156,9 @@ pub fn as_pauli(m: &Mat2) -> Option<(u8, C64)> {
         (m[1][0] - m[0][1]) / C64::new(0.0, 2.0),
         (m[0][0] - m[1][1]) / 2.0,
     ];
-    (0..4u8).find(|&p| (t[p as usize].norm() - 1.0).abs() < 1e-9).map(|p| (p, t[p as usize]))
+    (0..4u8)
+        .find(|&p| (t[p as usize].norm() - 1.0).abs() < 1e-9)
+        .map(|p| (p, t[p as usize]))
 }
 
 /// `k` with `x = k * unit` (mod `period`), if `x` is such a multiple.
@@ -197,7 +220,11 @@ pub fn kernel_to_clifford(k: &Kernel, out: &mut Vec<Cliff>) -> Option<()> {
                 push_word(out, w, q);
             }
         }
-        Kernel::Controlled { controls, target, m } if controls.len() == 1 => {
+        Kernel::Controlled {
+            controls,
+            target,
+            m,
+        } if controls.len() == 1 => {
             let (c, t) = (controls[0], *target);
             let (p, factor) = as_pauli(m)?;
             // controlled-(e^{i a} P) = diag(1, e^{i a}) on the control, times controlled-P.
@@ -217,7 +244,9 @@ pub fn kernel_to_clifford(k: &Kernel, out: &mut Vec<Cliff>) -> Option<()> {
             }
         }
         Kernel::Controlled { .. } | Kernel::Dense { .. } => return None,
-        Kernel::Swap { a, b } => out.extend([Cliff::Cx(*a, *b), Cliff::Cx(*b, *a), Cliff::Cx(*a, *b)]),
+        Kernel::Swap { a, b } => {
+            out.extend([Cliff::Cx(*a, *b), Cliff::Cx(*b, *a), Cliff::Cx(*a, *b)])
+        }
         Kernel::Ising { axis, terms } => ising(*axis, terms, out)?,
         Kernel::Ms { theta, phi, qubits } => {
             multiple_of(theta / 2.0, FRAC_PI_4, 4)?;
@@ -274,7 +303,10 @@ pub fn fuse_xx_runs(kernels: &[Kernel]) -> Vec<Kernel> {
                     k += 1;
                 }
             }
-            out.push(Kernel::Ising { axis: Some(r.phi), terms });
+            out.push(Kernel::Ising {
+                axis: Some(r.phi),
+                terms,
+            });
             out.extend(r.paulis);
         }
     }

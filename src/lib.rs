@@ -10,6 +10,7 @@
 
 pub mod circuit;
 pub mod compile;
+pub mod driver;
 pub mod native;
 pub mod qasm;
 pub mod report;

@@ -5,6 +5,8 @@
 use clap::{Args, Parser, Subcommand};
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
+use tutti::compile::Target;
+use tutti::driver::{self, CompileConfig, Format};
 use tutti::qasm::{self, Limits};
 use tutti::sim::{CheckConfig, Mode};
 
@@ -56,6 +58,44 @@ enum Command {
     Inspect {
         file: PathBuf,
         /// Print one JSON object instead of a table.
+        #[arg(long)]
+        json: bool,
+        #[command(flatten)]
+        limits: LimitArgs,
+    },
+    /// Compile an OpenQASM 2 circuit to a pulse sequence, verify it against the
+    /// input and print its budget.
+    Compile {
+        file: PathBuf,
+        /// Where to write the sequence (never the input); stdout when absent.
+        #[arg(short, long)]
+        output: Option<PathBuf>,
+        /// Device profile: `demo` (embedded, invented example numbers) or a TOML file.
+        #[arg(long, default_value = "demo")]
+        device: String,
+        #[arg(long, value_enum, default_value_t = Target::Collective)]
+        target: Target,
+        #[arg(long, value_enum, default_value_t = Format::Pulses)]
+        format: Format,
+        /// Compile every two-qubit gate on its own (the reference compiler).
+        #[arg(long)]
+        baseline: bool,
+        /// Skip the check of the output against the input.
+        #[arg(long)]
+        no_verify: bool,
+        #[command(flatten)]
+        limits: LimitArgs,
+    },
+    /// Print what a circuit will cost on a device, without running anything.
+    Budget {
+        file: PathBuf,
+        #[arg(long, default_value = "demo")]
+        device: String,
+        #[arg(long, value_enum, default_value_t = Target::Collective)]
+        target: Target,
+        #[arg(long)]
+        baseline: bool,
+        /// Print one JSON object.
         #[arg(long)]
         json: bool,
         #[command(flatten)]
@@ -141,6 +181,69 @@ fn run(cli: Cli) -> Result<ExitCode, String> {
             }
             Ok(ExitCode::SUCCESS)
         }
+        Command::Compile {
+            file,
+            output,
+            device,
+            target,
+            format,
+            baseline,
+            no_verify,
+            limits,
+        } => {
+            let limits = limits.limits();
+            let (_, compiled) = compile_one(&file, &device, target, !no_verify, &limits)?;
+            let text = format.render(&compiled.sequence);
+            match &output {
+                Some(path) => driver::write_atomic(path, &text, &file)?,
+                None => print!("{text}"),
+            }
+            let compiler = if baseline {
+                "baseline"
+            } else {
+                "baseline (the optimizer is not built yet)"
+            };
+            eprintln!(
+                "compiled {} for {device} ({target:?} target, {compiler})",
+                file.display()
+            );
+            match &compiled.verdict {
+                Some(v) => eprintln!(
+                    "verified: EQUIVALENT (mode {}, fidelity {:.12}, {} qubit(s) compared)",
+                    v.mode.name(),
+                    v.fidelity,
+                    v.qubits
+                ),
+                None => eprintln!("not verified (--no-verify)"),
+            }
+            eprint!("{}", tutti::report::budget_table(&compiled.budget));
+            if let Some(path) = &output {
+                eprintln!("wrote {}", path.display());
+            }
+            Ok(ExitCode::SUCCESS)
+        }
+        Command::Budget {
+            file,
+            device,
+            target,
+            baseline,
+            json,
+            limits,
+        } => {
+            let _ = baseline;
+            let limits = limits.limits();
+            let (_, compiled) = compile_one(&file, &device, target, false, &limits)?;
+            if json {
+                println!(
+                    "{}",
+                    serde_json::to_string_pretty(&compiled.budget).map_err(|e| e.to_string())?
+                );
+            } else {
+                println!("{} on {device} ({target:?} target)", file.display());
+                print!("{}", tutti::report::budget_table(&compiled.budget));
+            }
+            Ok(ExitCode::SUCCESS)
+        }
         Command::Check {
             a,
             b,
@@ -154,8 +257,9 @@ fn run(cli: Cli) -> Result<ExitCode, String> {
             limits,
         } => {
             let limits = limits.limits();
-            let pa = load_program(&a, &limits)?;
-            let pb = load_program(&b, &limits)?;
+            let (pa, wa) = driver::load_program(&a, &limits)?;
+            let (pb, wb) = driver::load_program(&b, &limits)?;
+            eprint!("{wa}{wb}");
             let cfg = CheckConfig {
                 mode,
                 trials,
@@ -183,9 +287,21 @@ fn run(cli: Cli) -> Result<ExitCode, String> {
     }
 }
 
-/// Reads a program for the checker from any format tutti reads.
-fn load_program(path: &Path, limits: &Limits) -> Result<tutti::sim::Program, String> {
-    let circuit = read(path, limits)?;
-    tutti::sim::Program::from_circuit(&circuit)
-        .map_err(|e| format!("error: {}: {e}", path.display()))
+fn compile_one(
+    file: &Path,
+    device: &str,
+    target: Target,
+    verify: bool,
+    limits: &Limits,
+) -> Result<(tutti::circuit::Circuit, driver::Compiled), String> {
+    let circuit = read(file, limits)?;
+    let profile = driver::load_profile(device)?;
+    let cfg = CompileConfig {
+        target,
+        verify,
+        ..CompileConfig::default()
+    };
+    let compiled = driver::compile(&circuit, &profile, &cfg)
+        .map_err(|e| format!("error: {}: {e}\n", file.display()))?;
+    Ok((circuit, compiled))
 }

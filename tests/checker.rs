@@ -301,7 +301,10 @@ fn programs_with_measurement_reset_and_conditions_compare_segment_by_segment() {
 
 #[test]
 fn registers_beyond_the_memory_budget_are_refused_with_the_memory_they_need() {
-    let a = program(&qasm(30, "t q[0]; h q[29];"));
+    let chain: String = (0..29)
+        .map(|i| format!("cx q[{i}],q[{}]; t q[{}];", i + 1, i + 1))
+        .collect();
+    let a = program(&qasm(30, &format!("t q[0]; h q[0]; {chain}")));
     let cfg = CheckConfig {
         memory_budget: 1 << 30,
         ..CheckConfig::default()

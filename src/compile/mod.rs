@@ -1,3 +1,8 @@
-//! Compilation from circuits to native sequences.
+//! Compilation from circuits to native sequences: lowering to the canonical form,
+//! then per-target synthesis.
 
+pub mod baseline;
 pub mod hadamard;
+pub mod lower;
+
+pub use baseline::{compile_baseline, CompileError, Target};

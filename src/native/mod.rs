@@ -14,6 +14,10 @@
 //!
 //! Invariant: every ion index of a [`Sequence`] is below `n_ions`.
 
+pub mod profile;
+pub mod qasm_out;
+pub mod text;
+
 use crate::circuit::{Clbit, Condition, Register};
 
 /// One native operation.

@@ -1,5 +1,7 @@
 //! Human-readable tables and machine-readable figures.
 
+pub mod budget;
+
 use crate::circuit::Summary;
 use crate::sim::Verdict;
 use std::fmt::Write;
@@ -51,6 +53,37 @@ pub fn verdict_text(v: &Verdict) -> String {
     }
     if !v.detail.is_empty() {
         let _ = writeln!(out, "  {}", v.detail);
+    }
+    out
+}
+
+/// The table `tutti budget` and `tutti compile` print.
+pub fn budget_table(b: &budget::Budget) -> String {
+    let mut out = String::new();
+    let _ = writeln!(out, "  ms_pulses          {}", b.ms_pulses);
+    let _ = writeln!(
+        out,
+        "  ms_area            {:.3}  (units of pi/2)",
+        b.ms_area
+    );
+    let _ = writeln!(out, "  entangling_depth   {}", b.entangling_depth);
+    let _ = writeln!(out, "  collective_pulses  {}", b.collective_pulses);
+    let _ = writeln!(out, "  light_shifts       {}", b.light_shifts);
+    let _ = writeln!(out, "  addressed          {}", b.addressed_rotations);
+    let _ = writeln!(out, "  duration_us        {:.1}", b.duration_us);
+    let _ = writeln!(
+        out,
+        "  est_error          {:.4}  (model: docs/budget.md)",
+        b.est_error
+    );
+    if !b.idle_us.is_empty() {
+        let max = b.idle_us.iter().cloned().fold(0.0, f64::max);
+        let min = b.idle_us.iter().cloned().fold(f64::INFINITY, f64::min);
+        let _ = writeln!(
+            out,
+            "  idle_us per ion    min {min:.1}, max {max:.1} over {} ions",
+            b.idle_us.len()
+        );
     }
     out
 }

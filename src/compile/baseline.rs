@@ -1,0 +1,235 @@
+//! The baseline compiler of DESIGN section 5: every operation of the canonical form
+//! compiled on its own, no scheduling and no merging.
+//!
+//! - Collective target: a single-qubit unitary `e^{ia} Rz(b) Ry(g) Rz(d)` on ion k is
+//!   `L_k(d)`, then `R(pi/2, 0) L_k(g) R(-pi/2, 0)` (DESIGN fact 4), then `L_k(b)`. A
+//!   ZZ interaction is turned into XX by collective `Ry(-/+ pi/2)` pulses and made by
+//!   the sign-vector echo of DESIGN facts 5 and 6 over every ion of the device:
+//!   `m` MS pulses of area `theta/m`, `m` the order of the smallest Hadamard matrix of
+//!   at least `n_ions - 1`.
+//! - Addressed target: addressed rotations and light shifts for single-qubit
+//!   unitaries; one pair MS (or, without pair MS, hiding every other ion around one
+//!   global MS) per ZZ interaction.
+//!
+//! Invariant: the output is a sequence on the device's ion count whose unitary equals
+//! the input's (up to global phase) with the extra ions left as they were.
+
+use super::hadamard::smallest_hadamard;
+use super::lower::{lower, zyz, Canon, CanonStep};
+use crate::circuit::{Circuit, Condition};
+use crate::native::profile::Profile;
+use crate::native::{NativeOp, Sequence, Step};
+use std::f64::consts::{FRAC_PI_2, PI};
+
+/// Which native operations the compiler may use.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum, serde::Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum Target {
+    /// Collective rotations, light shifts and global MS pulses only.
+    Collective,
+    /// Also pair MS pulses, addressed rotations and hiding, where the device has them.
+    Addressed,
+}
+
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+pub enum CompileError {
+    #[error(transparent)]
+    Lower(#[from] super::lower::LowerError),
+    #[error("the circuit needs {needed} qubits but the device `{device}` has {ions} ions")]
+    TooFewIons {
+        needed: u32,
+        ions: u32,
+        device: String,
+    },
+    #[error("the addressed target needs pair MS pulses or hiding, and device `{0}` has neither")]
+    NoAddressedEntangler(String),
+}
+
+/// Angles this close to zero are left out.
+const EPS: f64 = 1e-12;
+
+struct Emit {
+    seq: Sequence,
+    condition: Option<Condition>,
+}
+
+impl Emit {
+    fn push(&mut self, op: NativeOp) {
+        self.seq.steps.push(Step {
+            op,
+            condition: self.condition,
+        });
+    }
+
+    fn shift(&mut self, ion: u32, theta: f64) {
+        let theta = wrap(theta);
+        if theta.abs() > EPS {
+            self.push(NativeOp::LightShift { ion, theta });
+        }
+    }
+}
+
+/// Wraps an angle into (-pi, pi]; rotations by 2 pi are -1, a global phase here.
+fn wrap(theta: f64) -> f64 {
+    let mut t = theta % (2.0 * PI);
+    if t > PI {
+        t -= 2.0 * PI;
+    } else if t <= -PI {
+        t += 2.0 * PI;
+    }
+    t
+}
+
+/// Compiles a circuit with the baseline compiler.
+pub fn compile_baseline(
+    c: &Circuit,
+    profile: &Profile,
+    target: Target,
+) -> Result<Sequence, CompileError> {
+    let ions = profile.device.ions;
+    if c.n_qubits() > ions {
+        return Err(CompileError::TooFewIons {
+            needed: c.n_qubits(),
+            ions,
+            device: profile.device.name.clone(),
+        });
+    }
+    let caps = profile.capabilities;
+    if target == Target::Addressed && !caps.pair_ms && !caps.hiding {
+        return Err(CompileError::NoAddressedEntangler(
+            profile.device.name.clone(),
+        ));
+    }
+    let canon = lower(c)?;
+    let mut e = Emit {
+        seq: Sequence::new(ions, c.cregs.clone()),
+        condition: None,
+    };
+    let echo_rows = smallest_hadamard((ions as usize).saturating_sub(1).max(1));
+    for CanonStep { op, condition } in canon {
+        e.condition = condition;
+        match op {
+            Canon::Local { q, m } => {
+                let (_, beta, gamma, delta) = zyz(&m);
+                e.shift(q, delta);
+                if gamma.abs() > EPS {
+                    if target == Target::Addressed && caps.addressed_rotation {
+                        e.push(NativeOp::Addressed {
+                            ion: q,
+                            theta: gamma,
+                            phi: FRAC_PI_2,
+                        });
+                    } else {
+                        e.push(NativeOp::Collective {
+                            theta: FRAC_PI_2,
+                            phi: 0.0,
+                        });
+                        e.shift(q, gamma);
+                        e.push(NativeOp::Collective {
+                            theta: -FRAC_PI_2,
+                            phi: 0.0,
+                        });
+                    }
+                }
+                e.shift(q, beta);
+            }
+            Canon::Zz { a, b, theta } => {
+                if theta.abs() <= EPS {
+                    continue;
+                }
+                match target {
+                    Target::Collective => zz_by_echo(&mut e, a, b, theta, &echo_rows),
+                    Target::Addressed => zz_addressed(&mut e, a, b, theta, profile),
+                }
+            }
+            Canon::Measure { q, clbit } => e.push(NativeOp::Measure { ion: q, clbit }),
+            Canon::Reset { q } => e.push(NativeOp::Reset { ion: q }),
+        }
+    }
+    Ok(e.seq)
+}
+
+/// `exp(-i theta/2 Z_a Z_b)` on the collective target: Z to X on every ion, the
+/// echo, X back to Z. Ry(-pi/2) maps X to Z, so `ZZ = Ry(-pi/2) XX Ry(pi/2)`.
+fn zz_by_echo(e: &mut Emit, a: u32, b: u32, theta: f64, rows: &[Vec<i8>]) {
+    let n = e.seq.n_ions as usize;
+    let m = rows.len();
+    let mut column = vec![0usize; n];
+    let mut next = 1;
+    for (ion, col) in column.iter_mut().enumerate() {
+        if ion as u32 != a && ion as u32 != b {
+            *col = next;
+            next += 1;
+        }
+    }
+    e.push(NativeOp::Collective {
+        theta: FRAC_PI_2,
+        phi: FRAC_PI_2,
+    });
+    for row in rows {
+        let flipped: Vec<u32> = (0..n)
+            .filter(|&i| row[column[i]] < 0)
+            .map(|i| i as u32)
+            .collect();
+        for &i in &flipped {
+            e.push(NativeOp::LightShift { ion: i, theta: PI });
+        }
+        e.push(NativeOp::Ms {
+            theta: theta / m as f64,
+            phi: 0.0,
+        });
+        for &i in &flipped {
+            e.push(NativeOp::LightShift { ion: i, theta: -PI });
+        }
+    }
+    e.push(NativeOp::Collective {
+        theta: -FRAC_PI_2,
+        phi: FRAC_PI_2,
+    });
+}
+
+/// `exp(-i theta/2 Z_a Z_b)` on the addressed target. A pair MS of area theta is
+/// `exp(-i theta/2 X_a X_b)` up to phase (DESIGN fact 1 with two ions).
+fn zz_addressed(e: &mut Emit, a: u32, b: u32, theta: f64, profile: &Profile) {
+    let caps = profile.capabilities;
+    let to_x = |e: &mut Emit, sign: f64| {
+        for ion in [a, b] {
+            if caps.addressed_rotation {
+                e.push(NativeOp::Addressed {
+                    ion,
+                    theta: sign * FRAC_PI_2,
+                    phi: FRAC_PI_2,
+                });
+            } else {
+                e.push(NativeOp::Collective {
+                    theta: FRAC_PI_2,
+                    phi: 0.0,
+                });
+                e.shift(ion, sign * FRAC_PI_2);
+                e.push(NativeOp::Collective {
+                    theta: -FRAC_PI_2,
+                    phi: 0.0,
+                });
+            }
+        }
+    };
+    to_x(e, 1.0);
+    if caps.pair_ms {
+        e.push(NativeOp::PairMs {
+            a,
+            b,
+            theta,
+            phi: 0.0,
+        });
+    } else {
+        let others: Vec<u32> = (0..e.seq.n_ions).filter(|&i| i != a && i != b).collect();
+        for &i in &others {
+            e.push(NativeOp::Hide { ion: i });
+        }
+        e.push(NativeOp::Ms { theta, phi: 0.0 });
+        for &i in &others {
+            e.push(NativeOp::Unhide { ion: i });
+        }
+    }
+    to_x(e, -1.0);
+}

@@ -1,0 +1,226 @@
+//! The whole job for one file: read, compile, verify, budget, write. The only
+//! library module besides `batch` that touches the file system.
+
+use crate::circuit::Circuit;
+use crate::compile::{compile_baseline, CompileError, Target};
+use crate::native::profile::Profile;
+use crate::native::text::{read_json, read_pulses, write_json, write_pulses};
+use crate::native::{qasm_out::write_qasm, Sequence};
+use crate::qasm::{self, Limits};
+use crate::report::budget::{budget, Budget};
+use crate::sim::{check, CheckConfig, CheckError, Program, Verdict};
+use std::path::Path;
+
+/// Output formats of a compiled sequence.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
+pub enum Format {
+    /// OpenQASM 2 with the native operations defined as gates in a header.
+    Qasm,
+    /// tutti's pulse list (grammar/pulses.ebnf).
+    Pulses,
+    /// JSON for control software (docs/formats.md).
+    Json,
+}
+
+impl Format {
+    pub fn render(self, seq: &Sequence) -> String {
+        match self {
+            Format::Qasm => write_qasm(seq),
+            Format::Pulses => write_pulses(seq),
+            Format::Json => write_json(seq),
+        }
+    }
+
+    /// Guesses the format of a file from its extension, then its first words.
+    pub fn sniff(path: &Path, text: &str) -> Format {
+        match path.extension().and_then(|e| e.to_str()) {
+            Some("json") => return Format::Json,
+            Some("pulses") => return Format::Pulses,
+            Some("qasm") | Some("inc") => return Format::Qasm,
+            _ => {}
+        }
+        let first = text
+            .lines()
+            .map(|l| l.split('#').next().unwrap_or("").trim())
+            .find(|l| !l.is_empty());
+        match first {
+            Some(l) if l.starts_with('{') => Format::Json,
+            Some(l) if l.starts_with("ions") => Format::Pulses,
+            _ => Format::Qasm,
+        }
+    }
+}
+
+/// What a file holds once read.
+pub enum Loaded {
+    Circuit(Circuit),
+    Sequence(Sequence),
+}
+
+/// Reads a circuit or a sequence in any format tutti writes. Errors come rendered,
+/// with file, line and column.
+pub fn load(path: &Path, limits: &Limits) -> Result<(Loaded, String), String> {
+    let text = match std::fs::read(path) {
+        Ok(b) if b.len() > limits.max_file_bytes => {
+            return Err(format!(
+                "error: {} is {} bytes, more than the limit {}\n",
+                path.display(),
+                b.len(),
+                limits.max_file_bytes
+            ))
+        }
+        Ok(b) => String::from_utf8_lossy(&b).into_owned(),
+        Err(e) => return Err(format!("error: cannot read {}: {e}\n", path.display())),
+    };
+    let name = path.display().to_string();
+    match Format::sniff(path, &text) {
+        Format::Qasm => {
+            let out = qasm::read_file(path, limits);
+            let rendered = out.render();
+            match out.circuit {
+                Some(c) => Ok((Loaded::Circuit(c), rendered)),
+                None => Err(format!(
+                    "{rendered}{} error(s) in {name}\n",
+                    out.errors().count()
+                )),
+            }
+        }
+        f => {
+            let out = if f == Format::Json {
+                read_json(&name, &text)
+            } else {
+                read_pulses(&name, &text)
+            };
+            let rendered = out.render();
+            match out.sequence {
+                Some(s) => Ok((Loaded::Sequence(s), rendered)),
+                None => Err(format!(
+                    "{rendered}{} error(s) in {name}\n",
+                    out.diagnostics.len()
+                )),
+            }
+        }
+    }
+}
+
+/// A program for the checker from a file of any format.
+pub fn load_program(path: &Path, limits: &Limits) -> Result<(Program, String), String> {
+    let (loaded, warnings) = load(path, limits)?;
+    let p = match loaded {
+        Loaded::Circuit(c) => {
+            Program::from_circuit(&c).map_err(|e| format!("error: {}: {e}\n", path.display()))?
+        }
+        Loaded::Sequence(s) => Program::from_sequence(&s),
+    };
+    Ok((p, warnings))
+}
+
+/// Settings of one compilation.
+#[derive(Debug, Clone, Copy)]
+pub struct CompileConfig {
+    pub target: Target,
+    /// Use the baseline compiler (today the only one).
+    pub baseline: bool,
+    /// Check the output against the input.
+    pub verify: bool,
+    pub check: CheckConfig,
+}
+
+impl Default for CompileConfig {
+    fn default() -> CompileConfig {
+        CompileConfig {
+            target: Target::Collective,
+            baseline: true,
+            verify: true,
+            check: CheckConfig::default(),
+        }
+    }
+}
+
+pub struct Compiled {
+    pub sequence: Sequence,
+    pub budget: Budget,
+    /// `None` when verification was switched off.
+    pub verdict: Option<Verdict>,
+}
+
+#[derive(Debug, thiserror::Error)]
+pub enum DriverError {
+    #[error(transparent)]
+    Compile(#[from] CompileError),
+    #[error("verification could not run: {0}")]
+    Check(#[from] CheckError),
+    #[error("verification failed: the compiled sequence is NOT the input circuit ({0})")]
+    NotEquivalent(String),
+}
+
+/// Compiles, verifies (unless switched off) and budgets one circuit. A failed
+/// verification is an error, never a silent success.
+pub fn compile(
+    c: &Circuit,
+    profile: &Profile,
+    cfg: &CompileConfig,
+) -> Result<Compiled, DriverError> {
+    let sequence = compile_baseline(c, profile, cfg.target)?;
+    let verdict = if cfg.verify {
+        let a = Program::from_circuit(c).map_err(|e| CheckError::Lower(e))?;
+        let b = Program::from_sequence(&sequence);
+        let v = check(&a, &b, &cfg.check)?;
+        if !v.equivalent {
+            return Err(DriverError::NotEquivalent(format!(
+                "mode {}, fidelity {:.12}",
+                v.mode.name(),
+                v.fidelity
+            )));
+        }
+        Some(v)
+    } else {
+        None
+    };
+    let budget = budget(&sequence, profile, c.n_qubits());
+    Ok(Compiled {
+        sequence,
+        budget,
+        verdict,
+    })
+}
+
+/// Writes `text` to `path` atomically (a temporary file in the same folder, then a
+/// rename), refusing to overwrite `input`.
+pub fn write_atomic(path: &Path, text: &str, input: &Path) -> Result<(), String> {
+    let same = match (std::fs::canonicalize(path), std::fs::canonicalize(input)) {
+        (Ok(a), Ok(b)) => a == b,
+        _ => false,
+    };
+    if same {
+        return Err(format!(
+            "error: refusing to overwrite the input {}; choose another -o path\n",
+            input.display()
+        ));
+    }
+    let dir = path
+        .parent()
+        .filter(|p| !p.as_os_str().is_empty())
+        .unwrap_or(Path::new("."));
+    let name = path
+        .file_name()
+        .map(|n| n.to_string_lossy().into_owned())
+        .unwrap_or_else(|| "out".into());
+    let tmp = dir.join(format!(".{name}.{}.tmp", std::process::id()));
+    std::fs::write(&tmp, text)
+        .map_err(|e| format!("error: cannot write {}: {e}\n", tmp.display()))?;
+    std::fs::rename(&tmp, path).map_err(|e| {
+        let _ = std::fs::remove_file(&tmp);
+        format!("error: cannot write {}: {e}\n", path.display())
+    })
+}
+
+/// Reads a device profile: `demo` is the embedded one, anything else a TOML file.
+pub fn load_profile(spec: &str) -> Result<Profile, String> {
+    if spec == "demo" {
+        return Ok(Profile::demo());
+    }
+    let text = std::fs::read_to_string(spec)
+        .map_err(|e| format!("error: cannot read profile {spec}: {e}\n"))?;
+    Profile::from_toml(spec, &text).map_err(|e| format!("error: {e}\n"))
+}

@@ -1,0 +1,152 @@
+//! The budget of a native sequence: the figures of DESIGN section 5, computed from
+//! the device profile without running anything.
+//!
+//! Error model (a model, not a measurement; documented in docs/budget.md):
+//! every operation fails independently with probability `fixed + per_rad * |theta|`
+//! from the profile's `[errors]` table; every ion the circuit uses decoheres for the
+//! whole duration `T` with `exp(-T/T2)` (dephasing) and `exp(-T/(2 T1))`
+//! (amplitude damping, averaged over the qubit states); `est_error = 1 - F` with `F`
+//! the product of all these factors.
+//! Timing model: operations run one after another; when the profile says light shifts
+//! of one layer run at once, consecutive light shifts on distinct ions share one
+//! time slot as long as the longest of them. Frame changes take no time.
+
+use crate::native::profile::{Cost, Profile};
+use crate::native::{NativeOp, Sequence};
+use std::f64::consts::FRAC_PI_2;
+
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct Budget {
+    pub ms_pulses: usize,
+    /// Sum of |theta| over MS pulses, in units of pi/2.
+    pub ms_area: f64,
+    pub collective_pulses: usize,
+    pub light_shifts: usize,
+    pub duration_us: f64,
+    pub est_error: f64,
+    /// The longest chain of entangling pulses through any one ion.
+    pub entangling_depth: usize,
+    pub addressed_rotations: usize,
+    pub hide_operations: usize,
+    pub measurements: usize,
+    /// Idle time of each ion the circuit uses, in microseconds.
+    pub idle_us: Vec<f64>,
+}
+
+fn cost_of(p: &Profile, op: &NativeOp, errors: bool) -> (f64, Vec<u32>) {
+    let t = if errors { &p.errors } else { &p.durations_us };
+    let opt = |c: Option<Cost>, theta: f64| c.map_or(0.0, |c| c.at(theta));
+    match *op {
+        NativeOp::Collective { theta, .. } => (t.collective.at(theta), vec![]),
+        NativeOp::LightShift { ion, theta } => (t.light_shift.at(theta), vec![ion]),
+        NativeOp::Ms { theta, .. } => (t.ms.at(theta), vec![]),
+        NativeOp::PairMs { a, b, theta, .. } => (opt(t.pair_ms, theta), vec![a, b]),
+        NativeOp::Addressed { ion, theta, .. } => (opt(t.addressed, theta), vec![ion]),
+        NativeOp::VirtualZ { .. } => (0.0, vec![]),
+        NativeOp::Hide { ion } => (opt(t.hide, 0.0), vec![ion]),
+        NativeOp::Unhide { ion } => (opt(t.unhide, 0.0), vec![ion]),
+        NativeOp::Measure { ion, .. } => (t.measure.at(0.0), vec![ion]),
+        NativeOp::Reset { ion } => (t.reset.at(0.0), vec![ion]),
+    }
+}
+
+/// Computes the budget of `seq` on `profile`; `active` is the number of ions the
+/// source circuit uses (ions `0..active`).
+pub fn budget(seq: &Sequence, profile: &Profile, active: u32) -> Budget {
+    let n = seq.n_ions as usize;
+    let mut b = Budget {
+        ms_pulses: 0,
+        ms_area: 0.0,
+        collective_pulses: 0,
+        light_shifts: 0,
+        duration_us: 0.0,
+        est_error: 0.0,
+        entangling_depth: 0,
+        addressed_rotations: 0,
+        hide_operations: 0,
+        measurements: 0,
+        idle_us: Vec::new(),
+    };
+    let mut hidden = vec![false; n];
+    let mut busy = vec![0.0f64; n];
+    let mut depth = vec![0usize; n];
+    let mut fidelity = 1.0f64;
+    // The open layer of parallel light shifts: its ions and its length so far.
+    let mut layer: Option<(Vec<u32>, f64)> = None;
+    for step in &seq.steps {
+        let op = &step.op;
+        let (dt, own) = cost_of(profile, op, false);
+        let (err, _) = cost_of(profile, op, true);
+        fidelity *= (1.0 - err).max(0.0);
+        match *op {
+            NativeOp::Ms { theta, .. } | NativeOp::PairMs { theta, .. } => {
+                b.ms_pulses += 1;
+                b.ms_area += theta.abs() / FRAC_PI_2;
+            }
+            NativeOp::Collective { .. } => b.collective_pulses += 1,
+            NativeOp::LightShift { .. } => b.light_shifts += 1,
+            NativeOp::Addressed { .. } => b.addressed_rotations += 1,
+            NativeOp::Hide { .. } | NativeOp::Unhide { .. } => b.hide_operations += 1,
+            NativeOp::Measure { .. } => b.measurements += 1,
+            _ => {}
+        }
+        let involved: Vec<u32> = match op {
+            NativeOp::Collective { .. } | NativeOp::Ms { .. } => {
+                (0..n as u32).filter(|&i| !hidden[i as usize]).collect()
+            }
+            _ => own,
+        };
+        if op.is_entangling() {
+            let d = involved
+                .iter()
+                .map(|&i| depth[i as usize])
+                .max()
+                .unwrap_or(0)
+                + 1;
+            for &i in &involved {
+                depth[i as usize] = d;
+            }
+            b.entangling_depth = b.entangling_depth.max(d);
+        }
+        match *op {
+            NativeOp::Hide { ion } => hidden[ion as usize] = true,
+            NativeOp::Unhide { ion } => hidden[ion as usize] = false,
+            _ => {}
+        }
+        for &i in &involved {
+            busy[i as usize] += dt;
+        }
+        // Timing, with light-shift layers.
+        if let NativeOp::LightShift { ion, .. } = *op {
+            if profile.capabilities.parallel_light_shifts {
+                match &mut layer {
+                    Some((ions, len)) if !ions.contains(&ion) => {
+                        ions.push(ion);
+                        if dt > *len {
+                            b.duration_us += dt - *len;
+                            *len = dt;
+                        }
+                        continue;
+                    }
+                    _ => {
+                        layer = Some((vec![ion], dt));
+                        b.duration_us += dt;
+                        continue;
+                    }
+                }
+            }
+        }
+        layer = None;
+        b.duration_us += dt;
+    }
+    let t = b.duration_us;
+    let c = profile.coherence;
+    for _ in 0..active {
+        fidelity *= (-t / c.t2_us).exp() * (-t / (2.0 * c.t1_us)).exp();
+    }
+    b.est_error = 1.0 - fidelity;
+    b.idle_us = (0..active as usize)
+        .map(|i| (t - busy[i]).max(0.0))
+        .collect();
+    b
+}

@@ -1,4 +1,4 @@
-// GHZ state on five qubits: one Hadamard, then a chain of CNOTs.
+// GHZ state on 5 qubits: one Hadamard, then a chain of CNOTs.
 OPENQASM 2.0;
 include "qelib1.inc";
 qreg q[5];

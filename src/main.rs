@@ -212,7 +212,7 @@ fn run(cli: Cli) -> Result<ExitCode, String> {
                     "verified: EQUIVALENT (mode {}, fidelity {:.12}, {} qubit(s) compared)",
                     v.mode.name(),
                     v.fidelity,
-                    v.qubits
+                    v.compared_qubits
                 ),
                 None => eprintln!("not verified (--no-verify)"),
             }

@@ -87,6 +87,9 @@ pub struct Verdict {
     pub global_phase: Option<f64>,
     pub segments: usize,
     pub qubits: usize,
+    /// The most qubits one segment comparison needed after untouched qubits were
+    /// split off.
+    pub compared_qubits: usize,
     /// What differed, when the programs are not equivalent.
     pub detail: String,
 }
@@ -187,6 +190,8 @@ fn trailing_measured(segs: &[Seg]) -> Vec<usize> {
 }
 
 struct SegResult {
+    /// Qubits compared after splitting off untouched ones.
+    compared: usize,
     equal: bool,
     mode: Mode,
     fidelity: f64,
@@ -212,6 +217,7 @@ pub fn check(a: &Program, b: &Program, cfg: &CheckConfig) -> Result<Verdict, Che
         global_phase: None,
         segments: sa.len().div_ceil(2),
         qubits: n,
+        compared_qubits: 0,
         detail: String::new(),
     };
     let mut rank = 0;
@@ -288,6 +294,7 @@ pub fn check(a: &Program, b: &Program, cfg: &CheckConfig) -> Result<Verdict, Che
             verdict.global_phase = r.phase;
         }
         verdict.fidelity = verdict.fidelity.min(r.fidelity);
+        verdict.compared_qubits = verdict.compared_qubits.max(r.compared);
         if !r.equal && verdict.equivalent {
             verdict.equivalent = false;
             verdict.detail = format!(
@@ -447,6 +454,41 @@ fn remap_kernel(k: Kernel, index: &[usize]) -> Kernel {
     }
 }
 
+/// Multiplies consecutive single-qubit operations on each qubit into one, flushing a
+/// qubit when a multi-qubit kernel touches it. Exact; cuts simulation work.
+fn merge_single_qubit_runs(ks: &[Kernel], n: usize) -> Vec<Kernel> {
+    let mut pending: Vec<Option<Mat2>> = vec![None; n];
+    let mut out = Vec::with_capacity(ks.len());
+    let add = |pending: &mut Vec<Option<Mat2>>, q: usize, m: &Mat2| {
+        let acc = pending[q].unwrap_or_else(identity2);
+        pending[q] = Some(mul2(m, &acc));
+    };
+    for k in ks {
+        match k {
+            Kernel::One { q, m } => add(&mut pending, *q, m),
+            Kernel::Collective { m, qubits } => {
+                for &q in qubits {
+                    add(&mut pending, q, m);
+                }
+            }
+            other => {
+                for q in other.qubits() {
+                    if let Some(m) = pending[q].take() {
+                        out.push(Kernel::One { q, m });
+                    }
+                }
+                out.push(other.clone());
+            }
+        }
+    }
+    for (q, m) in pending.into_iter().enumerate() {
+        if let Some(m) = m {
+            out.push(Kernel::One { q, m });
+        }
+    }
+    out
+}
+
 fn identity2() -> Mat2 {
     [
         [C64::new(1.0, 0.0), C64::new(0.0, 0.0)],
@@ -484,6 +526,7 @@ fn compare(
             Ok(r) => r,
             Err(_) => {
                 return Ok(SegResult {
+                    compared: 1,
                     equal: false,
                     mode: Mode::Unitary,
                     fidelity: 0.0,
@@ -492,6 +535,10 @@ fn compare(
             }
         }
     };
+    let (p, q) = (
+        merge_single_qubit_runs(&p, n),
+        merge_single_qubit_runs(&q, n),
+    );
     let (p, q) = (p.as_slice(), q.as_slice());
     let want_tableau = matches!(cfg.mode, Mode::Auto | Mode::Tableau) && diagonal.is_none();
     if want_tableau {
@@ -499,6 +546,7 @@ fn compare(
             (Ok(ta), Ok(tb)) => {
                 let equal = ta == tb;
                 return Ok(SegResult {
+                    compared: n,
                     equal,
                     mode: Mode::Tableau,
                     fidelity: if equal { 1.0 } else { 0.0 },
@@ -553,6 +601,7 @@ fn compare(
             }
             let fidelity = (1.0 - worst).max(0.0);
             return Ok(SegResult {
+                compared: n,
                 equal: worst < cfg.tolerance.sqrt(),
                 mode: Mode::Unitary,
                 fidelity,
@@ -562,6 +611,7 @@ fn compare(
         let tr = (ua.adjoint() * &ub).trace() / dim;
         let fidelity = tr.norm_sqr();
         return Ok(SegResult {
+            compared: n,
             equal: fidelity > 1.0 - cfg.tolerance,
             mode: Mode::Unitary,
             fidelity,
@@ -586,6 +636,7 @@ fn compare(
         worst = worst.min(f);
     }
     Ok(SegResult {
+        compared: n,
         equal: worst > 1.0 - cfg.tolerance,
         mode: Mode::Random,
         fidelity: worst,

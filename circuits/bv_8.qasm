@@ -1,0 +1,25 @@
+// Bernstein-Vazirani with the invented secret 1011010.
+OPENQASM 2.0;
+include "qelib1.inc";
+qreg q[8];
+creg c[7];
+x q[7];
+h q;
+cx q[0],q[7];
+cx q[2],q[7];
+cx q[3],q[7];
+cx q[5],q[7];
+h q[0];
+h q[1];
+h q[2];
+h q[3];
+h q[4];
+h q[5];
+h q[6];
+measure q[0] -> c[0];
+measure q[1] -> c[1];
+measure q[2] -> c[2];
+measure q[3] -> c[3];
+measure q[4] -> c[4];
+measure q[5] -> c[5];
+measure q[6] -> c[6];

@@ -1,0 +1,22 @@
+// Phase estimation of the invented phase 1/5 with three counting qubits.
+OPENQASM 2.0;
+include "qelib1.inc";
+qreg q[4];
+creg c[3];
+x q[3];
+h q[0];
+h q[1];
+h q[2];
+cp(1.256637061436) q[0],q[3];
+cp(2.513274122872) q[1],q[3];
+cp(5.026548245744) q[2],q[3];
+swap q[0],q[2];
+h q[0];
+cu1(-pi/2) q[1],q[0];
+h q[1];
+cu1(-pi/4) q[2],q[0];
+cu1(-pi/2) q[2],q[1];
+h q[2];
+measure q[0] -> c[0];
+measure q[1] -> c[1];
+measure q[2] -> c[2];

@@ -1,0 +1,20 @@
+// Three-qubit repetition code, one round of syndrome extraction with mid-circuit measurement, reset and correction.
+OPENQASM 2.0;
+include "qelib1.inc";
+qreg q[5];
+creg c[2];
+h q[0];
+cx q[0],q[1];
+cx q[0],q[2];
+rx(0.2) q[1];
+cx q[0],q[3];
+cx q[1],q[3];
+cx q[1],q[4];
+cx q[2],q[4];
+measure q[3] -> c[0];
+measure q[4] -> c[1];
+reset q[3];
+reset q[4];
+if(c==1) x q[0];
+if(c==3) x q[1];
+if(c==2) x q[2];

@@ -1,0 +1,24 @@
+// Transverse-field Ising chain of 10 spins, 2 Trotter steps (dt = 0.2, h = 0.8).
+OPENQASM 2.0;
+include "qelib1.inc";
+qreg q[10];
+rzz(0.4) q[0],q[1];
+rzz(0.4) q[1],q[2];
+rzz(0.4) q[2],q[3];
+rzz(0.4) q[3],q[4];
+rzz(0.4) q[4],q[5];
+rzz(0.4) q[5],q[6];
+rzz(0.4) q[6],q[7];
+rzz(0.4) q[7],q[8];
+rzz(0.4) q[8],q[9];
+rx(0.32000000000000006) q;
+rzz(0.4) q[0],q[1];
+rzz(0.4) q[1],q[2];
+rzz(0.4) q[2],q[3];
+rzz(0.4) q[3],q[4];
+rzz(0.4) q[4],q[5];
+rzz(0.4) q[5],q[6];
+rzz(0.4) q[6],q[7];
+rzz(0.4) q[7],q[8];
+rzz(0.4) q[8],q[9];
+rx(0.32000000000000006) q;

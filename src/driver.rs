@@ -4,8 +4,9 @@
 use crate::circuit::Circuit;
 use crate::compile::{compile_baseline, CompileError, Target};
 use crate::native::profile::Profile;
+use crate::native::qasm_out::{read_qasm_sequence, write_qasm};
 use crate::native::text::{read_json, read_pulses, write_json, write_pulses};
-use crate::native::{qasm_out::write_qasm, Sequence};
+use crate::native::Sequence;
 use crate::qasm::{self, Limits};
 use crate::report::budget::{budget, Budget};
 use crate::sim::{check, CheckConfig, CheckError, Program, Verdict};
@@ -78,7 +79,12 @@ pub fn load(path: &Path, limits: &Limits) -> Result<(Loaded, String), String> {
             let out = qasm::read_file(path, limits);
             let rendered = out.render();
             match out.circuit {
-                Some(c) => Ok((Loaded::Circuit(c), rendered)),
+                // A file tutti wrote maps back to its sequence exactly; it must also be
+                // valid OpenQASM 2, which reading it as a circuit just checked.
+                Some(c) => match read_qasm_sequence(&text) {
+                    Some(seq) => Ok((Loaded::Sequence(seq), rendered)),
+                    None => Ok((Loaded::Circuit(c), rendered)),
+                },
                 None => Err(format!(
                     "{rendered}{} error(s) in {name}\n",
                     out.errors().count()
@@ -163,7 +169,7 @@ pub fn compile(
 ) -> Result<Compiled, DriverError> {
     let sequence = compile_baseline(c, profile, cfg.target)?;
     let verdict = if cfg.verify {
-        let a = Program::from_circuit(c).map_err(|e| CheckError::Lower(e))?;
+        let a = Program::from_circuit(c).map_err(CheckError::Lower)?;
         let b = Program::from_sequence(&sequence);
         let v = check(&a, &b, &cfg.check)?;
         if !v.equivalent {

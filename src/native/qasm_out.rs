@@ -1,55 +1,95 @@
-//! Writes a native sequence as OpenQASM 2: each native operation is a gate defined
-//! in the header from the 2017 standard library only, so any reader of the
-//! standard can simulate the file. Global phases are dropped.
+//! Writes a native sequence as OpenQASM 2, and reads such a file back.
 //!
-//! Hidden ions are written as comments; collective and MS pulses then list the ions
-//! that take part.
+//! Every native operation is a gate defined in the header from the 2017 standard
+//! library only, so any reader of the standard can simulate the file (global phases
+//! are dropped). Each kind of operation has its own gate name, so tutti recovers the
+//! sequence exactly from the calls ([`read_qasm_sequence`]):
+//! `chain_rot_K` / `chain_ms_K` (a collective rotation / global MS on the K ions
+//! not hidden, listed as arguments), `addr_rot`, `light_shift`, `pair_ms`,
+//! `frame_z` (on the whole register), `hide_ion` / `unhide_ion` (empty bodies:
+//! hiding is not a unitary; the ions listed in later chain calls show it).
 
-use super::{NativeOp, Sequence};
-use crate::circuit::format_real;
+use super::{NativeOp, Sequence, Step};
+use crate::circuit::{format_real, Condition, Register};
+use crate::qasm::ast::{Arg, QOp, Stmt};
+use crate::qasm::diag::FileId;
+use crate::qasm::elaborate::eval;
+use std::collections::BTreeSet;
 use std::fmt::Write;
 
-/// The gate definitions shared by every file (single-ion and ion-pair gates).
+/// The first line of every file this module writes.
+pub const MARKER: &str = "// tutti native sequence";
+
 const HEADER: &str = "\
-// Native operations of a collective-gate ion processor, written by tutti.
-// ion_rot(theta,phi) = exp(-i theta/2 (cos(phi) X + sin(phi) Y)), up to global phase.
-gate ion_rot(theta,phi) a { u3(theta,phi-pi/2,pi/2-phi) a; }
-// ion_shift(theta) = exp(-i theta/2 Z): a light shift.
-gate ion_shift(theta) a { rz(theta) a; }
+// Each native operation is a gate below, defined from the 2017 standard library.
+// addr_rot(theta,phi) = exp(-i theta/2 (cos(phi) X + sin(phi) Y)), up to global phase.
+gate addr_rot(theta,phi) a { u3(theta,phi-pi/2,pi/2-phi) a; }
+// light_shift(theta) = exp(-i theta/2 Z).
+gate light_shift(theta) a { rz(theta) a; }
+// frame_z(theta): exp(-i theta/2 Z) on every ion, a change of phase reference.
+gate frame_z(theta) a { rz(theta) a; }
 // ion_xx(theta,phi) = exp(-i theta/2 s_a s_b) with s = cos(phi) X + sin(phi) Y.
 gate ion_xx(theta,phi) a,b { rz(-phi) a; rz(-phi) b; h a; h b; cx a,b; rz(theta) b; cx a,b; h a; h b; rz(phi) a; rz(phi) b; }
+// pair_ms(theta,phi) = exp(-i theta/4 (s_a + s_b)^2), up to global phase.
+gate pair_ms(theta,phi) a,b { ion_xx(theta,phi) a,b; }
+// hide_ion / unhide_ion: the ion takes no part in chain operations in between.
+gate hide_ion a { }
+gate unhide_ion a { }
 ";
-
-fn ion_list(ions: &[u32]) -> String {
-    ions.iter()
-        .map(|i| format!("q[{i}]"))
-        .collect::<Vec<_>>()
-        .join(",")
-}
 
 /// The OpenQASM 2 text of a sequence.
 pub fn write_qasm(seq: &Sequence) -> String {
     let n = seq.n_ions;
-    let mut out = String::new();
-    out.push_str("OPENQASM 2.0;\ninclude \"qelib1.inc\";\n");
-    out.push_str(HEADER);
-    // Whole-chain gates for this ion count: one call per collective or MS pulse.
-    let args: Vec<String> = (0..n).map(|i| format!("i{i}")).collect();
-    let _ = writeln!(
-        out,
-        "// chain_ms(theta,phi) = exp(-i theta/4 S^2) on all {n} ions, up to global phase."
-    );
-    let mut body = String::new();
-    for a in 0..n {
-        for b in a + 1..n {
-            let _ = write!(body, " ion_xx(theta,phi) i{a},i{b};");
+    let mut out =
+        format!("{MARKER} for {n} ions\nOPENQASM 2.0;\ninclude \"qelib1.inc\";\n{HEADER}");
+    // The chain gates for every number of visible ions the sequence uses.
+    let mut hidden = vec![false; n as usize];
+    let (mut rot_sizes, mut ms_sizes) = (BTreeSet::new(), BTreeSet::new());
+    for step in &seq.steps {
+        let k = hidden.iter().filter(|h| !**h).count();
+        match step.op {
+            NativeOp::Collective { .. } => {
+                rot_sizes.insert(k);
+            }
+            NativeOp::Ms { .. } => {
+                ms_sizes.insert(k);
+            }
+            NativeOp::Hide { ion } => hidden[ion as usize] = true,
+            NativeOp::Unhide { ion } => hidden[ion as usize] = false,
+            _ => {}
         }
     }
-    let _ = writeln!(
-        out,
-        "gate chain_ms(theta,phi) {} {{{body} }}",
-        args.join(",")
-    );
+    for k in rot_sizes {
+        let args: Vec<String> = (0..k).map(|i| format!("i{i}")).collect();
+        let body: String = args
+            .iter()
+            .map(|a| format!(" addr_rot(theta,phi) {a};"))
+            .collect();
+        let _ = writeln!(out, "// chain_rot_{k}: exp(-i theta/2 S_phi) on {k} ions.");
+        let _ = writeln!(
+            out,
+            "gate chain_rot_{k}(theta,phi) {} {{{body} }}",
+            args.join(",")
+        );
+    }
+    for k in ms_sizes {
+        let args: Vec<String> = (0..k).map(|i| format!("i{i}")).collect();
+        let mut body = String::new();
+        for a in 0..k {
+            for b in a + 1..k {
+                let _ = write!(body, " ion_xx(theta,phi) i{a},i{b};");
+            }
+        }
+        let _ = writeln!(
+            out,
+            "// chain_ms_{k}: exp(-i theta/4 S_phi^2) on {k} ions, up to global phase."
+        );
+        let _ = writeln!(
+            out,
+            "gate chain_ms_{k}(theta,phi) {} {{{body} }}",
+            args.join(",")
+        );
+    }
     let _ = writeln!(out, "qreg q[{n}];");
     for r in &seq.cregs {
         let _ = writeln!(out, "creg {}[{}];", r.name, r.size);
@@ -57,62 +97,48 @@ pub fn write_qasm(seq: &Sequence) -> String {
     let mut hidden = vec![false; n as usize];
     let r = format_real;
     for step in &seq.steps {
-        let cond = step
-            .condition
-            .map(|c| format!("if({}=={}) ", seq.cregs[c.creg as usize].name, c.value))
-            .unwrap_or_default();
-        let visible: Vec<u32> = (0..n).filter(|&i| !hidden[i as usize]).collect();
-        match step.op {
+        if let Some(c) = step.condition {
+            let _ = write!(out, "if({}=={}) ", seq.cregs[c.creg as usize].name, c.value);
+        }
+        let visible: Vec<String> = (0..n)
+            .filter(|&i| !hidden[i as usize])
+            .map(|i| format!("q[{i}]"))
+            .collect();
+        let k = visible.len();
+        let _ = match step.op {
             NativeOp::Collective { theta, phi } => {
-                if visible.len() == n as usize {
-                    let _ = writeln!(out, "{cond}ion_rot({},{}) q;", r(theta), r(phi));
-                } else {
-                    for i in visible {
-                        let _ = writeln!(out, "{cond}ion_rot({},{}) q[{i}];", r(theta), r(phi));
-                    }
-                }
+                writeln!(
+                    out,
+                    "chain_rot_{k}({},{}) {};",
+                    r(theta),
+                    r(phi),
+                    visible.join(",")
+                )
             }
+            NativeOp::Ms { theta, phi } => writeln!(
+                out,
+                "chain_ms_{k}({},{}) {};",
+                r(theta),
+                r(phi),
+                visible.join(",")
+            ),
             NativeOp::LightShift { ion, theta } => {
-                let _ = writeln!(out, "{cond}ion_shift({}) q[{ion}];", r(theta));
+                writeln!(out, "light_shift({}) q[{ion}];", r(theta))
             }
-            NativeOp::VirtualZ { theta } => {
-                let _ = writeln!(out, "{cond}ion_shift({}) q;", r(theta));
-            }
-            NativeOp::Ms { theta, phi } => {
-                if visible.len() == n as usize {
-                    let _ = writeln!(
-                        out,
-                        "{cond}chain_ms({},{}) {};",
-                        r(theta),
-                        r(phi),
-                        ion_list(&visible)
-                    );
-                } else {
-                    for (k, &a) in visible.iter().enumerate() {
-                        for &b in &visible[k + 1..] {
-                            let _ = writeln!(
-                                out,
-                                "{cond}ion_xx({},{}) q[{a}],q[{b}];",
-                                r(theta),
-                                r(phi)
-                            );
-                        }
-                    }
-                }
-            }
+            NativeOp::VirtualZ { theta } => writeln!(out, "frame_z({}) q;", r(theta)),
             NativeOp::PairMs { a, b, theta, phi } => {
-                let _ = writeln!(out, "{cond}ion_xx({},{}) q[{a}],q[{b}];", r(theta), r(phi));
+                writeln!(out, "pair_ms({},{}) q[{a}],q[{b}];", r(theta), r(phi))
             }
             NativeOp::Addressed { ion, theta, phi } => {
-                let _ = writeln!(out, "{cond}ion_rot({},{}) q[{ion}];", r(theta), r(phi));
+                writeln!(out, "addr_rot({},{}) q[{ion}];", r(theta), r(phi))
             }
             NativeOp::Hide { ion } => {
                 hidden[ion as usize] = true;
-                let _ = writeln!(out, "// hide q[{ion}]");
+                writeln!(out, "hide_ion q[{ion}];")
             }
             NativeOp::Unhide { ion } => {
                 hidden[ion as usize] = false;
-                let _ = writeln!(out, "// unhide q[{ion}]");
+                writeln!(out, "unhide_ion q[{ion}];")
             }
             NativeOp::Measure { ion, clbit } => {
                 let reg = seq
@@ -122,12 +148,138 @@ pub fn write_qasm(seq: &Sequence) -> String {
                 let name = reg.map_or(format!("c[{clbit}]"), |g| {
                     format!("{}[{}]", g.name, clbit - g.offset)
                 });
-                let _ = writeln!(out, "{cond}measure q[{ion}] -> {name};");
+                writeln!(out, "measure q[{ion}] -> {name};")
             }
-            NativeOp::Reset { ion } => {
-                let _ = writeln!(out, "{cond}reset q[{ion}];");
-            }
-        }
+            NativeOp::Reset { ion } => writeln!(out, "reset q[{ion}];"),
+        };
     }
     out
+}
+
+/// Recovers the sequence from a file [`write_qasm`] wrote. Returns `None` when the
+/// text is not such a file or does not map cleanly; callers then read it as an
+/// ordinary circuit. The text must also read as valid OpenQASM 2 (checked by the
+/// caller with the full front end).
+pub fn read_qasm_sequence(text: &str) -> Option<Sequence> {
+    if !text.starts_with(MARKER) {
+        return None;
+    }
+    let (program, diags) = crate::qasm::parser::parse(FileId(0), text, true);
+    if diags.iter().any(|d| d.is_error()) {
+        return None;
+    }
+    let mut seq = Sequence::default();
+    let mut qreg = None;
+    let mut hidden: Vec<bool> = Vec::new();
+    for stmt in &program.stmts {
+        let (op, condition) = match stmt {
+            Stmt::Qreg { name, size, .. } => {
+                if qreg.is_some() {
+                    return None;
+                }
+                qreg = Some(name.name.to_string());
+                seq.n_ions = size.0 as u32;
+                hidden = vec![false; size.0 as usize];
+                continue;
+            }
+            Stmt::Creg { name, size, .. } => {
+                let offset = seq.n_clbits();
+                seq.cregs.push(Register {
+                    name: name.name.to_string(),
+                    offset,
+                    size: size.0 as u32,
+                });
+                continue;
+            }
+            Stmt::QOp(op) => (op, None),
+            Stmt::If {
+                creg, value, op, ..
+            } => {
+                let i = seq
+                    .cregs
+                    .iter()
+                    .position(|r| r.name == creg.name.as_str())?;
+                (
+                    op,
+                    Some(Condition {
+                        creg: i as u32,
+                        value: value.0,
+                    }),
+                )
+            }
+            Stmt::Version { .. } | Stmt::Include { .. } | Stmt::Gate(_) => continue,
+            Stmt::Barrier { .. } => return None,
+        };
+        let ion = |a: &Arg| -> Option<u32> { a.index.map(|(i, _)| i as u32) };
+        let native = match op {
+            QOp::Measure { src, dst, .. } => {
+                let reg = seq.cregs.iter().find(|r| r.name == dst.reg.name.as_str())?;
+                NativeOp::Measure {
+                    ion: ion(src)?,
+                    clbit: reg.offset + dst.index?.0 as u32,
+                }
+            }
+            QOp::Reset { arg, .. } => NativeOp::Reset { ion: ion(arg)? },
+            QOp::Call(call) => {
+                let p: Vec<f64> = call.params.iter().map(|e| eval(e, &[], &[])).collect();
+                let name = call.name.name.as_str();
+                let args: Option<Vec<u32>> = call.args.iter().map(ion).collect();
+                if name.starts_with("chain_rot_") || name.starts_with("chain_ms_") {
+                    let visible: Vec<u32> =
+                        (0..seq.n_ions).filter(|&i| !hidden[i as usize]).collect();
+                    if args? != visible || p.len() != 2 {
+                        return None;
+                    }
+                    if name.starts_with("chain_rot_") {
+                        NativeOp::Collective {
+                            theta: p[0],
+                            phi: p[1],
+                        }
+                    } else {
+                        NativeOp::Ms {
+                            theta: p[0],
+                            phi: p[1],
+                        }
+                    }
+                } else {
+                    match (name, p.as_slice(), call.args.as_slice()) {
+                        ("frame_z", [t], [a]) if a.index.is_none() => {
+                            NativeOp::VirtualZ { theta: *t }
+                        }
+                        ("light_shift", [t], [a]) => NativeOp::LightShift {
+                            ion: ion(a)?,
+                            theta: *t,
+                        },
+                        ("addr_rot", [t, f], [a]) => NativeOp::Addressed {
+                            ion: ion(a)?,
+                            theta: *t,
+                            phi: *f,
+                        },
+                        ("pair_ms", [t, f], [a, b]) => NativeOp::PairMs {
+                            a: ion(a)?,
+                            b: ion(b)?,
+                            theta: *t,
+                            phi: *f,
+                        },
+                        ("hide_ion", [], [a]) => {
+                            let i = ion(a)?;
+                            *hidden.get_mut(i as usize)? = true;
+                            NativeOp::Hide { ion: i }
+                        }
+                        ("unhide_ion", [], [a]) => {
+                            let i = ion(a)?;
+                            *hidden.get_mut(i as usize)? = false;
+                            NativeOp::Unhide { ion: i }
+                        }
+                        _ => return None,
+                    }
+                }
+            }
+        };
+        seq.steps.push(Step {
+            op: native,
+            condition,
+        });
+    }
+    qreg.map(|_| seq)
 }

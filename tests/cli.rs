@@ -1,0 +1,156 @@
+//! The command line as a user meets it: exit codes, JSON keys, files written.
+
+use std::path::PathBuf;
+use std::process::Command;
+
+fn tutti(args: &[&str]) -> (i32, String, String) {
+    let out = Command::new(env!("CARGO_BIN_EXE_tutti"))
+        .args(args)
+        .output()
+        .expect("run tutti");
+    (
+        out.status.code().unwrap_or(-1),
+        String::from_utf8_lossy(&out.stdout).into_owned(),
+        String::from_utf8_lossy(&out.stderr).into_owned(),
+    )
+}
+
+fn scratch(name: &str) -> PathBuf {
+    let dir = std::env::temp_dir().join(format!("tutti-cli-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    dir.join(name)
+}
+
+#[test]
+fn inspect_json_has_the_documented_keys() {
+    let (code, out, _) = tutti(&["inspect", "circuits/ghz_5.qasm", "--json"]);
+    assert_eq!(code, 0);
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    assert_eq!(v["qubits"], 5);
+    assert_eq!(v["clbits"], 5);
+    assert_eq!(v["ops"], 10);
+    assert_eq!(v["two_qubit_ops"], 4);
+}
+
+#[test]
+fn bad_input_exits_2_with_a_located_error() {
+    let bad = scratch("bad.qasm");
+    std::fs::write(
+        &bad,
+        "OPENQASM 2.0;\ninclude \"qelib1.inc\";\nqreg q[2];\ncx q[0],q[7];\n",
+    )
+    .unwrap();
+    let (code, _, err) = tutti(&["inspect", bad.to_str().unwrap()]);
+    assert_eq!(code, 2);
+    assert!(
+        err.contains("bad.qasm:4:11") && err.contains("out of range"),
+        "{err}"
+    );
+}
+
+#[test]
+fn check_exit_codes_say_equivalent_or_not() {
+    let a = scratch("a.qasm");
+    let b = scratch("b.qasm");
+    std::fs::write(
+        &a,
+        "OPENQASM 2.0;\ninclude \"qelib1.inc\";\nqreg q[2];\ncx q[0],q[1];\n",
+    )
+    .unwrap();
+    std::fs::write(
+        &b,
+        "OPENQASM 2.0;\ninclude \"qelib1.inc\";\nqreg q[2];\nh q[1]; cz q[0],q[1]; h q[1];\n",
+    )
+    .unwrap();
+    let (code, out, _) = tutti(&["check", a.to_str().unwrap(), b.to_str().unwrap(), "--json"]);
+    assert_eq!(code, 0);
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    assert_eq!(v["equivalent"], true);
+    assert!(v["mode"].is_string() && v["fidelity"].is_number());
+    std::fs::write(
+        &b,
+        "OPENQASM 2.0;\ninclude \"qelib1.inc\";\nqreg q[2];\ncz q[0],q[1];\n",
+    )
+    .unwrap();
+    let (code, out, _) = tutti(&["check", a.to_str().unwrap(), b.to_str().unwrap()]);
+    assert_eq!(code, 1, "{out}");
+    assert!(out.starts_with("NOT EQUIVALENT"));
+}
+
+#[test]
+fn compile_writes_every_format_that_check_then_accepts() {
+    for (format, ext) in [("pulses", "pulses"), ("json", "json"), ("qasm", "qasm")] {
+        for target in ["collective", "addressed"] {
+            let out = scratch(&format!("qft3-{target}.{ext}"));
+            let (code, _, err) = tutti(&[
+                "compile",
+                "circuits/qft_3.qasm",
+                "-o",
+                out.to_str().unwrap(),
+                "--format",
+                format,
+                "--target",
+                target,
+            ]);
+            assert_eq!(code, 0, "{err}");
+            assert!(
+                err.contains("verified: EQUIVALENT") && err.contains("ms_pulses"),
+                "{err}"
+            );
+            let (code, stdout, err) =
+                tutti(&["check", "circuits/qft_3.qasm", out.to_str().unwrap()]);
+            assert_eq!(code, 0, "{format} {target}: {stdout}{err}");
+        }
+    }
+}
+
+#[test]
+fn compile_never_overwrites_its_input() {
+    let input = scratch("keep.qasm");
+    let text = "OPENQASM 2.0;\ninclude \"qelib1.inc\";\nqreg q[2];\nh q[0];\n";
+    std::fs::write(&input, text).unwrap();
+    let (code, _, err) = tutti(&[
+        "compile",
+        input.to_str().unwrap(),
+        "-o",
+        input.to_str().unwrap(),
+    ]);
+    assert_eq!(code, 2);
+    assert!(err.contains("refusing to overwrite"), "{err}");
+    assert_eq!(std::fs::read_to_string(&input).unwrap(), text);
+}
+
+#[test]
+fn budget_json_has_the_design_figures() {
+    let (code, out, err) = tutti(&["budget", "circuits/qft_3.qasm", "--json"]);
+    assert_eq!(code, 0, "{err}");
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    for key in [
+        "ms_pulses",
+        "ms_area",
+        "collective_pulses",
+        "light_shifts",
+        "duration_us",
+        "est_error",
+        "entangling_depth",
+        "idle_us",
+    ] {
+        assert!(!v[key].is_null(), "missing {key}");
+    }
+    // qft_3 has three controlled phases and one swap: six ZZ interactions, each an
+    // echo of 40 pulses on the 40-ion demo device (smallest Hadamard order >= 39).
+    assert_eq!(v["ms_pulses"], 6 * 40);
+}
+
+#[test]
+fn an_opaque_gate_is_a_clear_compile_error() {
+    let f = scratch("opaque.qasm");
+    std::fs::write(
+        &f,
+        "OPENQASM 2.0;\nopaque magic a;\nqreg q[1];\nmagic q[0];\n",
+    )
+    .unwrap();
+    let (code, _, err) = tutti(&["compile", f.to_str().unwrap()]);
+    assert_eq!(code, 2);
+    assert!(err.contains("opaque"), "{err}");
+}

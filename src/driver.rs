@@ -192,8 +192,9 @@ pub fn compile(
 }
 
 /// Writes `text` to `path` atomically (a temporary file in the same folder, then a
-/// rename), refusing to overwrite `input`.
-pub fn write_atomic(path: &Path, text: &str, input: &Path) -> Result<(), String> {
+/// rename). Never overwrites `input`; overwrites another existing file only with
+/// `force`.
+pub fn write_atomic(path: &Path, text: &str, input: &Path, force: bool) -> Result<(), String> {
     let same = match (std::fs::canonicalize(path), std::fs::canonicalize(input)) {
         (Ok(a), Ok(b)) => a == b,
         _ => false,
@@ -202,6 +203,12 @@ pub fn write_atomic(path: &Path, text: &str, input: &Path) -> Result<(), String>
         return Err(format!(
             "error: refusing to overwrite the input {}; choose another -o path\n",
             input.display()
+        ));
+    }
+    if path.exists() && !force {
+        return Err(format!(
+            "error: {} exists; pass --force to replace it, or choose another -o path\n",
+            path.display()
         ));
     }
     let dir = path

@@ -83,6 +83,9 @@ enum Command {
         /// Skip the check of the output against the input.
         #[arg(long)]
         no_verify: bool,
+        /// Replace OUT if it exists (the input is never replaced).
+        #[arg(long)]
+        force: bool,
         #[command(flatten)]
         limits: LimitArgs,
     },
@@ -189,13 +192,14 @@ fn run(cli: Cli) -> Result<ExitCode, String> {
             format,
             baseline,
             no_verify,
+            force,
             limits,
         } => {
             let limits = limits.limits();
             let (_, compiled) = compile_one(&file, &device, target, !no_verify, &limits)?;
             let text = format.render(&compiled.sequence);
             match &output {
-                Some(path) => driver::write_atomic(path, &text, &file)?,
+                Some(path) => driver::write_atomic(path, &text, &file, force)?,
                 None => print!("{text}"),
             }
             let compiler = if baseline {

@@ -154,3 +154,29 @@ fn an_opaque_gate_is_a_clear_compile_error() {
     assert_eq!(code, 2);
     assert!(err.contains("opaque"), "{err}");
 }
+
+#[test]
+fn compile_replaces_an_existing_output_only_with_force() {
+    let out = scratch("existing.pulses");
+    std::fs::write(&out, "precious").unwrap();
+    let (code, _, err) = tutti(&[
+        "compile",
+        "circuits/ghz_5.qasm",
+        "-o",
+        out.to_str().unwrap(),
+    ]);
+    assert_eq!(code, 2);
+    assert!(err.contains("--force"), "{err}");
+    assert_eq!(std::fs::read_to_string(&out).unwrap(), "precious");
+    let (code, _, err) = tutti(&[
+        "compile",
+        "circuits/ghz_5.qasm",
+        "-o",
+        out.to_str().unwrap(),
+        "--force",
+    ]);
+    assert_eq!(code, 0, "{err}");
+    assert!(std::fs::read_to_string(&out)
+        .unwrap()
+        .starts_with("# tutti pulse list"));
+}

@@ -21,3 +21,20 @@ fn every_example_in_the_grammar_reads() {
     }
     assert!(count >= 3);
 }
+
+#[test]
+fn every_example_in_the_pulse_grammar_reads() {
+    let text = std::fs::read_to_string("grammar/pulses.ebnf").unwrap();
+    let mut count = 0;
+    for block in text.split("\n(* example\n").skip(1) {
+        let list = block.split("*)").next().unwrap();
+        let out = tutti::native::text::read_pulses("grammar-example.pulses", list);
+        assert!(
+            out.sequence.is_some(),
+            "example {count} fails:\n{}",
+            out.render()
+        );
+        count += 1;
+    }
+    assert!(count >= 2);
+}

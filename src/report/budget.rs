@@ -9,7 +9,8 @@
 //! the product of all these factors.
 //! Timing model: operations run one after another; when the profile says light shifts
 //! of one layer run at once, consecutive light shifts on distinct ions share one
-//! time slot as long as the longest of them. Frame changes take no time.
+//! time slot as long as the longest of them. Consecutive measurements of distinct
+//! ions are one readout (one time slot). Frame changes take no time.
 
 use crate::native::profile::{Cost, Profile};
 use crate::native::{NativeOp, Sequence};
@@ -71,8 +72,9 @@ pub fn budget(seq: &Sequence, profile: &Profile, active: u32) -> Budget {
     let mut busy = vec![0.0f64; n];
     let mut depth = vec![0usize; n];
     let mut fidelity = 1.0f64;
-    // The open layer of parallel light shifts: its ions and its length so far.
-    let mut layer: Option<(Vec<u32>, f64)> = None;
+    // The open layer of parallel light shifts or measurements: its kind, its ions and
+    // its length so far.
+    let mut layer: Option<(bool, Vec<u32>, f64)> = None;
     for step in &seq.steps {
         let op = &step.op;
         let (dt, own) = cost_of(profile, op, false);
@@ -116,25 +118,29 @@ pub fn budget(seq: &Sequence, profile: &Profile, active: u32) -> Budget {
         for &i in &involved {
             busy[i as usize] += dt;
         }
-        // Timing, with light-shift layers.
-        if let NativeOp::LightShift { ion, .. } = *op {
-            if profile.capabilities.parallel_light_shifts {
-                match &mut layer {
-                    Some((ions, len)) if !ions.contains(&ion) => {
-                        ions.push(ion);
-                        if dt > *len {
-                            b.duration_us += dt - *len;
-                            *len = dt;
-                        }
-                        continue;
-                    }
-                    _ => {
-                        layer = Some((vec![ion], dt));
-                        b.duration_us += dt;
-                        continue;
+        // Timing, with layers of light shifts and of measurements.
+        let layered = match *op {
+            NativeOp::LightShift { ion, .. } if profile.capabilities.parallel_light_shifts => {
+                Some((false, ion))
+            }
+            NativeOp::Measure { ion, .. } => Some((true, ion)),
+            _ => None,
+        };
+        if let Some((is_measure, ion)) = layered {
+            match &mut layer {
+                Some((kind, ions, len)) if *kind == is_measure && !ions.contains(&ion) => {
+                    ions.push(ion);
+                    if dt > *len {
+                        b.duration_us += dt - *len;
+                        *len = dt;
                     }
                 }
+                _ => {
+                    layer = Some((is_measure, vec![ion], dt));
+                    b.duration_us += dt;
+                }
             }
+            continue;
         }
         layer = None;
         b.duration_us += dt;

@@ -2,7 +2,6 @@
 //! the same run, at 24 and 26 qubits; and the time of a 200-qubit tableau check.
 //! Figures are printed, not asserted. Run with `cargo bench --bench sim`.
 
-use num_complex::Complex64 as C64;
 use std::time::Instant;
 use tutti::sim::apply::apply_kernel;
 use tutti::sim::program::rotation;
@@ -23,7 +22,7 @@ fn main() {
     let sizes: &[usize] = if quick { &[20] } else { &[24, 26] };
     for &n in sizes {
         let mut s = StateVector::zero(n);
-        let mut dst = vec![C64::new(0.0, 0.0); 1 << n];
+        let mut dst = tutti::sim::state::zeroed_amps(1 << n);
         let gb = (2 * 16 * (1usize << n)) as f64 / 1e9;
         let copy = best_of(5, || s.copy_into(&mut dst));
         let m = rotation(0.3, 0.2);

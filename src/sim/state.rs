@@ -12,19 +12,47 @@ use num_complex::Complex64 as C64;
 use rayon::prelude::*;
 
 /// Qubits below this index are handled inside tiles of `2^TILE_BITS` amplitudes.
-pub const TILE_BITS: usize = 12;
+pub const TILE_BITS: usize = 14;
 /// High qubits handled together in one pass of a collective operation.
-pub const GROUP: usize = 4;
+pub const GROUP: usize = 6;
 /// States at least this long run in parallel.
 const PAR_LEN: usize = 1 << 14;
 /// Work unit of a parallel pass, in amplitudes.
 const CHUNK: usize = 1 << 12;
+/// Halves at least this many amplitudes apart are processed through a local buffer.
+const STAGE_DISTANCE: usize = 1 << 24;
+/// Length of the contiguous runs that a high-qubit pass works on.
+const ROW: usize = 1 << 8;
 
 /// A pure state of `n` qubits.
 #[derive(Debug, Clone, PartialEq)]
 pub struct StateVector {
     pub n: usize,
     pub amps: Vec<C64>,
+}
+
+/// A zeroed amplitude vector. Large ones ask the kernel for transparent huge pages
+/// before the first touch: passes over states of a GiB otherwise spend much of their
+/// time on page-table walks for 4 KiB pages.
+pub fn zeroed_amps(len: usize) -> Vec<C64> {
+    let mut v: Vec<C64> = Vec::with_capacity(len);
+    #[cfg(target_os = "linux")]
+    if len * std::mem::size_of::<C64>() >= 4 << 20 {
+        let huge = 2usize << 20;
+        let start = v.as_mut_ptr() as usize;
+        let aligned = start.div_ceil(huge) * huge;
+        let end = start + len * std::mem::size_of::<C64>();
+        if end > aligned + huge {
+            let length = (end - aligned) / huge * huge;
+            // SAFETY: the range lies inside the allocation just made and is aligned; the
+            // advice only changes how the kernel backs the pages.
+            unsafe {
+                libc::madvise(aligned as *mut libc::c_void, length, libc::MADV_HUGEPAGE);
+            }
+        }
+    }
+    v.resize(len, C64::new(0.0, 0.0));
+    v
 }
 
 #[derive(Clone, Copy)]
@@ -51,6 +79,49 @@ fn mat2_serial(block: &mut [C64], q: usize, m: &Mat2) {
     }
 }
 
+/// Hadamard butterflies (unnormalised) of the two levels with strides `ha < hb` in one
+/// sweep over `t`: a 4-point transform on each `i, i+ha, i+hb, i+ha+hb`.
+fn wht4_levels(t: &mut [C64], ha: usize, hb: usize) {
+    for block in t.chunks_exact_mut(2 * hb) {
+        let (lo, hi) = block.split_at_mut(hb);
+        for (l, h) in lo.chunks_exact_mut(2 * ha).zip(hi.chunks_exact_mut(2 * ha)) {
+            let (l0, l1) = l.split_at_mut(ha);
+            let (h0, h1) = h.split_at_mut(ha);
+            for (((a, b), c), d) in l0
+                .iter_mut()
+                .zip(l1.iter_mut())
+                .zip(h0.iter_mut())
+                .zip(h1.iter_mut())
+            {
+                let (p, q, r, s) = (*a + *b, *a - *b, *c + *d, *c - *d);
+                *a = p + r;
+                *b = q + s;
+                *c = p - r;
+                *d = q - s;
+            }
+        }
+    }
+}
+
+/// Euler angles `m = e^{i a} Rz(z1) Rx(x) Rz(z0)`, returned as `(a, z1, x, z0)`.
+fn zxz(m: &Mat2) -> (f64, f64, f64, f64) {
+    let det = m[0][0] * m[1][1] - m[0][1] * m[1][0];
+    let alpha = det.arg() / 2.0;
+    let ph = C64::from_polar(1.0, -alpha);
+    // SU(2) part: Rz(beta) Ry(gamma) Rz(delta), and Ry(g) = Rz(pi/2) Rx(g) Rz(-pi/2).
+    let (a, b) = (m[0][0] * ph, m[1][0] * ph);
+    let gamma = 2.0 * b.norm().atan2(a.norm());
+    let sum = if a.norm() > 1e-12 {
+        -2.0 * a.arg()
+    } else {
+        0.0
+    };
+    let diff = if b.norm() > 1e-12 { 2.0 * b.arg() } else { 0.0 };
+    let (beta, delta) = ((sum + diff) / 2.0, (sum - diff) / 2.0);
+    let half_pi = std::f64::consts::FRAC_PI_2;
+    (alpha, beta + half_pi, gamma, delta - half_pi)
+}
+
 /// Inserts a zero bit at each position of `sorted` (ascending) into `c`.
 #[inline(always)]
 fn insert_zeros(mut c: usize, sorted: &[usize]) -> usize {
@@ -64,7 +135,7 @@ fn insert_zeros(mut c: usize, sorted: &[usize]) -> usize {
 impl StateVector {
     /// The state `|0...0>`.
     pub fn zero(n: usize) -> StateVector {
-        let mut amps = vec![C64::new(0.0, 0.0); 1usize << n];
+        let mut amps = zeroed_amps(1usize << n);
         amps[0] = C64::new(1.0, 0.0);
         StateVector { n, amps }
     }
@@ -79,12 +150,12 @@ impl StateVector {
 
     /// A Haar-random state: normalised independent complex Gaussians (Box-Muller).
     pub fn haar_random(n: usize, rng: &mut impl rand::Rng) -> StateVector {
-        let mut amps = Vec::with_capacity(1usize << n);
-        for _ in 0..1usize << n {
+        let mut amps = zeroed_amps(1usize << n);
+        for slot in amps.iter_mut() {
             let u1: f64 = rng.gen::<f64>().max(f64::MIN_POSITIVE);
             let u2: f64 = rng.gen();
             let r = (-2.0 * u1.ln()).sqrt();
-            amps.push(C64::from_polar(r, std::f64::consts::TAU * u2));
+            *slot = C64::from_polar(r, std::f64::consts::TAU * u2);
         }
         let norm = amps.iter().map(|a| a.norm_sqr()).sum::<f64>().sqrt();
         amps.iter_mut().for_each(|a| *a /= norm);
@@ -117,6 +188,24 @@ impl StateVector {
         let half = 1usize << q;
         if self.amps.len() < PAR_LEN {
             mat2_serial(&mut self.amps, q, m);
+        } else if half >= STAGE_DISTANCE {
+            self.amps.par_chunks_mut(2 * half).for_each(|pair| {
+                let (lo, hi) = pair.split_at_mut(half);
+                // The two halves lie a power of two apart; staging one chunk at a time
+                // in a local buffer reads and writes each half in bursts instead of
+                // alternating between them, which the memory system punishes.
+                lo.par_chunks_mut(CHUNK)
+                    .zip(hi.par_chunks_mut(CHUNK))
+                    .for_each_init(
+                        || vec![C64::new(0.0, 0.0); CHUNK],
+                        |buf, (l, h)| {
+                            let buf = &mut buf[..h.len()];
+                            buf.copy_from_slice(h);
+                            butterfly(l, buf, m);
+                            h.copy_from_slice(buf);
+                        },
+                    );
+            });
         } else if half >= CHUNK {
             self.amps.par_chunks_mut(2 * half).for_each(|pair| {
                 let (lo, hi) = pair.split_at_mut(half);
@@ -197,9 +286,201 @@ impl StateVector {
         }
     }
 
-    /// The same 2x2 on every qubit of `qubits` (a collective rotation), in
-    /// `1 + ceil(h / GROUP)` passes where `h` counts the qubits at or above TILE_BITS.
+    /// The same 2x2 on every qubit of `qubits` (a collective rotation).
+    ///
+    /// With Euler angles `m = e^{ia} Rz(z1) Rx(x) Rz(z0)` and `Rx(x) = H Rz(x) H`, the
+    /// product over the qubits is `D(z1) W D(x) W D(z0)` times a phase, where `W` is the
+    /// Walsh-Hadamard transform on those qubits (butterflies of additions only) and each
+    /// `D` is diagonal with a phase set by the population count. The diagonals are
+    /// fused into the transform passes, so the cost is `2 (1 + ceil(h / GROUP))`
+    /// passes of additions, `h` the qubits at or above TILE_BITS, instead of `n`
+    /// complex 2x2 butterflies per amplitude.
     pub fn apply_same_to_all(&mut self, qubits: &[usize], m: &Mat2) {
+        if qubits.len() < 4 {
+            return self.apply_same_to_all_direct(qubits, m);
+        }
+        let (alpha, z1, x, z0) = zxz(m);
+        let mut sorted = qubits.to_vec();
+        sorted.sort_unstable();
+        let count = sorted.len();
+        let mask: usize = sorted.iter().map(|q| 1usize << q).sum();
+        // exp(-i t/2 Z) on each qubit: phase e^{i t/2 (2k - count)} for popcount k.
+        let table = |t: f64, extra: C64| -> Vec<C64> {
+            (0..=count)
+                .map(|k| extra * C64::from_polar(1.0, t / 2.0 * (2.0 * k as f64 - count as f64)))
+                .collect()
+        };
+        let scale = C64::new(0.5f64.powi(count as i32), 0.0);
+        let global = C64::from_polar(1.0, alpha * count as f64);
+        let d0 = table(z0, C64::new(1.0, 0.0));
+        let d1 = table(x, scale);
+        let d2 = table(z1, global);
+        self.walsh_hadamard(&sorted, mask, Some(&d0), &d1);
+        self.walsh_hadamard(&sorted, mask, None, &d2);
+    }
+
+    /// Unnormalised Walsh-Hadamard transform on `sorted` qubits, multiplying each
+    /// amplitude by `pre[popcount]` before and `post[popcount]` after.
+    fn walsh_hadamard(&mut self, sorted: &[usize], mask: usize, pre: Option<&[C64]>, post: &[C64]) {
+        let tile = TILE_BITS.min(self.n);
+        let (low, high): (Vec<usize>, Vec<usize>) = sorted.iter().partition(|&&q| q < tile);
+        let groups: Vec<&[usize]> = high.chunks(GROUP).collect();
+        let n_passes = usize::from(!low.is_empty()) + groups.len();
+        let mut pass = 0;
+        if !low.is_empty() {
+            let tile_len = 1usize << tile;
+            let last = n_passes == 1;
+            // Population counts of the masked low bits, shared by every tile.
+            let tile_pop: Vec<u8> = (0..tile_len)
+                .map(|k| (k & mask).count_ones() as u8)
+                .collect();
+            let body = |(ti, t): (usize, &mut [C64])| {
+                let base = ti * tile_len;
+                let base_pop = (base & mask).count_ones() as usize;
+                if let Some(pre) = pre {
+                    for (a, &lp) in t.iter_mut().zip(&tile_pop) {
+                        *a *= pre[base_pop + lp as usize];
+                    }
+                }
+                // Two levels per sweep (4-point transforms) halve the passes over the tile.
+                for pair in low.chunks(2) {
+                    if pair == [0, 1] {
+                        for c in t.chunks_exact_mut(4) {
+                            let (a, b, cc, d) =
+                                (c[0] + c[1], c[0] - c[1], c[2] + c[3], c[2] - c[3]);
+                            c[0] = a + cc;
+                            c[1] = b + d;
+                            c[2] = a - cc;
+                            c[3] = b - d;
+                        }
+                    } else if let [a, b] = *pair {
+                        wht4_levels(t, 1usize << a, 1usize << b);
+                    } else {
+                        let half = 1usize << pair[0];
+                        for block in t.chunks_exact_mut(2 * half) {
+                            let (lo, hi) = block.split_at_mut(half);
+                            for (x, y) in lo.iter_mut().zip(hi.iter_mut()) {
+                                let (u, v) = (*x, *y);
+                                *x = u + v;
+                                *y = u - v;
+                            }
+                        }
+                    }
+                }
+                if last {
+                    for (a, &lp) in t.iter_mut().zip(&tile_pop) {
+                        *a *= post[base_pop + lp as usize];
+                    }
+                }
+            };
+            if self.amps.len() < PAR_LEN {
+                self.amps.chunks_mut(tile_len).enumerate().for_each(body);
+            } else {
+                self.amps
+                    .par_chunks_mut(tile_len)
+                    .enumerate()
+                    .for_each(body);
+            }
+            pass += 1;
+        }
+        for group in groups {
+            let first = pass == 0;
+            pass += 1;
+            let last = pass == n_passes;
+            self.hadamard_group_pass(
+                group,
+                mask,
+                if first { pre } else { None },
+                if last { Some(post) } else { None },
+            );
+        }
+    }
+
+    /// One pass of Hadamard butterflies (unnormalised) on `group` (ascending, at most
+    /// GROUP qubits, all at or above TILE_BITS), with optional diagonal tables before
+    /// and after. The `2^k` rows of a block are contiguous runs of [`ROW`] amplitudes,
+    /// so each butterfly level is a vectorisable add and subtract of two runs.
+    fn hadamard_group_pass(
+        &mut self,
+        group: &[usize],
+        mask: usize,
+        pre: Option<&[C64]>,
+        post: Option<&[C64]>,
+    ) {
+        let k = group.len();
+        let rows = 1usize << k;
+        let offsets: Vec<usize> = (0..rows)
+            .map(|s| {
+                (0..k)
+                    .filter(|&j| s >> j & 1 == 1)
+                    .map(|j| 1usize << group[j])
+                    .sum()
+            })
+            .collect();
+        let run = ROW.min(1usize << group[0]);
+        let blocks = (self.amps.len() >> k) / run;
+        let run_pop: Vec<u8> = (0..run).map(|i| (i & mask).count_ones() as u8).collect();
+        let run_pop = &run_pop;
+        let ptr = SharedPtr(self.amps.as_mut_ptr());
+        let offsets = &offsets;
+        // The rows lie powers of two apart, so in place they would compete for the same
+        // cache sets; each block is copied into a contiguous buffer, transformed there
+        // and copied back, which reads and writes every row in one burst.
+        let body = move |buf: &mut Vec<C64>, t: usize| {
+            let p = ptr;
+            let base = insert_zeros(t * run, group);
+            // SAFETY: the runs `base + offsets[s] .. + run` of distinct `t` and `s` are
+            // disjoint and in range: `run` divides `2^group[0]`, so a run never crosses a
+            // bit of the group.
+            for s in 0..rows {
+                let src = unsafe { std::slice::from_raw_parts(p.0.add(base + offsets[s]), run) };
+                buf[s * run..(s + 1) * run].copy_from_slice(src);
+            }
+            // A run starts on a multiple of `run`, so `start + i = start | i` inside it.
+            let diag = |buf: &mut [C64], table: &[C64]| {
+                for s in 0..rows {
+                    let start_pop = ((base + offsets[s]) & mask).count_ones() as usize;
+                    for (a, &lp) in buf[s * run..(s + 1) * run].iter_mut().zip(run_pop.iter()) {
+                        *a *= table[start_pop + lp as usize];
+                    }
+                }
+            };
+            if let Some(pre) = pre {
+                diag(buf, pre);
+            }
+            for j in 0..k {
+                let half = (1usize << j) * run;
+                for block in buf.chunks_exact_mut(2 * half) {
+                    let (lo, hi) = block.split_at_mut(half);
+                    for (a, b) in lo.iter_mut().zip(hi.iter_mut()) {
+                        let (x, y) = (*a, *b);
+                        *a = x + y;
+                        *b = x - y;
+                    }
+                }
+            }
+            if let Some(post) = post {
+                diag(buf, post);
+            }
+            for s in 0..rows {
+                let dst =
+                    unsafe { std::slice::from_raw_parts_mut(p.0.add(base + offsets[s]), run) };
+                dst.copy_from_slice(&buf[s * run..(s + 1) * run]);
+            }
+        };
+        let init = || vec![C64::new(0.0, 0.0); rows * run];
+        if self.amps.len() < PAR_LEN {
+            let mut buf = init();
+            (0..blocks).for_each(|t| body(&mut buf, t));
+        } else {
+            (0..blocks).into_par_iter().for_each_init(init, body);
+        }
+    }
+
+    /// The same 2x2 on every qubit of `qubits` by direct butterflies, in
+    /// `1 + ceil(h / GROUP)` passes where `h` counts the qubits at or above TILE_BITS.
+    /// The reference for [`StateVector::apply_same_to_all`].
+    pub fn apply_same_to_all_direct(&mut self, qubits: &[usize], m: &Mat2) {
         let mut sorted = qubits.to_vec();
         sorted.sort_unstable();
         let tile = TILE_BITS.min(self.n);

@@ -2,14 +2,14 @@
 //! library module besides `batch` that touches the file system.
 
 use crate::circuit::Circuit;
-use crate::compile::{compile_baseline, CompileError, Target};
+use crate::compile::{compile_baseline_traced, CompileError, Target};
 use crate::native::profile::Profile;
 use crate::native::qasm_out::{read_qasm_sequence, write_qasm};
 use crate::native::text::{read_json, read_pulses, write_json, write_pulses};
 use crate::native::Sequence;
 use crate::qasm::{self, Limits};
 use crate::report::budget::{budget, Budget};
-use crate::sim::{check, CheckConfig, CheckError, Program, Verdict};
+use crate::sim::{check, check_blockwise, BlockVerdict, CheckConfig, CheckError, Program, Verdict};
 use std::path::Path;
 
 /// Output formats of a compiled sequence.
@@ -143,11 +143,39 @@ impl Default for CompileConfig {
     }
 }
 
+/// How a compiled sequence was proven equal to its circuit.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Verification {
+    /// The whole sequence against the whole circuit.
+    Whole(Verdict),
+    /// Each instruction against its block of pulses, when the whole comparison would
+    /// need more memory than the budget (large circuits that are not Clifford).
+    GateByGate(BlockVerdict),
+}
+
+impl Verification {
+    /// One line for the user.
+    pub fn describe(&self) -> String {
+        match self {
+            Verification::Whole(v) => format!(
+                "EQUIVALENT (mode {}, fidelity {:.12}, {} qubit(s) compared)",
+                v.mode.name(),
+                v.fidelity,
+                v.compared_qubits
+            ),
+            Verification::GateByGate(b) => format!(
+                "EQUIVALENT gate by gate ({} instructions each against its pulses, worst fidelity {:.12}, at most {} qubit(s) per comparison)",
+                b.blocks, b.fidelity, b.compared_qubits
+            ),
+        }
+    }
+}
+
 pub struct Compiled {
     pub sequence: Sequence,
     pub budget: Budget,
     /// `None` when verification was switched off.
-    pub verdict: Option<Verdict>,
+    pub verification: Option<Verification>,
 }
 
 #[derive(Debug, thiserror::Error)]
@@ -167,19 +195,28 @@ pub fn compile(
     profile: &Profile,
     cfg: &CompileConfig,
 ) -> Result<Compiled, DriverError> {
-    let sequence = compile_baseline(c, profile, cfg.target)?;
-    let verdict = if cfg.verify {
+    let (sequence, origin) = compile_baseline_traced(c, profile, cfg.target)?;
+    let verification = if cfg.verify {
         let a = Program::from_circuit(c).map_err(CheckError::Lower)?;
         let b = Program::from_sequence(&sequence);
-        let v = check(&a, &b, &cfg.check)?;
-        if !v.equivalent {
-            return Err(DriverError::NotEquivalent(format!(
-                "mode {}, fidelity {:.12}",
-                v.mode.name(),
-                v.fidelity
-            )));
+        match check(&a, &b, &cfg.check) {
+            Ok(v) if v.equivalent => Some(Verification::Whole(v)),
+            Ok(v) => {
+                return Err(DriverError::NotEquivalent(format!(
+                    "mode {}, fidelity {:.12}",
+                    v.mode.name(),
+                    v.fidelity
+                )))
+            }
+            Err(CheckError::TooLarge { .. }) => {
+                let b = check_blockwise(c, &sequence, &origin, &cfg.check)?;
+                if !b.equivalent {
+                    return Err(DriverError::NotEquivalent(b.detail));
+                }
+                Some(Verification::GateByGate(b))
+            }
+            Err(e) => return Err(e.into()),
         }
-        Some(v)
     } else {
         None
     };
@@ -187,7 +224,7 @@ pub fn compile(
     Ok(Compiled {
         sequence,
         budget,
-        verdict,
+        verification,
     })
 }
 

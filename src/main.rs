@@ -211,13 +211,8 @@ fn run(cli: Cli) -> Result<ExitCode, String> {
                 "compiled {} for {device} ({target:?} target, {compiler})",
                 file.display()
             );
-            match &compiled.verdict {
-                Some(v) => eprintln!(
-                    "verified: EQUIVALENT (mode {}, fidelity {:.12}, {} qubit(s) compared)",
-                    v.mode.name(),
-                    v.fidelity,
-                    v.compared_qubits
-                ),
+            match &compiled.verification {
+                Some(v) => eprintln!("verified: {}", v.describe()),
                 None => eprintln!("not verified (--no-verify)"),
             }
             eprint!("{}", tutti::report::budget_table(&compiled.budget));

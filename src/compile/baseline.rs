@@ -86,6 +86,17 @@ pub fn compile_baseline(
     profile: &Profile,
     target: Target,
 ) -> Result<Sequence, CompileError> {
+    compile_baseline_traced(c, profile, target).map(|(seq, _)| seq)
+}
+
+/// Like [`compile_baseline`], also returning for every step of the sequence the
+/// index of the circuit instruction it came from. The steps of one instruction are
+/// contiguous and in instruction order, so the sequence can be verified gate by gate.
+pub fn compile_baseline_traced(
+    c: &Circuit,
+    profile: &Profile,
+    target: Target,
+) -> Result<(Sequence, Vec<u32>), CompileError> {
     let ions = profile.device.ions;
     if c.n_qubits() > ions {
         return Err(CompileError::TooFewIons {
@@ -106,7 +117,17 @@ pub fn compile_baseline(
         condition: None,
     };
     let echo_rows = smallest_hadamard((ions as usize).saturating_sub(1).max(1));
-    for CanonStep { op, condition } in canon {
+    let mut origin = Vec::new();
+    let mut last_source = 0;
+    for CanonStep {
+        op,
+        condition,
+        source,
+    } in canon
+    {
+        // Steps emitted so far came from the previous canonical operation.
+        origin.resize(e.seq.steps.len(), last_source);
+        last_source = source;
         e.condition = condition;
         match op {
             Canon::Local { q, m } => {
@@ -146,7 +167,8 @@ pub fn compile_baseline(
             Canon::Reset { q } => e.push(NativeOp::Reset { ion: q }),
         }
     }
-    Ok(e.seq)
+    origin.resize(e.seq.steps.len(), last_source);
+    Ok((e.seq, origin))
 }
 
 /// `exp(-i theta/2 Z_a Z_b)` on the collective target: Z to X on every ion, the

@@ -42,6 +42,8 @@ pub enum Canon {
 pub struct CanonStep {
     pub op: Canon,
     pub condition: Option<Condition>,
+    /// Index of the circuit instruction this operation came from.
+    pub source: u32,
 }
 
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
@@ -123,6 +125,7 @@ fn sqrt2(m: &Mat2) -> Mat2 {
 struct Out<'a> {
     ops: &'a mut Vec<CanonStep>,
     condition: Option<Condition>,
+    source: u32,
 }
 
 impl Out<'_> {
@@ -130,12 +133,14 @@ impl Out<'_> {
         self.ops.push(CanonStep {
             op: Canon::Local { q, m },
             condition: self.condition,
+            source: self.source,
         });
     }
     fn zz(&mut self, a: u32, b: u32, theta: f64) {
         self.ops.push(CanonStep {
             op: Canon::Zz { a, b, theta },
             condition: self.condition,
+            source: self.source,
         });
     }
     fn rz(&mut self, q: u32, t: f64) {
@@ -321,10 +326,12 @@ fn lower_gate(gate: &Gate, q: &[u32], out: &mut Out<'_>) {
 /// Lowers a whole circuit to the canonical form. Barriers vanish.
 pub fn lower(c: &Circuit) -> Result<Vec<CanonStep>, LowerError> {
     let mut ops = Vec::with_capacity(c.instrs.len() * 3);
-    for instr in &c.instrs {
+    for (source, instr) in c.instrs.iter().enumerate() {
+        let source = source as u32;
         let mut out = Out {
             ops: &mut ops,
             condition: instr.condition,
+            source,
         };
         match &instr.op {
             Op::Gate { gate, qubits } => {
@@ -341,10 +348,12 @@ pub fn lower(c: &Circuit) -> Result<Vec<CanonStep>, LowerError> {
                     clbit: clbit.0,
                 },
                 condition: instr.condition,
+                source,
             }),
             Op::Reset { qubit } => ops.push(CanonStep {
                 op: Canon::Reset { q: qubit.0 },
                 condition: instr.condition,
+                source,
             }),
         }
     }

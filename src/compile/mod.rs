@@ -5,4 +5,4 @@ pub mod baseline;
 pub mod hadamard;
 pub mod lower;
 
-pub use baseline::{compile_baseline, CompileError, Target};
+pub use baseline::{compile_baseline, compile_baseline_traced, CompileError, Target};

@@ -11,6 +11,6 @@ pub mod program;
 pub mod state;
 pub mod tableau;
 
-pub use equiv::{check, CheckConfig, CheckError, Mode, Verdict};
+pub use equiv::{check, check_blockwise, BlockVerdict, CheckConfig, CheckError, Mode, Verdict};
 pub use program::{Item, Kernel, Program};
 pub use state::StateVector;

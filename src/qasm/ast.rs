@@ -94,8 +94,17 @@ pub struct GateCall {
 #[derive(Debug, Clone, PartialEq)]
 pub enum QOp {
     Call(Box<GateCall>),
-    Measure { src: Arg, dst: Arg, span: Span },
-    Reset { arg: Arg, span: Span },
+    /// Boxed: a measurement is rarer than a gate call and would double the size of
+    /// every operation.
+    Measure {
+        src: Box<Arg>,
+        dst: Box<Arg>,
+        span: Span,
+    },
+    Reset {
+        arg: Arg,
+        span: Span,
+    },
 }
 
 /// A statement inside a gate body.
@@ -138,13 +147,13 @@ pub enum Stmt {
     Gate(GateDef),
     QOp(QOp),
     Barrier {
-        args: ArgList,
+        args: Vec<Arg>,
         span: Span,
     },
     If {
         creg: Ident,
         value: (u64, Span),
-        op: QOp,
+        op: Box<QOp>,
         span: Span,
     },
 }

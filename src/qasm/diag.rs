@@ -40,11 +40,13 @@ impl Span {
 /// The text of every file read so far, with the name shown in diagnostics.
 #[derive(Debug, Default, Clone)]
 pub struct SourceMap {
-    files: Vec<(String, String)>,
+    /// Name and text of each file; the text is shared so that readers can hold it
+    /// while more files are added.
+    files: Vec<(String, std::rc::Rc<str>)>,
 }
 
 impl SourceMap {
-    pub fn add(&mut self, name: impl Into<String>, text: impl Into<String>) -> FileId {
+    pub fn add(&mut self, name: impl Into<String>, text: impl Into<std::rc::Rc<str>>) -> FileId {
         self.files.push((name.into(), text.into()));
         FileId(self.files.len() as u32 - 1)
     }
@@ -55,6 +57,11 @@ impl SourceMap {
 
     pub fn text(&self, id: FileId) -> &str {
         &self.files[id.0 as usize].1
+    }
+
+    /// The text of a file as a shared handle (no copy).
+    pub fn shared_text(&self, id: FileId) -> std::rc::Rc<str> {
+        self.files[id.0 as usize].1.clone()
     }
 
     /// One-based line and column (in characters) of a byte offset.

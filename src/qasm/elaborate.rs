@@ -11,6 +11,7 @@ use super::parser::parse_each;
 use crate::circuit::gates::QELIB1_2017;
 use crate::circuit::*;
 use compact_str::CompactString;
+use rustc_hash::FxHashMap;
 use std::collections::HashMap;
 use std::path::{Path, PathBuf};
 
@@ -106,14 +107,19 @@ pub fn read_with(name: &str, text: &str, limits: &Limits, loader: &dyn Loader) -
         loader,
         diags: Vec::new(),
         circuit: Circuit::default(),
-        regs: HashMap::new(),
-        gates: HashMap::new(),
+        regs: FxHashMap::default(),
+        gates: FxHashMap::default(),
         defs: Vec::new(),
         library: false,
         include_stack: Vec::new(),
         stopped: false,
     };
     let file = sources.add(name, text);
+    // About one operation per 16 bytes of program text; reserving up front saves
+    // copying the whole list as it grows (untouched capacity costs no memory).
+    e.circuit
+        .instrs
+        .reserve((text.len() / 16).min(limits.max_ops));
     e.include_stack
         .push((PathBuf::from(name), loader.canonical(Path::new(name))));
     e.file(file, &mut sources, true);
@@ -143,8 +149,8 @@ struct Elaborator<'l> {
     loader: &'l dyn Loader,
     diags: Vec<Diagnostic>,
     circuit: Circuit,
-    regs: HashMap<CompactString, (RegKind, Span)>,
-    gates: HashMap<CompactString, usize>,
+    regs: FxHashMap<CompactString, (RegKind, Span)>,
+    gates: FxHashMap<CompactString, usize>,
     defs: Vec<Def>,
     library: bool,
     /// The files being read, outermost first: (name as shown, canonical name).
@@ -161,7 +167,7 @@ struct Def {
 
 impl<'l> Elaborator<'l> {
     fn file(&mut self, file: FileId, sources: &mut SourceMap, is_main: bool) {
-        let text = sources.text(file).to_string();
+        let text = sources.shared_text(file);
         if text.len() > self.limits.max_file_bytes {
             self.diags.push(
                 Diagnostic::error(
@@ -808,7 +814,7 @@ impl<'l> Elaborator<'l> {
         if !self.check_expr_names_all(&call.params) {
             return;
         }
-        let mut params = Vec::with_capacity(call.params.len());
+        let mut params: smallvec::SmallVec<[f64; 4]> = smallvec::SmallVec::new();
         for p in &call.params {
             let v = eval(p, &[], &[]);
             if !v.is_finite() {
@@ -824,18 +830,18 @@ impl<'l> Elaborator<'l> {
             }
             params.push(v);
         }
-        let mut lists = Vec::with_capacity(call.args.len());
+        let mut lists: smallvec::SmallVec<[Bits; 4]> = smallvec::SmallVec::new();
         for a in &call.args {
             match self.resolve_arg(a, true) {
                 Some(l) => lists.push(l),
                 None => return,
             }
         }
-        let arg_refs: Vec<&Arg> = call.args.iter().collect();
+        let arg_refs: smallvec::SmallVec<[&Arg; 4]> = call.args.iter().collect();
         let Some(n) = self.broadcast(&arg_refs, &lists) else {
             return;
         };
-        let mut qubits = Vec::with_capacity(lists.len());
+        let mut qubits: smallvec::SmallVec<[Qubit; 4]> = smallvec::SmallVec::new();
         for k in 0..n as u32 {
             qubits.clear();
             qubits.extend(lists.iter().map(|l| Qubit(l.at(k))));
@@ -937,7 +943,8 @@ impl<'l> Elaborator<'l> {
                             let Some(inner) = self.lookup_gate(&call.name.name) else {
                                 return false;
                             };
-                            let mut values = Vec::with_capacity(call.params.len());
+                            let mut values: smallvec::SmallVec<[f64; 4]> =
+                                smallvec::SmallVec::new();
                             for p in &call.params {
                                 let v = eval(p, &param_names, params);
                                 if !v.is_finite() {

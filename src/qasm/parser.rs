@@ -344,7 +344,7 @@ impl<'a> Parser<'a> {
                 let args = self.arg_list()?;
                 let end = self.expect(Token::Semi, "end the barrier with `;`")?;
                 Ok(Stmt::Barrier {
-                    args,
+                    args: args.into_vec(),
                     span: start.to(end),
                 })
             }
@@ -377,7 +377,7 @@ impl<'a> Parser<'a> {
                 Ok(Stmt::If {
                     creg,
                     value,
-                    op,
+                    op: Box::new(op),
                     span,
                 })
             }
@@ -407,8 +407,8 @@ impl<'a> Parser<'a> {
                 let dst = self.arg()?;
                 let end = self.expect(Token::Semi, "end the measurement with `;`")?;
                 Ok(QOp::Measure {
-                    src,
-                    dst,
+                    src: Box::new(src),
+                    dst: Box::new(dst),
                     span: start.to(end),
                 })
             }
@@ -421,7 +421,7 @@ impl<'a> Parser<'a> {
                     span: start.to(end),
                 })
             }
-            Token::Ident => self.gate_call().map(|c| QOp::Call(Box::new(c))),
+            Token::Ident => self.gate_call().map(QOp::Call),
             _ => {
                 let msg = format!(
                     "expected a gate call, `measure` or `reset`, found {}",
@@ -437,14 +437,21 @@ impl<'a> Parser<'a> {
         }
     }
 
-    fn gate_call(&mut self) -> PResult<GateCall> {
+    /// Reads a gate call straight into a box, so the large call is never moved.
+    fn gate_call(&mut self) -> PResult<Box<GateCall>> {
         let name = self.ident("a gate name")?;
-        let mut params = smallvec::SmallVec::new();
+        let span = name.span;
+        let mut call = Box::new(GateCall {
+            name,
+            params: smallvec::SmallVec::new(),
+            args: ArgList::new(),
+            span,
+        });
         if self.peek() == Token::LParen {
             self.bump();
             if self.peek() != Token::RParen {
                 loop {
-                    params.push(self.expr()?);
+                    call.params.push(self.expr()?);
                     if self.peek() == Token::Comma {
                         self.bump();
                     } else {
@@ -454,14 +461,14 @@ impl<'a> Parser<'a> {
             }
             self.expect(Token::RParen, "close the parameter list with `)`")?;
         }
-        let args = self.arg_list()?;
+        call.args.push(self.arg()?);
+        while self.peek() == Token::Comma {
+            self.bump();
+            call.args.push(self.arg()?);
+        }
         let end = self.expect(Token::Semi, "end the gate call with `;`")?;
-        Ok(GateCall {
-            span: name.span.to(end),
-            name,
-            params,
-            args,
-        })
+        call.span = span.to(end);
+        Ok(call)
     }
 
     fn arg(&mut self) -> PResult<Arg> {
@@ -548,7 +555,7 @@ impl<'a> Parser<'a> {
                     }
                 }
                 Token::Ident => match self.gate_call() {
-                    Ok(call) => body.push(BodyStmt::Call(call)),
+                    Ok(call) => body.push(BodyStmt::Call(*call)),
                     Err(()) => self.recover_in_body(stmt_start),
                 },
                 _ => {
@@ -666,7 +673,10 @@ impl<'a> Parser<'a> {
                 let s = self.bump();
                 self.unary().map(|e| Expr {
                     span: s.to(e.span),
-                    kind: ExprKind::Neg(Box::new(e)),
+                    kind: match constant(&e) {
+                        Some(v) => ExprKind::Number(-v),
+                        None => ExprKind::Neg(Box::new(e)),
+                    },
                 })
             }
             Token::Plus => {
@@ -707,7 +717,10 @@ impl<'a> Parser<'a> {
             let arg = self.expr()?;
             let end = self.expect(Token::RParen, "close the function argument with `)`")?;
             return Ok(Expr {
-                kind: ExprKind::Call(func, Box::new(arg)),
+                kind: match constant(&arg) {
+                    Some(v) => ExprKind::Number(func.apply(v)),
+                    None => ExprKind::Call(func, Box::new(arg)),
+                },
                 span: span.to(end),
             });
         }
@@ -759,9 +772,34 @@ impl<'a> Parser<'a> {
     }
 }
 
+/// The value of an expression without parameters that is already a number.
+fn constant(e: &Expr) -> Option<f64> {
+    match e.kind {
+        ExprKind::Number(v) => Some(v),
+        ExprKind::Pi => Some(std::f64::consts::PI),
+        _ => None,
+    }
+}
+
+/// Builds a binary node, folding it to a number when both sides are numbers (the
+/// same arithmetic as evaluation, so the value is identical; it saves allocations).
 fn binary(op: BinOp, lhs: Expr, rhs: Expr) -> Expr {
+    let span = lhs.span.to(rhs.span);
+    if let (Some(x), Some(y)) = (constant(&lhs), constant(&rhs)) {
+        let v = match op {
+            BinOp::Add => x + y,
+            BinOp::Sub => x - y,
+            BinOp::Mul => x * y,
+            BinOp::Div => x / y,
+            BinOp::Pow => x.powf(y),
+        };
+        return Expr {
+            span,
+            kind: ExprKind::Number(v),
+        };
+    }
     Expr {
-        span: lhs.span.to(rhs.span),
+        span,
         kind: ExprKind::Binary(op, Box::new(lhs), Box::new(rhs)),
     }
 }

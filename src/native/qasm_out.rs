@@ -215,7 +215,7 @@ pub fn read_qasm_sequence(text: &str) -> Option<Sequence> {
             QOp::Measure { src, dst, .. } => {
                 let reg = seq.cregs.iter().find(|r| r.name == dst.reg.name.as_str())?;
                 NativeOp::Measure {
-                    ion: ion(&**src)?,
+                    ion: ion(src)?,
                     clbit: reg.offset + dst.index?.0 as u32,
                 }
             }

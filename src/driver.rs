@@ -188,6 +188,17 @@ pub enum DriverError {
     NotEquivalent(String),
 }
 
+impl DriverError {
+    /// The exit code of the CLI: 1 when the output is not the input (a failed
+    /// verification), 2 for every other error.
+    pub fn exit_code(&self) -> u8 {
+        match self {
+            DriverError::NotEquivalent(_) => 1,
+            _ => 2,
+        }
+    }
+}
+
 /// Compiles, verifies (unless switched off) and budgets one circuit. A failed
 /// verification is an error, never a silent success.
 pub fn compile(
@@ -273,4 +284,20 @@ pub fn load_profile(spec: &str) -> Result<Profile, String> {
     let text = std::fs::read_to_string(spec)
         .map_err(|e| format!("error: cannot read profile {spec}: {e}\n"))?;
     Profile::from_toml(spec, &text).map_err(|e| format!("error: {e}\n"))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn a_failed_verification_exits_with_1_and_other_errors_with_2() {
+        assert_eq!(DriverError::NotEquivalent("x".into()).exit_code(), 1);
+        let too_few = CompileError::TooFewIons {
+            needed: 3,
+            ions: 2,
+            device: "d".into(),
+        };
+        assert_eq!(DriverError::Compile(too_few).exit_code(), 2);
+    }
 }

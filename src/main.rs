@@ -140,13 +140,26 @@ fn main() -> ExitCode {
     let cli = Cli::parse();
     match run(cli) {
         Ok(code) => code,
-        Err(message) => {
+        Err(Failure { message, code }) => {
             eprint!("{message}");
             if !message.ends_with('\n') {
                 eprintln!();
             }
-            ExitCode::from(2)
+            ExitCode::from(code)
         }
+    }
+}
+
+/// A rendered error and the exit code it calls for.
+struct Failure {
+    message: String,
+    code: u8,
+}
+
+impl From<String> for Failure {
+    /// Plain errors are usage or input errors: exit code 2.
+    fn from(message: String) -> Failure {
+        Failure { message, code: 2 }
     }
 }
 
@@ -166,7 +179,7 @@ fn read(path: &Path, limits: &Limits) -> Result<tutti::circuit::Circuit, String>
     }
 }
 
-fn run(cli: Cli) -> Result<ExitCode, String> {
+fn run(cli: Cli) -> Result<ExitCode, Failure> {
     match cli.command {
         Command::Inspect { file, json, limits } => {
             let circuit = read(&file, &limits.limits())?;
@@ -292,7 +305,7 @@ fn compile_one(
     target: Target,
     verify: bool,
     limits: &Limits,
-) -> Result<(tutti::circuit::Circuit, driver::Compiled), String> {
+) -> Result<(tutti::circuit::Circuit, driver::Compiled), Failure> {
     let circuit = read(file, limits)?;
     let profile = driver::load_profile(device)?;
     let cfg = CompileConfig {
@@ -300,7 +313,9 @@ fn compile_one(
         verify,
         ..CompileConfig::default()
     };
-    let compiled = driver::compile(&circuit, &profile, &cfg)
-        .map_err(|e| format!("error: {}: {e}\n", file.display()))?;
+    let compiled = driver::compile(&circuit, &profile, &cfg).map_err(|e| Failure {
+        message: format!("error: {}: {e}\n", file.display()),
+        code: e.exit_code(),
+    })?;
     Ok((circuit, compiled))
 }

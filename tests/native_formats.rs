@@ -269,3 +269,25 @@ fn the_demo_profile_labels_every_number_as_an_example() {
         }
     }
 }
+
+proptest! {
+    #![proptest_config(ProptestConfig { cases: 300, ..ProptestConfig::default() })]
+
+    #[test]
+    fn the_sequence_readers_never_panic(bytes in prop::collection::vec(any::<u8>(), 0..300), words in prop::collection::vec(prop::sample::select(vec![
+        "ions", "3", "creg", "c[2]", "rotate", "shift", "ms", "pair-ms", "addressed", "frame", "hide", "unhide",
+        "measure", "->", "reset", "if", "c==1", "pi/2", "-pi", "0", "1", "2", "9", "#", "\n", "x",
+    ]), 0..60)) {
+        let text = String::from_utf8_lossy(&bytes);
+        for t in [text.to_string(), words.join(" ")] {
+            let out = read_pulses("fuzz.pulses", &t);
+            if out.sequence.is_none() {
+                prop_assert!(!out.diagnostics.is_empty());
+                prop_assert!(out.render().contains("fuzz.pulses:"));
+            }
+            let out = read_json("fuzz.json", &t);
+            prop_assert!(out.sequence.is_some() || !out.diagnostics.is_empty());
+            let _ = tutti::native::qasm_out::read_qasm_sequence(&t);
+        }
+    }
+}

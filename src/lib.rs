@@ -11,6 +11,7 @@
 pub mod circuit;
 pub mod compile;
 pub mod driver;
+pub mod memory;
 pub mod native;
 pub mod qasm;
 pub mod report;

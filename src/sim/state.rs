@@ -36,21 +36,7 @@ pub struct StateVector {
 /// time on page-table walks for 4 KiB pages.
 pub fn zeroed_amps(len: usize) -> Vec<C64> {
     let mut v: Vec<C64> = Vec::with_capacity(len);
-    #[cfg(target_os = "linux")]
-    if len * std::mem::size_of::<C64>() >= 4 << 20 {
-        let huge = 2usize << 20;
-        let start = v.as_mut_ptr() as usize;
-        let aligned = start.div_ceil(huge) * huge;
-        let end = start + len * std::mem::size_of::<C64>();
-        if end > aligned + huge {
-            let length = (end - aligned) / huge * huge;
-            // SAFETY: the range lies inside the allocation just made and is aligned; the
-            // advice only changes how the kernel backs the pages.
-            unsafe {
-                libc::madvise(aligned as *mut libc::c_void, length, libc::MADV_HUGEPAGE);
-            }
-        }
-    }
+    crate::memory::advise_huge_pages(&mut v);
     v.resize(len, C64::new(0.0, 0.0));
     v
 }

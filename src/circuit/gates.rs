@@ -320,6 +320,25 @@ fn rccx_matrix() -> DMatrix<C64> {
     total
 }
 
+/// ZYZ Euler angles: `m = e^{i alpha} Rz(beta) Ry(gamma) Rz(delta)`, returned as
+/// `(alpha, beta, gamma, delta)` with `gamma` in `[0, pi]`.
+pub fn zyz(m: &Mat2) -> (f64, f64, f64, f64) {
+    let det = m[0][0] * m[1][1] - m[0][1] * m[1][0];
+    let alpha = det.arg() / 2.0;
+    let ph = C64::from_polar(1.0, -alpha);
+    let (a, b) = (m[0][0] * ph, m[1][0] * ph);
+    // SU(2): [[e^{-i(beta+delta)/2} c, -e^{-i(beta-delta)/2} s], [e^{i(beta-delta)/2} s, e^{i(beta+delta)/2} c]].
+    let gamma = 2.0 * b.norm().atan2(a.norm());
+    let sum = if a.norm() > 1e-12 {
+        -2.0 * a.arg()
+    } else {
+        0.0
+    };
+    let diff = if b.norm() > 1e-12 { 2.0 * b.arg() } else { 0.0 };
+    let (beta, delta) = ((sum + diff) / 2.0, (sum - diff) / 2.0);
+    (alpha, beta, gamma, delta)
+}
+
 /// Embeds a `2^k` matrix acting on `args` into the full `2^n` space.
 /// Cost `O(4^n)`; meant for small `n` (tests and gate definitions).
 pub fn embed(m: &DMatrix<C64>, args: &[usize], n: usize) -> DMatrix<C64> {

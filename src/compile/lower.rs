@@ -10,6 +10,7 @@
 //! - Toffoli as in Nielsen and Chuang, Fig. 4.9 (six CNOTs);
 //! - more controls by Barenco et al., Lemma 7.1 recursion with `V^2 = U`.
 
+pub use crate::circuit::gates::zyz;
 use crate::circuit::{Circuit, Condition, Gate, GateKind, Mat2, Op};
 use num_complex::Complex64 as C64;
 use std::f64::consts::{FRAC_PI_2, FRAC_PI_4, PI};
@@ -73,25 +74,6 @@ fn adjoint(a: &Mat2) -> Mat2 {
         [a[0][0].conj(), a[1][0].conj()],
         [a[0][1].conj(), a[1][1].conj()],
     ]
-}
-
-/// ZYZ Euler angles: `m = e^{i alpha} Rz(beta) Ry(gamma) Rz(delta)`, returned as
-/// `(alpha, beta, gamma, delta)` with `gamma` in `[0, pi]`.
-pub fn zyz(m: &Mat2) -> (f64, f64, f64, f64) {
-    let det = m[0][0] * m[1][1] - m[0][1] * m[1][0];
-    let alpha = det.arg() / 2.0;
-    let ph = C64::from_polar(1.0, -alpha);
-    let (a, b) = (m[0][0] * ph, m[1][0] * ph);
-    // SU(2): [[e^{-i(beta+delta)/2} c, -e^{-i(beta-delta)/2} s], [e^{i(beta-delta)/2} s, e^{i(beta+delta)/2} c]].
-    let gamma = 2.0 * b.norm().atan2(a.norm());
-    let sum = if a.norm() > 1e-12 {
-        -2.0 * a.arg()
-    } else {
-        0.0
-    };
-    let diff = if b.norm() > 1e-12 { 2.0 * b.arg() } else { 0.0 };
-    let (beta, delta) = ((sum + diff) / 2.0, (sum - diff) / 2.0);
-    (alpha, beta, gamma, delta)
 }
 
 /// A square root of a 2x2 unitary: halves the rotation angle and the phase.

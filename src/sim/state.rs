@@ -89,21 +89,10 @@ fn wht4_levels(t: &mut [C64], ha: usize, hb: usize) {
     }
 }
 
-/// Euler angles `m = e^{i a} Rz(z1) Rx(x) Rz(z0)`, returned as `(a, z1, x, z0)`.
+/// Euler angles `m = e^{i a} Rz(z1) Rx(x) Rz(z0)`, returned as `(a, z1, x, z0)`,
+/// from the ZYZ angles and `Ry(g) = Rz(pi/2) Rx(g) Rz(-pi/2)`.
 fn zxz(m: &Mat2) -> (f64, f64, f64, f64) {
-    let det = m[0][0] * m[1][1] - m[0][1] * m[1][0];
-    let alpha = det.arg() / 2.0;
-    let ph = C64::from_polar(1.0, -alpha);
-    // SU(2) part: Rz(beta) Ry(gamma) Rz(delta), and Ry(g) = Rz(pi/2) Rx(g) Rz(-pi/2).
-    let (a, b) = (m[0][0] * ph, m[1][0] * ph);
-    let gamma = 2.0 * b.norm().atan2(a.norm());
-    let sum = if a.norm() > 1e-12 {
-        -2.0 * a.arg()
-    } else {
-        0.0
-    };
-    let diff = if b.norm() > 1e-12 { 2.0 * b.arg() } else { 0.0 };
-    let (beta, delta) = ((sum + diff) / 2.0, (sum - diff) / 2.0);
+    let (alpha, beta, gamma, delta) = crate::circuit::gates::zyz(m);
     let half_pi = std::f64::consts::FRAC_PI_2;
     (alpha, beta + half_pi, gamma, delta - half_pi)
 }

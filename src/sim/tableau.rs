@@ -338,30 +338,13 @@ pub fn fuse_xx_runs(kernels: &[Kernel]) -> Vec<Kernel> {
                     }
                 }
             }
-            Kernel::One { q, m } if run.is_some() => {
+            Kernel::One { m, .. } | Kernel::Collective { m, .. } if run.is_some() => {
                 let r = run.as_mut().expect("checked");
                 match as_pauli(m).and_then(|(p, _)| anticommutes_with_sigma(p, r.phi)) {
                     Some(anti) => {
                         if anti {
-                            if let Some(i) = r.qubits.iter().position(|x| x == q) {
-                                r.signs[i] = -r.signs[i];
-                            }
-                        }
-                        r.paulis.push(k.clone());
-                    }
-                    None => {
-                        flush(&mut run, &mut out);
-                        out.push(k.clone());
-                    }
-                }
-            }
-            Kernel::Collective { m, qubits } if run.is_some() => {
-                let r = run.as_mut().expect("checked");
-                match as_pauli(m).and_then(|(p, _)| anticommutes_with_sigma(p, r.phi)) {
-                    Some(anti) => {
-                        if anti {
-                            for q in qubits {
-                                if let Some(i) = r.qubits.iter().position(|x| x == q) {
+                            for q in k.qubits() {
+                                if let Some(i) = r.qubits.iter().position(|&x| x == q) {
                                     r.signs[i] = -r.signs[i];
                                 }
                             }

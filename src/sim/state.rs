@@ -2,10 +2,10 @@
 //! bit of the basis index.
 //!
 //! Every kernel makes one pass over memory per call, except
-//! [`StateVector::apply_same_to_all`], which applies one 2x2 to many qubits in
-//! `1 + ceil(high / GROUP)` passes: all qubits below [`TILE_BITS`] in one pass over
-//! cache-sized tiles, then the others [`GROUP`] at a time. Large states run in
-//! parallel with rayon.
+//! [`StateVector::apply_same_to_all`], which applies one 2x2 to many qubits as two
+//! Walsh-Hadamard transforms, each in `1 + ceil(high / GROUP)` passes: all qubits
+//! below [`TILE_BITS`] in one pass over cache-sized tiles, then the others [`GROUP`]
+//! at a time. Large states run in parallel with rayon.
 
 use crate::circuit::Mat2;
 use num_complex::Complex64 as C64;
@@ -452,78 +452,11 @@ impl StateVector {
         }
     }
 
-    /// The same 2x2 on every qubit of `qubits` by direct butterflies, in
-    /// `1 + ceil(h / GROUP)` passes where `h` counts the qubits at or above TILE_BITS.
-    /// The reference for [`StateVector::apply_same_to_all`].
+    /// The same 2x2 on every qubit of `qubits`, one pass per qubit: the reference for
+    /// [`StateVector::apply_same_to_all`] and its method for fewer than four qubits.
     pub fn apply_same_to_all_direct(&mut self, qubits: &[usize], m: &Mat2) {
-        let mut sorted = qubits.to_vec();
-        sorted.sort_unstable();
-        let tile = TILE_BITS.min(self.n);
-        let (low, high): (Vec<usize>, Vec<usize>) = sorted.iter().partition(|&&q| q < tile);
-        if !low.is_empty() {
-            let tile_len = 1usize << tile;
-            let body = |t: &mut [C64]| {
-                for &q in &low {
-                    mat2_serial(t, q, m);
-                }
-            };
-            if self.amps.len() < PAR_LEN {
-                self.amps.chunks_mut(tile_len).for_each(body);
-            } else {
-                self.amps.par_chunks_mut(tile_len).for_each(body);
-            }
-        }
-        for group in high.chunks(GROUP) {
-            self.apply_product_pass(group, m);
-        }
-    }
-
-    /// One pass applying `m` to each qubit of `group` (ascending, at most GROUP).
-    fn apply_product_pass(&mut self, group: &[usize], m: &Mat2) {
-        let k = group.len();
-        let offsets: Vec<usize> = (0..1usize << k)
-            .map(|s| {
-                (0..k)
-                    .filter(|&j| s >> j & 1 == 1)
-                    .map(|j| 1usize << group[j])
-                    .sum()
-            })
-            .collect();
-        let outer = self.amps.len() >> k;
-        let ptr = SharedPtr(self.amps.as_mut_ptr());
-        let body = move |c: usize| {
-            let p = ptr;
-            let base = insert_zeros(c, group);
-            let mut buf = [C64::new(0.0, 0.0); 1 << GROUP];
-            // SAFETY: distinct `c` give disjoint index sets `base + offsets[s]`, all in range.
-            unsafe {
-                for s in 0..1usize << k {
-                    buf[s] = *p.0.add(base + offsets[s]);
-                }
-            }
-            for j in 0..k {
-                let half = 1usize << j;
-                for s in 0..1usize << k {
-                    if s & half == 0 {
-                        let (x, y) = (buf[s], buf[s | half]);
-                        buf[s] = m[0][0] * x + m[0][1] * y;
-                        buf[s | half] = m[1][0] * x + m[1][1] * y;
-                    }
-                }
-            }
-            unsafe {
-                for s in 0..1usize << k {
-                    *p.0.add(base + offsets[s]) = buf[s];
-                }
-            }
-        };
-        if self.amps.len() < PAR_LEN {
-            (0..outer).for_each(body);
-        } else {
-            (0..outer)
-                .into_par_iter()
-                .with_min_len(CHUNK)
-                .for_each(body);
+        for &q in qubits {
+            self.apply_mat2(q, m);
         }
     }
 

@@ -65,6 +65,43 @@ fn mat2_serial(block: &mut [C64], q: usize, m: &Mat2) {
     }
 }
 
+/// The diagonal tables of one set of a collective rotation, indexed by the
+/// population count of `index & mask`.
+struct Diagonals {
+    pre: Option<Vec<C64>>,
+    mid: Vec<C64>,
+    post: Option<Vec<C64>>,
+    mask: usize,
+}
+
+/// Unnormalised Hadamard butterflies on the qubits `low` (ascending) of a tile; two
+/// levels per sweep where possible.
+fn hadamard_levels(t: &mut [C64], low: &[usize]) {
+    for pair in low.chunks(2) {
+        if pair == [0, 1] {
+            for c in t.chunks_exact_mut(4) {
+                let (a, b, cc, d) = (c[0] + c[1], c[0] - c[1], c[2] + c[3], c[2] - c[3]);
+                c[0] = a + cc;
+                c[1] = b + d;
+                c[2] = a - cc;
+                c[3] = b - d;
+            }
+        } else if let [a, b] = *pair {
+            wht4_levels(t, 1usize << a, 1usize << b);
+        } else {
+            let half = 1usize << pair[0];
+            for block in t.chunks_exact_mut(2 * half) {
+                let (lo, hi) = block.split_at_mut(half);
+                for (x, y) in lo.iter_mut().zip(hi.iter_mut()) {
+                    let (u, v) = (*x, *y);
+                    *x = u + v;
+                    *y = u - v;
+                }
+            }
+        }
+    }
+}
+
 /// Hadamard butterflies (unnormalised) of the two levels with strides `ha < hb` in one
 /// sweep over `t`: a 4-point transform on each `i, i+ha, i+hb, i+ha+hb`.
 fn wht4_levels(t: &mut [C64], ha: usize, hb: usize) {
@@ -264,12 +301,12 @@ impl StateVector {
     /// The same 2x2 on every qubit of `qubits` (a collective rotation).
     ///
     /// With Euler angles `m = e^{ia} Rz(z1) Rx(x) Rz(z0)` and `Rx(x) = H Rz(x) H`, the
-    /// product over the qubits is `D(z1) W D(x) W D(z0)` times a phase, where `W` is the
-    /// Walsh-Hadamard transform on those qubits (butterflies of additions only) and each
-    /// `D` is diagonal with a phase set by the population count. The diagonals are
-    /// fused into the transform passes, so the cost is `2 (1 + ceil(h / GROUP))`
-    /// passes of additions, `h` the qubits at or above TILE_BITS, instead of `n`
-    /// complex 2x2 butterflies per amplitude.
+    /// product over any set of qubits is `D(z1) W D(x) W D(z0)` times a phase, where
+    /// `W` is the Walsh-Hadamard transform on the set (butterflies of additions only)
+    /// and each `D` is diagonal with a phase set by the population count within the
+    /// set. The qubits are cut into sets that one pass can hold in cache (those below
+    /// TILE_BITS, then GROUP at a time) and each set gets the whole product in one
+    /// pass: `1 + ceil(h / GROUP)` passes, `h` the qubits at or above TILE_BITS.
     pub fn apply_same_to_all(&mut self, qubits: &[usize], m: &Mat2) {
         if qubits.len() < 4 {
             return self.apply_same_to_all_direct(qubits, m);
@@ -277,136 +314,105 @@ impl StateVector {
         let (alpha, z1, x, z0) = zxz(m);
         let mut sorted = qubits.to_vec();
         sorted.sort_unstable();
-        let count = sorted.len();
-        let mask: usize = sorted.iter().map(|q| 1usize << q).sum();
-        // exp(-i t/2 Z) on each qubit: phase e^{i t/2 (2k - count)} for popcount k.
-        let table = |t: f64, extra: C64| -> Vec<C64> {
-            (0..=count)
-                .map(|k| extra * C64::from_polar(1.0, t / 2.0 * (2.0 * k as f64 - count as f64)))
-                .collect()
-        };
-        let scale = C64::new(0.5f64.powi(count as i32), 0.0);
-        let global = C64::from_polar(1.0, alpha * count as f64);
-        let d0 = table(z0, C64::new(1.0, 0.0));
-        let d1 = table(x, scale);
-        let d2 = table(z1, global);
-        self.walsh_hadamard(&sorted, mask, Some(&d0), &d1);
-        self.walsh_hadamard(&sorted, mask, None, &d2);
-    }
-
-    /// Unnormalised Walsh-Hadamard transform on `sorted` qubits, multiplying each
-    /// amplitude by `pre[popcount]` before and `post[popcount]` after.
-    fn walsh_hadamard(&mut self, sorted: &[usize], mask: usize, pre: Option<&[C64]>, post: &[C64]) {
         let tile = TILE_BITS.min(self.n);
         let (low, high): (Vec<usize>, Vec<usize>) = sorted.iter().partition(|&&q| q < tile);
-        let groups: Vec<&[usize]> = high.chunks(GROUP).collect();
-        let n_passes = usize::from(!low.is_empty()) + groups.len();
-        let mut pass = 0;
+        let mut sets: Vec<&[usize]> = Vec::new();
         if !low.is_empty() {
-            let tile_len = 1usize << tile;
-            let last = n_passes == 1;
-            // Population counts of the masked low bits, shared by every tile.
-            let tile_pop: Vec<u8> = (0..tile_len)
-                .map(|k| (k & mask).count_ones() as u8)
-                .collect();
-            let body = |(ti, t): (usize, &mut [C64])| {
-                let base = ti * tile_len;
-                let base_pop = (base & mask).count_ones() as usize;
-                if let Some(pre) = pre {
-                    for (a, &lp) in t.iter_mut().zip(&tile_pop) {
-                        *a *= pre[base_pop + lp as usize];
-                    }
-                }
-                // Two levels per sweep (4-point transforms) halve the passes over the tile.
-                for pair in low.chunks(2) {
-                    if pair == [0, 1] {
-                        for c in t.chunks_exact_mut(4) {
-                            let (a, b, cc, d) =
-                                (c[0] + c[1], c[0] - c[1], c[2] + c[3], c[2] - c[3]);
-                            c[0] = a + cc;
-                            c[1] = b + d;
-                            c[2] = a - cc;
-                            c[3] = b - d;
-                        }
-                    } else if let [a, b] = *pair {
-                        wht4_levels(t, 1usize << a, 1usize << b);
-                    } else {
-                        let half = 1usize << pair[0];
-                        for block in t.chunks_exact_mut(2 * half) {
-                            let (lo, hi) = block.split_at_mut(half);
-                            for (x, y) in lo.iter_mut().zip(hi.iter_mut()) {
-                                let (u, v) = (*x, *y);
-                                *x = u + v;
-                                *y = u - v;
-                            }
-                        }
-                    }
-                }
-                if last {
-                    for (a, &lp) in t.iter_mut().zip(&tile_pop) {
-                        *a *= post[base_pop + lp as usize];
-                    }
-                }
-            };
-            if self.amps.len() < PAR_LEN {
-                self.amps.chunks_mut(tile_len).enumerate().for_each(body);
-            } else {
-                self.amps
-                    .par_chunks_mut(tile_len)
-                    .enumerate()
-                    .for_each(body);
-            }
-            pass += 1;
+            sets.push(&low);
         }
-        for group in groups {
-            let first = pass == 0;
-            pass += 1;
-            let last = pass == n_passes;
-            self.hadamard_group_pass(
-                group,
+        sets.extend(high.chunks(GROUP));
+        for (i, set) in sets.into_iter().enumerate() {
+            let count = set.len();
+            let mask: usize = set.iter().map(|q| 1usize << q).sum();
+            // exp(-i t/2 Z) on each qubit of the set: e^{i t/2 (2k - count)} for popcount k.
+            let table = |t: f64, extra: C64| -> Vec<C64> {
+                (0..=count)
+                    .map(|k| {
+                        extra * C64::from_polar(1.0, t / 2.0 * (2.0 * k as f64 - count as f64))
+                    })
+                    .collect()
+            };
+            let global = if i == 0 {
+                C64::from_polar(1.0, alpha * qubits.len() as f64)
+            } else {
+                C64::new(1.0, 0.0)
+            };
+            let tables = Diagonals {
+                pre: (z0.abs() > 1e-15).then(|| table(z0, C64::new(1.0, 0.0))),
+                mid: table(x, global * 0.5f64.powi(count as i32)),
+                post: (z1.abs() > 1e-15).then(|| table(z1, C64::new(1.0, 0.0))),
                 mask,
-                if first { pre } else { None },
-                if last { Some(post) } else { None },
-            );
+            };
+            if set.first().is_some_and(|&q| q < tile) {
+                self.rotate_low_set(set, &tables);
+            } else {
+                self.rotate_high_set(set, &tables);
+            }
         }
     }
 
-    /// One pass of Hadamard butterflies (unnormalised) on `group` (ascending, at most
-    /// GROUP qubits, all at or above TILE_BITS), with optional diagonal tables before
-    /// and after. The `2^k` rows of a block are contiguous runs of [`ROW`] amplitudes,
-    /// so each butterfly level is a vectorisable add and subtract of two runs.
-    fn hadamard_group_pass(
-        &mut self,
-        group: &[usize],
-        mask: usize,
-        pre: Option<&[C64]>,
-        post: Option<&[C64]>,
-    ) {
-        let k = group.len();
+    /// `D(z1) W D(x) W D(z0)` on the qubits of `set`, all below TILE_BITS, one tile at
+    /// a time.
+    fn rotate_low_set(&mut self, set: &[usize], d: &Diagonals) {
+        let tile_len = 1usize << TILE_BITS.min(self.n);
+        // Population counts of the masked low bits, shared by every tile.
+        let tile_pop: Vec<u8> = (0..tile_len)
+            .map(|k| (k & d.mask).count_ones() as u8)
+            .collect();
+        let body = |(ti, t): (usize, &mut [C64])| {
+            let base_pop = ((ti * tile_len) & d.mask).count_ones() as usize;
+            let diag = |t: &mut [C64], table: &[C64]| {
+                for (a, &lp) in t.iter_mut().zip(&tile_pop) {
+                    *a *= table[base_pop + lp as usize];
+                }
+            };
+            if let Some(pre) = &d.pre {
+                diag(t, pre);
+            }
+            hadamard_levels(t, set);
+            diag(t, &d.mid);
+            hadamard_levels(t, set);
+            if let Some(post) = &d.post {
+                diag(t, post);
+            }
+        };
+        if self.amps.len() < PAR_LEN {
+            self.amps.chunks_mut(tile_len).enumerate().for_each(body);
+        } else {
+            self.amps
+                .par_chunks_mut(tile_len)
+                .enumerate()
+                .for_each(body);
+        }
+    }
+
+    /// `D(z1) W D(x) W D(z0)` on `set` (ascending, at most GROUP qubits, all at or
+    /// above TILE_BITS). The `2^k` rows of a block are runs of [`ROW`] amplitudes that
+    /// lie powers of two apart; in place they would compete for the same cache sets,
+    /// so each block is copied into a contiguous buffer, transformed there and copied
+    /// back, which reads and writes every row in one burst.
+    fn rotate_high_set(&mut self, set: &[usize], d: &Diagonals) {
+        let k = set.len();
         let rows = 1usize << k;
         let offsets: Vec<usize> = (0..rows)
             .map(|s| {
                 (0..k)
                     .filter(|&j| s >> j & 1 == 1)
-                    .map(|j| 1usize << group[j])
+                    .map(|j| 1usize << set[j])
                     .sum()
             })
             .collect();
-        let run = ROW.min(1usize << group[0]);
+        let run = ROW.min(1usize << set[0]);
         let blocks = (self.amps.len() >> k) / run;
-        let run_pop: Vec<u8> = (0..run).map(|i| (i & mask).count_ones() as u8).collect();
-        let run_pop = &run_pop;
+        let run_pop: Vec<u8> = (0..run).map(|i| (i & d.mask).count_ones() as u8).collect();
+        let (run_pop, offsets) = (&run_pop, &offsets);
         let ptr = SharedPtr(self.amps.as_mut_ptr());
-        let offsets = &offsets;
-        // The rows lie powers of two apart, so in place they would compete for the same
-        // cache sets; each block is copied into a contiguous buffer, transformed there
-        // and copied back, which reads and writes every row in one burst.
         let body = move |buf: &mut Vec<C64>, t: usize| {
             let p = ptr;
-            let base = insert_zeros(t * run, group);
+            let base = insert_zeros(t * run, set);
             // SAFETY: the runs `base + offsets[s] .. + run` of distinct `t` and `s` are
-            // disjoint and in range: `run` divides `2^group[0]`, so a run never crosses a
-            // bit of the group.
+            // disjoint and in range: `run` divides `2^set[0]`, so a run never crosses a
+            // bit of the set.
             for s in 0..rows {
                 let src = unsafe { std::slice::from_raw_parts(p.0.add(base + offsets[s]), run) };
                 buf[s * run..(s + 1) * run].copy_from_slice(src);
@@ -414,27 +420,32 @@ impl StateVector {
             // A run starts on a multiple of `run`, so `start + i = start | i` inside it.
             let diag = |buf: &mut [C64], table: &[C64]| {
                 for s in 0..rows {
-                    let start_pop = ((base + offsets[s]) & mask).count_ones() as usize;
+                    let start_pop = ((base + offsets[s]) & d.mask).count_ones() as usize;
                     for (a, &lp) in buf[s * run..(s + 1) * run].iter_mut().zip(run_pop.iter()) {
                         *a *= table[start_pop + lp as usize];
                     }
                 }
             };
-            if let Some(pre) = pre {
-                diag(buf, pre);
-            }
-            for j in 0..k {
-                let half = (1usize << j) * run;
-                for block in buf.chunks_exact_mut(2 * half) {
-                    let (lo, hi) = block.split_at_mut(half);
-                    for (a, b) in lo.iter_mut().zip(hi.iter_mut()) {
-                        let (x, y) = (*a, *b);
-                        *a = x + y;
-                        *b = x - y;
+            let levels = |buf: &mut [C64]| {
+                for j in 0..k {
+                    let half = (1usize << j) * run;
+                    for block in buf.chunks_exact_mut(2 * half) {
+                        let (lo, hi) = block.split_at_mut(half);
+                        for (a, b) in lo.iter_mut().zip(hi.iter_mut()) {
+                            let (x, y) = (*a, *b);
+                            *a = x + y;
+                            *b = x - y;
+                        }
                     }
                 }
+            };
+            if let Some(pre) = &d.pre {
+                diag(buf, pre);
             }
-            if let Some(post) = post {
+            levels(buf);
+            diag(buf, &d.mid);
+            levels(buf);
+            if let Some(post) = &d.post {
                 diag(buf, post);
             }
             for s in 0..rows {

@@ -56,6 +56,7 @@ enum Command {
     /// Read an OpenQASM 2 file and show what it contains: qubits, bits, operations by
     /// gate, two-qubit gates and depth.
     Inspect {
+        /// The OpenQASM 2 file to read.
         file: PathBuf,
         /// Print one JSON object instead of a table.
         #[arg(long)]
@@ -66,6 +67,7 @@ enum Command {
     /// Compile an OpenQASM 2 circuit to a pulse sequence, verify it against the
     /// input and print its budget.
     Compile {
+        /// The OpenQASM 2 circuit to compile.
         file: PathBuf,
         /// Where to write the sequence (never the input); stdout when absent.
         #[arg(short, long)]
@@ -91,6 +93,7 @@ enum Command {
     },
     /// Print what a circuit will cost on a device, without running anything.
     Budget {
+        /// The OpenQASM 2 circuit to budget.
         file: PathBuf,
         #[arg(long, default_value = "demo")]
         device: String,
@@ -107,7 +110,9 @@ enum Command {
     /// Decide whether two programs are the same unitary up to global phase (exit 0
     /// equivalent, 1 not equivalent, 2 error).
     Check {
+        /// First program: OpenQASM 2, or a sequence tutti wrote (pulse list, JSON, QASM).
         a: PathBuf,
+        /// Second program, in any of the same formats.
         b: PathBuf,
         /// How to compare: exact unitaries, random states, stabilizer tableaux, or
         /// chosen by size and Clifford-ness.

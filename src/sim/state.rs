@@ -2,10 +2,10 @@
 //! bit of the basis index.
 //!
 //! Every kernel makes one pass over memory per call, except
-//! [`StateVector::apply_same_to_all`], which applies one 2x2 to many qubits as two
-//! Walsh-Hadamard transforms, each in `1 + ceil(high / GROUP)` passes: all qubits
-//! below [`TILE_BITS`] in one pass over cache-sized tiles, then the others [`GROUP`]
-//! at a time. Large states run in parallel with rayon.
+//! [`StateVector::apply_same_to_all`], which applies one 2x2 to many qubits in
+//! `1 + ceil(high / GROUP)` passes: all qubits below [`TILE_BITS`] in one pass over
+//! cache-sized tiles, then the others [`GROUP`] at a time. Large states run in
+//! parallel with rayon.
 
 use crate::circuit::Mat2;
 use num_complex::Complex64 as C64;
@@ -69,59 +69,37 @@ fn mat2_serial(block: &mut [C64], q: usize, m: &Mat2) {
 /// population count of `index & mask`.
 struct Diagonals {
     pre: Option<Vec<C64>>,
-    mid: Vec<C64>,
+    /// `cos(x/2)` and `sin(x/2)` of the `Rx(x)` applied to every qubit of the set.
+    rx: (f64, f64),
     post: Option<Vec<C64>>,
     mask: usize,
 }
 
-/// Unnormalised Hadamard butterflies on the qubits `low` (ascending) of a tile; two
-/// levels per sweep where possible.
-fn hadamard_levels(t: &mut [C64], low: &[usize]) {
-    for pair in low.chunks(2) {
-        if pair == [0, 1] {
-            for c in t.chunks_exact_mut(4) {
-                let (a, b, cc, d) = (c[0] + c[1], c[0] - c[1], c[2] + c[3], c[2] - c[3]);
-                c[0] = a + cc;
-                c[1] = b + d;
-                c[2] = a - cc;
-                c[3] = b - d;
-            }
-        } else if let [a, b] = *pair {
-            wht4_levels(t, 1usize << a, 1usize << b);
-        } else {
-            let half = 1usize << pair[0];
-            for block in t.chunks_exact_mut(2 * half) {
-                let (lo, hi) = block.split_at_mut(half);
-                for (x, y) in lo.iter_mut().zip(hi.iter_mut()) {
-                    let (u, v) = (*x, *y);
-                    *x = u + v;
-                    *y = u - v;
-                }
-            }
-        }
+/// `Rx(x) = [[c, -i s], [-i s, c]]` on the pairs `(lo[k], hi[k])`, in real arithmetic.
+#[inline(always)]
+fn rx_butterfly(lo: &mut [C64], hi: &mut [C64], c: f64, s: f64) {
+    for (a, b) in lo.iter_mut().zip(hi.iter_mut()) {
+        let (x, y) = (*a, *b);
+        *a = C64::new(c * x.re + s * y.im, c * x.im - s * y.re);
+        *b = C64::new(s * x.im + c * y.re, c * y.im - s * x.re);
     }
 }
 
-/// Hadamard butterflies (unnormalised) of the two levels with strides `ha < hb` in one
-/// sweep over `t`: a 4-point transform on each `i, i+ha, i+hb, i+ha+hb`.
-fn wht4_levels(t: &mut [C64], ha: usize, hb: usize) {
-    for block in t.chunks_exact_mut(2 * hb) {
-        let (lo, hi) = block.split_at_mut(hb);
-        for (l, h) in lo.chunks_exact_mut(2 * ha).zip(hi.chunks_exact_mut(2 * ha)) {
-            let (l0, l1) = l.split_at_mut(ha);
-            let (h0, h1) = h.split_at_mut(ha);
-            for (((a, b), c), d) in l0
-                .iter_mut()
-                .zip(l1.iter_mut())
-                .zip(h0.iter_mut())
-                .zip(h1.iter_mut())
-            {
-                let (p, q, r, s) = (*a + *b, *a - *b, *c + *d, *c - *d);
-                *a = p + r;
-                *b = q + s;
-                *c = p - r;
-                *d = q - s;
+/// `Rx` on the qubits `low` (ascending) of a tile, one sweep per qubit.
+fn rx_levels(t: &mut [C64], low: &[usize], c: f64, s: f64) {
+    for &q in low {
+        let half = 1usize << q;
+        if half == 1 {
+            for pair in t.chunks_exact_mut(2) {
+                let (x, y) = (pair[0], pair[1]);
+                pair[0] = C64::new(c * x.re + s * y.im, c * x.im - s * y.re);
+                pair[1] = C64::new(s * x.im + c * y.re, c * y.im - s * x.re);
             }
+            continue;
+        }
+        for block in t.chunks_exact_mut(2 * half) {
+            let (lo, hi) = block.split_at_mut(half);
+            rx_butterfly(lo, hi, c, s);
         }
     }
 }
@@ -300,13 +278,13 @@ impl StateVector {
 
     /// The same 2x2 on every qubit of `qubits` (a collective rotation).
     ///
-    /// With Euler angles `m = e^{ia} Rz(z1) Rx(x) Rz(z0)` and `Rx(x) = H Rz(x) H`, the
-    /// product over any set of qubits is `D(z1) W D(x) W D(z0)` times a phase, where
-    /// `W` is the Walsh-Hadamard transform on the set (butterflies of additions only)
-    /// and each `D` is diagonal with a phase set by the population count within the
-    /// set. The qubits are cut into sets that one pass can hold in cache (those below
-    /// TILE_BITS, then GROUP at a time) and each set gets the whole product in one
-    /// pass: `1 + ceil(h / GROUP)` passes, `h` the qubits at or above TILE_BITS.
+    /// With Euler angles `m = e^{ia} Rz(z1) Rx(x) Rz(z0)`, the product over any set of
+    /// qubits is `D(z1) Rx(x)^{(x)set} D(z0)` times a phase, where each `D` is diagonal
+    /// with a phase set by the population count within the set and `Rx` takes a
+    /// real-arithmetic butterfly. The qubits are cut into sets that one pass can hold
+    /// in cache (those below TILE_BITS, then GROUP at a time) and each set gets the
+    /// whole product in one pass: `1 + ceil(h / GROUP)` passes, `h` the qubits at or
+    /// above TILE_BITS.
     pub fn apply_same_to_all(&mut self, qubits: &[usize], m: &Mat2) {
         if qubits.len() < 4 {
             return self.apply_same_to_all_direct(qubits, m);
@@ -337,10 +315,16 @@ impl StateVector {
             } else {
                 C64::new(1.0, 0.0)
             };
+            let (sx, cx) = (x / 2.0).sin_cos();
+            let post = if z1.abs() > 1e-15 || global != C64::new(1.0, 0.0) {
+                Some(table(z1, global))
+            } else {
+                None
+            };
             let tables = Diagonals {
                 pre: (z0.abs() > 1e-15).then(|| table(z0, C64::new(1.0, 0.0))),
-                mid: table(x, global * 0.5f64.powi(count as i32)),
-                post: (z1.abs() > 1e-15).then(|| table(z1, C64::new(1.0, 0.0))),
+                rx: (cx, sx),
+                post,
                 mask,
             };
             if set.first().is_some_and(|&q| q < tile) {
@@ -351,8 +335,7 @@ impl StateVector {
         }
     }
 
-    /// `D(z1) W D(x) W D(z0)` on the qubits of `set`, all below TILE_BITS, one tile at
-    /// a time.
+    /// `D(z1) Rx D(z0)` on the qubits of `set`, all below TILE_BITS, one tile at a time.
     fn rotate_low_set(&mut self, set: &[usize], d: &Diagonals) {
         let tile_len = 1usize << TILE_BITS.min(self.n);
         // Population counts of the masked low bits, shared by every tile.
@@ -369,9 +352,7 @@ impl StateVector {
             if let Some(pre) = &d.pre {
                 diag(t, pre);
             }
-            hadamard_levels(t, set);
-            diag(t, &d.mid);
-            hadamard_levels(t, set);
+            rx_levels(t, set, d.rx.0, d.rx.1);
             if let Some(post) = &d.post {
                 diag(t, post);
             }
@@ -386,7 +367,7 @@ impl StateVector {
         }
     }
 
-    /// `D(z1) W D(x) W D(z0)` on `set` (ascending, at most GROUP qubits, all at or
+    /// `D(z1) Rx D(z0)` on `set` (ascending, at most GROUP qubits, all at or
     /// above TILE_BITS). The `2^k` rows of a block are runs of [`ROW`] amplitudes that
     /// lie powers of two apart; in place they would compete for the same cache sets,
     /// so each block is copied into a contiguous buffer, transformed there and copied
@@ -426,25 +407,16 @@ impl StateVector {
                     }
                 }
             };
-            let levels = |buf: &mut [C64]| {
-                for j in 0..k {
-                    let half = (1usize << j) * run;
-                    for block in buf.chunks_exact_mut(2 * half) {
-                        let (lo, hi) = block.split_at_mut(half);
-                        for (a, b) in lo.iter_mut().zip(hi.iter_mut()) {
-                            let (x, y) = (*a, *b);
-                            *a = x + y;
-                            *b = x - y;
-                        }
-                    }
-                }
-            };
             if let Some(pre) = &d.pre {
                 diag(buf, pre);
             }
-            levels(buf);
-            diag(buf, &d.mid);
-            levels(buf);
+            for j in 0..k {
+                let half = (1usize << j) * run;
+                for block in buf.chunks_exact_mut(2 * half) {
+                    let (lo, hi) = block.split_at_mut(half);
+                    rx_butterfly(lo, hi, d.rx.0, d.rx.1);
+                }
+            }
             if let Some(post) = &d.post {
                 diag(buf, post);
             }

@@ -113,6 +113,7 @@ pub fn read_with(name: &str, text: &str, limits: &Limits, loader: &dyn Loader) -
         library: false,
         include_stack: Vec::new(),
         stopped: false,
+        last_reg: None,
     };
     let file = sources.add(name, text);
     // About one operation per 16 bytes of program text; reserving up front saves
@@ -155,6 +156,8 @@ struct Elaborator<'l> {
     library: bool,
     /// The files being read, outermost first: (name as shown, canonical name).
     include_stack: Vec<(PathBuf, PathBuf)>,
+    /// The register named last, with its kind.
+    last_reg: Option<(CompactString, RegKind)>,
     /// Set when a limit was hit: nothing more is elaborated.
     stopped: bool,
 }
@@ -180,7 +183,7 @@ impl<'l> Elaborator<'l> {
             return;
         }
         let diags = parse_each(file, &text, is_main, |stmt| {
-            self.statement(&stmt, file, sources);
+            self.statement(stmt, file, sources);
             !self.stopped
         });
         self.diags.extend(diags);
@@ -372,8 +375,11 @@ impl<'l> Elaborator<'l> {
     }
 
     fn lookup_gate(&self, name: &str) -> Option<GateRef> {
-        if let Some(&i) = self.gates.get(name) {
-            return Some(GateRef::Defined(i));
+        // Most files define no gates of their own: skip hashing the name then.
+        if !self.gates.is_empty() {
+            if let Some(&i) = self.gates.get(name) {
+                return Some(GateRef::Defined(i));
+            }
         }
         match GateKind::from_name(name) {
             Some(k @ (GateKind::BuiltinU | GateKind::BuiltinCx)) => Some(GateRef::Library(k)),
@@ -666,9 +672,24 @@ impl<'l> Elaborator<'l> {
 
     /// Resolves one argument to the global indices it names (one, or a whole register).
     fn resolve_arg(&mut self, arg: &Arg, quantum: bool) -> Option<Bits> {
-        let reg = match self.regs.get(&arg.reg.name) {
-            Some((RegKind::Quantum(i), _)) if quantum => &self.circuit.qregs[*i],
-            Some((RegKind::Classical(i), _)) if !quantum => &self.circuit.cregs[*i],
+        // Consecutive operations mostly name the same register: try the last one first.
+        let cached = match &self.last_reg {
+            Some((name, kind)) if *name == arg.reg.name => Some(*kind),
+            _ => None,
+        };
+        let found = match cached {
+            Some(kind) => Some(kind),
+            None => {
+                let kind = self.regs.get(&arg.reg.name).map(|(k, _)| *k);
+                if let Some(k) = kind {
+                    self.last_reg = Some((arg.reg.name.clone(), k));
+                }
+                kind
+            }
+        };
+        let reg = match found {
+            Some(RegKind::Quantum(i)) if quantum => &self.circuit.qregs[i],
+            Some(RegKind::Classical(i)) if !quantum => &self.circuit.cregs[i],
             Some(_) => {
                 let (is, want, decl) = if quantum {
                     ("classical", "qubits", "qreg")

@@ -33,6 +33,8 @@ struct Parser<'a> {
     /// Set when a `;` was missing before a token on a new line: parsing resumes at
     /// that token instead of skipping the next statement.
     resume_here: bool,
+    /// The box of the last gate call, handed back after the statement was used.
+    spare: Option<Box<GateCall>>,
 }
 
 type PResult<T> = Result<T, ()>;
@@ -42,7 +44,7 @@ type PResult<T> = Result<T, ()>;
 pub fn parse(file: FileId, text: &str, is_main: bool) -> (Program, Vec<Diagnostic>) {
     let mut stmts = Vec::new();
     let diags = parse_each(file, text, is_main, |s| {
-        stmts.push(s);
+        stmts.push(s.clone());
         true
     });
     (Program { stmts }, diags)
@@ -55,7 +57,7 @@ pub fn parse_each(
     file: FileId,
     text: &str,
     is_main: bool,
-    on_stmt: impl FnMut(Stmt) -> bool,
+    on_stmt: impl FnMut(&Stmt) -> bool,
 ) -> Vec<Diagnostic> {
     let mut lexer = Token::lexer(text);
     let first = next_token(&mut lexer, text.len());
@@ -70,6 +72,7 @@ pub fn parse_each(
         depth: 0,
         expr_ops: 0,
         resume_here: false,
+        spare: None,
     };
     p.program(is_main, on_stmt);
     p.diags
@@ -188,7 +191,11 @@ impl<'a> Parser<'a> {
         if self.peek() == Token::Int {
             let text = self.slice();
             let span = self.span();
-            return match text.parse::<u64>() {
+            // The lexer guarantees ASCII digits; only overflow can fail.
+            let value = text.bytes().try_fold(0u64, |acc, d| {
+                acc.checked_mul(10)?.checked_add(u64::from(d - b'0'))
+            });
+            return match value.ok_or(()) {
                 Ok(v) => {
                     self.bump();
                     Ok((v, span))
@@ -231,7 +238,7 @@ impl<'a> Parser<'a> {
         }
     }
 
-    fn program(&mut self, is_main: bool, mut on_stmt: impl FnMut(Stmt) -> bool) {
+    fn program(&mut self, is_main: bool, mut on_stmt: impl FnMut(&Stmt) -> bool) {
         let mut n_stmts = 0usize;
         if is_main && self.peek() != Token::OpenQasm {
             let at = Span::new(self.file, 0..0);
@@ -250,7 +257,11 @@ impl<'a> Parser<'a> {
             match self.statement(n_stmts == 0) {
                 Ok(s) => {
                     n_stmts += 1;
-                    if !on_stmt(s) {
+                    let go_on = on_stmt(&s);
+                    if let Stmt::QOp(QOp::Call(call)) = s {
+                        self.spare = Some(call);
+                    }
+                    if !go_on {
                         return;
                     }
                 }
@@ -441,12 +452,22 @@ impl<'a> Parser<'a> {
     fn gate_call(&mut self) -> PResult<Box<GateCall>> {
         let name = self.ident("a gate name")?;
         let span = name.span;
-        let mut call = Box::new(GateCall {
-            name,
-            params: smallvec::SmallVec::new(),
-            args: ArgList::new(),
-            span,
-        });
+        // The box of the previous call is reused: one allocation per file, not per call.
+        let mut call = match self.spare.take() {
+            Some(mut b) => {
+                b.name = name;
+                b.params.clear();
+                b.args.clear();
+                b.span = span;
+                b
+            }
+            None => Box::new(GateCall {
+                name,
+                params: smallvec::SmallVec::new(),
+                args: ArgList::new(),
+                span,
+            }),
+        };
         if self.peek() == Token::LParen {
             self.bump();
             if self.peek() != Token::RParen {

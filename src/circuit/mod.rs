@@ -152,13 +152,6 @@ impl Circuit {
         c
     }
 
-    /// True when the circuit has no measurement, reset, condition or opaque gate.
-    pub fn is_unitary(&self) -> bool {
-        self.instrs
-            .iter()
-            .all(|i| i.condition.is_none() && matches!(i.op, Op::Gate { .. } | Op::Barrier { .. }))
-    }
-
     /// Counts per gate name, total operations and depth (each operation occupies
     /// its qubits, its clbit, and for a condition every clbit of the register; barriers
     /// take no time). Cost linear in the number of operations.

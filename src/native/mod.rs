@@ -18,7 +18,7 @@ pub mod profile;
 pub mod qasm_out;
 pub mod text;
 
-use crate::circuit::{Clbit, Condition, Register};
+use crate::circuit::{Condition, Register};
 
 /// One native operation.
 #[derive(Debug, Clone, Copy, PartialEq, serde::Serialize, serde::Deserialize)]
@@ -106,10 +106,5 @@ impl Sequence {
 
     pub fn n_clbits(&self) -> u32 {
         self.cregs.iter().map(|r| r.size).sum()
-    }
-
-    /// The classical bit a measurement writes.
-    pub fn clbit(&self, index: u32) -> Clbit {
-        Clbit(index)
     }
 }

@@ -1,6 +1,6 @@
 //! Applying kernels and programs to statevectors, and building small unitaries.
 
-use super::program::{Item, Kernel, Program};
+use super::program::Kernel;
 use super::state::StateVector;
 use crate::circuit::Mat2;
 use nalgebra::DMatrix;
@@ -100,17 +100,6 @@ pub fn apply_kernel(s: &mut StateVector, k: &Kernel) {
             }
         }
         Kernel::Dense { qubits, m } => s.apply_dense(qubits, m),
-    }
-}
-
-/// Applies the unitary kernels of a program; panics on non-unitary items (check
-/// [`Program::is_unitary`] first).
-pub fn run_unitary(p: &Program, s: &mut StateVector) {
-    for item in &p.items {
-        match item {
-            Item::Unitary(k) => apply_kernel(s, k),
-            other => panic!("run_unitary on a non-unitary item {other:?}"),
-        }
     }
 }
 

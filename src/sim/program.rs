@@ -270,11 +270,6 @@ impl Program {
         Program { n_qubits: n, items }
     }
 
-    /// True when every item is unitary.
-    pub fn is_unitary(&self) -> bool {
-        self.items.iter().all(|i| matches!(i, Item::Unitary(_)))
-    }
-
     /// The unitary kernels, for a program without measurement, reset or condition.
     pub fn kernels(&self) -> impl Iterator<Item = &Kernel> {
         self.items.iter().filter_map(|i| match i {

@@ -169,10 +169,6 @@ impl StateVector {
         }
     }
 
-    pub fn norm_sqr(&self) -> f64 {
-        self.amps.iter().map(|a| a.norm_sqr()).sum()
-    }
-
     /// Any 2x2 on one qubit. One pass.
     pub fn apply_mat2(&mut self, q: usize, m: &Mat2) {
         let half = 1usize << q;
@@ -490,20 +486,6 @@ impl StateVector {
                 .with_min_len(CHUNK / dim.max(1))
                 .for_each(body);
         }
-    }
-
-    /// Projects qubit `q` onto `|outcome>` without normalising; returns the probability.
-    pub fn project(&mut self, q: usize, outcome: bool) -> f64 {
-        let bit = 1usize << q;
-        let mut p = 0.0;
-        for (i, a) in self.amps.iter_mut().enumerate() {
-            if ((i & bit) != 0) == outcome {
-                p += a.norm_sqr();
-            } else {
-                *a = C64::new(0.0, 0.0);
-            }
-        }
-        p
     }
 
     /// A plain copy of the amplitudes into `dst`, the bandwidth reference of the

@@ -79,10 +79,17 @@ struct Diagonals {
 #[inline(always)]
 fn rx_butterfly(lo: &mut [C64], hi: &mut [C64], c: f64, s: f64) {
     for (a, b) in lo.iter_mut().zip(hi.iter_mut()) {
-        let (x, y) = (*a, *b);
-        *a = C64::new(c * x.re + s * y.im, c * x.im - s * y.re);
-        *b = C64::new(s * x.im + c * y.re, c * y.im - s * x.re);
+        (*a, *b) = rx_pair(*a, *b, c, s);
     }
+}
+
+/// `Rx` on the pair `(x, y)`, in real arithmetic.
+#[inline(always)]
+fn rx_pair(x: C64, y: C64, c: f64, s: f64) -> (C64, C64) {
+    (
+        C64::new(c * x.re + s * y.im, c * x.im - s * y.re),
+        C64::new(s * x.im + c * y.re, c * y.im - s * x.re),
+    )
 }
 
 /// `Rx` on the qubits `low` (ascending) of a tile, one sweep per qubit.
@@ -91,9 +98,7 @@ fn rx_levels(t: &mut [C64], low: &[usize], c: f64, s: f64) {
         let half = 1usize << q;
         if half == 1 {
             for pair in t.chunks_exact_mut(2) {
-                let (x, y) = (pair[0], pair[1]);
-                pair[0] = C64::new(c * x.re + s * y.im, c * x.im - s * y.re);
-                pair[1] = C64::new(s * x.im + c * y.re, c * y.im - s * x.re);
+                (pair[0], pair[1]) = rx_pair(pair[0], pair[1], c, s);
             }
             continue;
         }
@@ -334,32 +339,32 @@ impl StateVector {
     /// `D(z1) Rx D(z0)` on the qubits of `set`, all below TILE_BITS, one tile at a time.
     fn rotate_low_set(&mut self, set: &[usize], d: &Diagonals) {
         let tile_len = 1usize << TILE_BITS.min(self.n);
-        // Population counts of the masked low bits, shared by every tile.
-        let tile_pop: Vec<u8> = (0..tile_len)
-            .map(|k| (k & d.mask).count_ones() as u8)
-            .collect();
-        let body = |(ti, t): (usize, &mut [C64])| {
-            let base_pop = ((ti * tile_len) & d.mask).count_ones() as usize;
-            let diag = |t: &mut [C64], table: &[C64]| {
-                for (a, &lp) in t.iter_mut().zip(&tile_pop) {
-                    *a *= table[base_pop + lp as usize];
+        // The set lies inside a tile, so the diagonals depend on the index within the
+        // tile only: expand them once into factors shared by every tile.
+        let expand = |table: &Vec<C64>| -> Vec<C64> {
+            (0..tile_len)
+                .map(|k| table[(k & d.mask).count_ones() as usize])
+                .collect()
+        };
+        let (pre, post) = (d.pre.as_ref().map(expand), d.post.as_ref().map(expand));
+        let body = |t: &mut [C64]| {
+            let diag = |t: &mut [C64], factors: &[C64]| {
+                for (a, f) in t.iter_mut().zip(factors) {
+                    *a *= *f;
                 }
             };
-            if let Some(pre) = &d.pre {
+            if let Some(pre) = &pre {
                 diag(t, pre);
             }
             rx_levels(t, set, d.rx.0, d.rx.1);
-            if let Some(post) = &d.post {
+            if let Some(post) = &post {
                 diag(t, post);
             }
         };
         if self.amps.len() < PAR_LEN {
-            self.amps.chunks_mut(tile_len).enumerate().for_each(body);
+            self.amps.chunks_mut(tile_len).for_each(body);
         } else {
-            self.amps
-                .par_chunks_mut(tile_len)
-                .enumerate()
-                .for_each(body);
+            self.amps.par_chunks_mut(tile_len).for_each(body);
         }
     }
 
@@ -381,8 +386,7 @@ impl StateVector {
             .collect();
         let run = ROW.min(1usize << set[0]);
         let blocks = (self.amps.len() >> k) / run;
-        let run_pop: Vec<u8> = (0..run).map(|i| (i & d.mask).count_ones() as u8).collect();
-        let (run_pop, offsets) = (&run_pop, &offsets);
+        let offsets = &offsets;
         let ptr = SharedPtr(self.amps.as_mut_ptr());
         let body = move |buf: &mut Vec<C64>, t: usize| {
             let p = ptr;
@@ -395,11 +399,12 @@ impl StateVector {
                 buf[s * run..(s + 1) * run].copy_from_slice(src);
             }
             // A run starts on a multiple of `run`, so `start + i = start | i` inside it.
+            // The set's bits are all above the run, so a row has one factor.
             let diag = |buf: &mut [C64], table: &[C64]| {
                 for s in 0..rows {
-                    let start_pop = ((base + offsets[s]) & d.mask).count_ones() as usize;
-                    for (a, &lp) in buf[s * run..(s + 1) * run].iter_mut().zip(run_pop.iter()) {
-                        *a *= table[start_pop + lp as usize];
+                    let f = table[((base + offsets[s]) & d.mask).count_ones() as usize];
+                    for a in &mut buf[s * run..(s + 1) * run] {
+                        *a *= f;
                     }
                 }
             };

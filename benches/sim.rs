@@ -40,9 +40,11 @@ fn main() {
         let k = Kernel::Collective { m, qubits: all };
         let t = best_of(3, || apply_kernel(&mut s, &k));
         println!(
-            "sim: n={n} collective rotation on all {n} qubits: {:.2} copy passes (goal at most n/4 + 2 = {:.1})",
+            "sim: n={n} collective rotation on all {n} qubits: {:.1} ms = {:.2} copy passes (goal at most n/4 + 2 = {:.1}); copy {:.1} ms",
+            t * 1e3,
             t / copy,
-            n as f64 / 4.0 + 2.0
+            n as f64 / 4.0 + 2.0,
+            copy * 1e3
         );
         println!("sim: n={n} plain copy {:.2} GB/s; worst single-qubit ratio {worst_ratio:.2} (goal at least 0.6)", gb / copy);
     }

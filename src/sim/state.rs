@@ -427,13 +427,20 @@ impl StateVector {
                 dst.copy_from_slice(&buf[s * run..(s + 1) * run]);
             }
         };
-        let init = || vec![C64::new(0.0, 0.0); rows * run];
-        if self.amps.len() < PAR_LEN {
-            let mut buf = init();
-            (0..blocks).for_each(|t| body(&mut buf, t));
+        // One buffer per job, and a few jobs per thread: rayon's per-split init would
+        // allocate (and the kernel zero) a fresh buffer far too often.
+        let jobs = if self.amps.len() < PAR_LEN {
+            1
         } else {
-            (0..blocks).into_par_iter().for_each_init(init, body);
-        }
+            (rayon::current_num_threads() * 4).min(blocks).max(1)
+        };
+        let per_job = blocks.div_ceil(jobs);
+        (0..jobs).into_par_iter().for_each(|j| {
+            let mut buf = vec![C64::new(0.0, 0.0); rows * run];
+            for t in j * per_job..((j + 1) * per_job).min(blocks) {
+                body(&mut buf, t);
+            }
+        });
     }
 
     /// The same 2x2 on every qubit of `qubits`, one pass per qubit: the reference for

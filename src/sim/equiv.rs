@@ -196,6 +196,8 @@ struct SegResult {
     mode: Mode,
     fidelity: f64,
     phase: Option<f64>,
+    /// Why the segments differ, when a reason is known beyond the fidelity.
+    reason: Option<String>,
 }
 
 /// Compares two programs. See the module documentation for the modes.
@@ -297,11 +299,14 @@ pub fn check(a: &Program, b: &Program, cfg: &CheckConfig) -> Result<Verdict, Che
         verdict.compared_qubits = verdict.compared_qubits.max(r.compared);
         if !r.equal && verdict.equivalent {
             verdict.equivalent = false;
-            verdict.detail = format!(
-                "segment {} differs (fidelity {:.12})",
-                i / 2 + 1,
-                r.fidelity
-            );
+            verdict.detail = match &r.reason {
+                Some(reason) => format!("segment {} differs: {reason}", i / 2 + 1),
+                None => format!(
+                    "segment {} differs (fidelity {:.12})",
+                    i / 2 + 1,
+                    r.fidelity
+                ),
+            };
         }
     }
     if sa.len() == 1
@@ -524,13 +529,16 @@ fn compare(
     } else {
         match reduce(fp, fq, n) {
             Ok(r) => r,
-            Err(_) => {
+            Err(qubit) => {
                 return Ok(SegResult {
                     compared: 1,
                     equal: false,
                     mode: Mode::Unitary,
                     fidelity: 0.0,
                     phase: None,
+                    reason: Some(format!(
+                        "qubit {qubit} takes part in no interaction, yet its own operations differ between the programs"
+                    )),
                 })
             }
         }
@@ -546,6 +554,7 @@ fn compare(
             (Ok(ta), Ok(tb)) => {
                 let equal = ta == tb;
                 return Ok(SegResult {
+                    reason: None,
                     compared: n,
                     equal,
                     mode: Mode::Tableau,
@@ -601,6 +610,7 @@ fn compare(
             }
             let fidelity = (1.0 - worst).max(0.0);
             return Ok(SegResult {
+                reason: None,
                 compared: n,
                 equal: worst < cfg.tolerance.sqrt(),
                 mode: Mode::Unitary,
@@ -611,6 +621,7 @@ fn compare(
         let tr = (ua.adjoint() * &ub).trace() / dim;
         let fidelity = tr.norm_sqr();
         return Ok(SegResult {
+            reason: None,
             compared: n,
             equal: fidelity > 1.0 - cfg.tolerance,
             mode: Mode::Unitary,
@@ -636,6 +647,7 @@ fn compare(
         worst = worst.min(f);
     }
     Ok(SegResult {
+        reason: None,
         compared: n,
         equal: worst > 1.0 - cfg.tolerance,
         mode: Mode::Random,

@@ -295,7 +295,19 @@ proptest! {
 #[test]
 fn a_disturbed_idle_ion_is_named_in_the_verdict() {
     let (original, mut seq) = compiled_on_big_device();
-    seq.push(NativeOp::LightShift { ion: 37, theta: 0.01 });
-    let v = check(&original, &Program::from_sequence(&seq), &CheckConfig::default()).unwrap();
-    assert!(!v.equivalent && v.detail.contains("qubit 37"), "{}", v.detail);
+    seq.push(NativeOp::LightShift {
+        ion: 37,
+        theta: 0.01,
+    });
+    let v = check(
+        &original,
+        &Program::from_sequence(&seq),
+        &CheckConfig::default(),
+    )
+    .unwrap();
+    assert!(
+        !v.equivalent && v.detail.contains("qubit 37"),
+        "{}",
+        v.detail
+    );
 }

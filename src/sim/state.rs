@@ -78,8 +78,39 @@ struct Diagonals {
 /// `Rx(x) = [[c, -i s], [-i s, c]]` on the pairs `(lo[k], hi[k])`, in real arithmetic.
 #[inline(always)]
 fn rx_butterfly(lo: &mut [C64], hi: &mut [C64], c: f64, s: f64) {
+    #[cfg(target_arch = "x86_64")]
+    if std::arch::is_x86_feature_detected!("avx2") && std::arch::is_x86_feature_detected!("fma") {
+        // SAFETY: the CPU has the features the function is compiled for.
+        unsafe { rx_butterfly_avx2(lo, hi, c, s) };
+        return;
+    }
     for (a, b) in lo.iter_mut().zip(hi.iter_mut()) {
         (*a, *b) = rx_pair(*a, *b, c, s);
+    }
+}
+
+/// [`rx_butterfly`] two pairs at a time in 256-bit registers: with `swap` exchanging
+/// the real and imaginary parts, `a' = c a + (s, -s) swap(b)` and
+/// `b' = c b + (s, -s) swap(a)`.
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx2,fma")]
+unsafe fn rx_butterfly_avx2(lo: &mut [C64], hi: &mut [C64], c: f64, s: f64) {
+    use std::arch::x86_64::*;
+    let n = lo.len().min(hi.len());
+    let (pl, ph) = (lo.as_mut_ptr() as *mut f64, hi.as_mut_ptr() as *mut f64);
+    let vc = _mm256_set1_pd(c);
+    let vs = _mm256_setr_pd(s, -s, s, -s);
+    for k in 0..n / 2 {
+        // SAFETY: `4k + 3 < 2n` doubles lie inside each slice (C64 is two f64).
+        let a = _mm256_loadu_pd(pl.add(4 * k));
+        let b = _mm256_loadu_pd(ph.add(4 * k));
+        let na = _mm256_fmadd_pd(vc, a, _mm256_mul_pd(vs, _mm256_permute_pd(b, 0b0101)));
+        let nb = _mm256_fmadd_pd(vc, b, _mm256_mul_pd(vs, _mm256_permute_pd(a, 0b0101)));
+        _mm256_storeu_pd(pl.add(4 * k), na);
+        _mm256_storeu_pd(ph.add(4 * k), nb);
+    }
+    if n % 2 == 1 {
+        (lo[n - 1], hi[n - 1]) = rx_pair(lo[n - 1], hi[n - 1], c, s);
     }
 }
 
@@ -97,15 +128,89 @@ fn rx_levels(t: &mut [C64], low: &[usize], c: f64, s: f64) {
     for &q in low {
         let half = 1usize << q;
         if half == 1 {
-            for pair in t.chunks_exact_mut(2) {
-                (pair[0], pair[1]) = rx_pair(pair[0], pair[1], c, s);
-            }
+            rx_adjacent(t, c, s);
             continue;
         }
         for block in t.chunks_exact_mut(2 * half) {
             let (lo, hi) = block.split_at_mut(half);
             rx_butterfly(lo, hi, c, s);
         }
+    }
+}
+
+/// `Rx` on qubit 0: the pairs are adjacent amplitudes.
+fn rx_adjacent(t: &mut [C64], c: f64, s: f64) {
+    #[cfg(target_arch = "x86_64")]
+    if std::arch::is_x86_feature_detected!("avx2") && std::arch::is_x86_feature_detected!("fma") {
+        // SAFETY: the CPU has the features the function is compiled for.
+        unsafe { rx_adjacent_avx2(t, c, s) };
+        return;
+    }
+    for pair in t.chunks_exact_mut(2) {
+        (pair[0], pair[1]) = rx_pair(pair[0], pair[1], c, s);
+    }
+}
+
+/// [`rx_adjacent`] with one pair per 256-bit register `[x, y]`: the new value is
+/// `c [x, y] + (s, -s, s, -s) swap([y, x])`.
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx2,fma")]
+unsafe fn rx_adjacent_avx2(t: &mut [C64], c: f64, s: f64) {
+    use std::arch::x86_64::*;
+    let p = t.as_mut_ptr() as *mut f64;
+    let vc = _mm256_set1_pd(c);
+    let vs = _mm256_setr_pd(s, -s, s, -s);
+    for k in 0..t.len() / 2 {
+        // SAFETY: pair `k` is the doubles `4k .. 4k + 4`, inside the slice.
+        let v = _mm256_loadu_pd(p.add(4 * k));
+        let crossed = _mm256_permute_pd(_mm256_permute2f128_pd(v, v, 1), 0b0101);
+        _mm256_storeu_pd(
+            p.add(4 * k),
+            _mm256_fmadd_pd(vc, v, _mm256_mul_pd(vs, crossed)),
+        );
+    }
+}
+
+/// Multiplies `t[k]` by `f[k]` (or by `f[0]` for all `k` when `f` has one entry).
+fn scale(t: &mut [C64], f: &[C64]) {
+    #[cfg(target_arch = "x86_64")]
+    if std::arch::is_x86_feature_detected!("avx2") && std::arch::is_x86_feature_detected!("fma") {
+        // SAFETY: the CPU has the features the function is compiled for.
+        unsafe { scale_avx2(t, f) };
+        return;
+    }
+    if f.len() == 1 {
+        t.iter_mut().for_each(|a| *a *= f[0]);
+    } else {
+        t.iter_mut().zip(f).for_each(|(a, g)| *a *= *g);
+    }
+}
+
+/// [`scale`] two amplitudes per register: `a f = fmaddsub(a, re(f), swap(a) im(f))`.
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx2,fma")]
+unsafe fn scale_avx2(t: &mut [C64], f: &[C64]) {
+    use std::arch::x86_64::*;
+    let n = t.len();
+    let p = t.as_mut_ptr() as *mut f64;
+    let q = f.as_ptr() as *const f64;
+    let one = f.len() == 1;
+    let (fre1, fim1) = (_mm256_set1_pd(f[0].re), _mm256_set1_pd(f[0].im));
+    for k in 0..n / 2 {
+        // SAFETY: amplitudes `2k, 2k + 1` are inside `t`, and inside `f` unless `f` has
+        // one entry.
+        let a = _mm256_loadu_pd(p.add(4 * k));
+        let (fre, fim) = if one {
+            (fre1, fim1)
+        } else {
+            let g = _mm256_loadu_pd(q.add(4 * k));
+            (_mm256_movedup_pd(g), _mm256_permute_pd(g, 0b1111))
+        };
+        let r = _mm256_fmaddsub_pd(a, fre, _mm256_mul_pd(_mm256_permute_pd(a, 0b0101), fim));
+        _mm256_storeu_pd(p.add(4 * k), r);
+    }
+    if n % 2 == 1 {
+        t[n - 1] *= if one { f[0] } else { f[n - 1] };
     }
 }
 
@@ -348,11 +453,7 @@ impl StateVector {
         };
         let (pre, post) = (d.pre.as_ref().map(expand), d.post.as_ref().map(expand));
         let body = |t: &mut [C64]| {
-            let diag = |t: &mut [C64], factors: &[C64]| {
-                for (a, f) in t.iter_mut().zip(factors) {
-                    *a *= *f;
-                }
-            };
+            let diag = |t: &mut [C64], factors: &[C64]| scale(t, factors);
             if let Some(pre) = &pre {
                 diag(t, pre);
             }
@@ -403,9 +504,7 @@ impl StateVector {
             let diag = |buf: &mut [C64], table: &[C64]| {
                 for s in 0..rows {
                     let f = table[((base + offsets[s]) & d.mask).count_ones() as usize];
-                    for a in &mut buf[s * run..(s + 1) * run] {
-                        *a *= f;
-                    }
+                    scale(&mut buf[s * run..(s + 1) * run], &[f]);
                 }
             };
             if let Some(pre) = &d.pre {

@@ -611,3 +611,62 @@ impl StateVector {
         }
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn sample(n: usize, seed: f64) -> Vec<C64> {
+        (0..n)
+            .map(|k| {
+                C64::new(
+                    (k as f64 * 0.37 + seed).sin(),
+                    (k as f64 * 0.91 - seed).cos(),
+                )
+            })
+            .collect()
+    }
+
+    /// The vector kernels against the plain loops they replace (odd lengths too).
+    #[cfg(target_arch = "x86_64")]
+    #[test]
+    fn vector_kernels_match_the_plain_loops() {
+        if !(std::arch::is_x86_feature_detected!("avx2")
+            && std::arch::is_x86_feature_detected!("fma"))
+        {
+            return;
+        }
+        let (c, s) = (0.3f64.cos(), 0.3f64.sin());
+        for n in [1usize, 2, 7, 64] {
+            let (mut lo, mut hi) = (sample(n, 0.1), sample(n, 0.7));
+            let (mut lo2, mut hi2) = (lo.clone(), hi.clone());
+            unsafe { rx_butterfly_avx2(&mut lo, &mut hi, c, s) };
+            for (a, b) in lo2.iter_mut().zip(hi2.iter_mut()) {
+                (*a, *b) = rx_pair(*a, *b, c, s);
+            }
+            assert!(lo
+                .iter()
+                .zip(&lo2)
+                .chain(hi.iter().zip(&hi2))
+                .all(|(x, y)| (x - y).norm() < 1e-14));
+
+            let mut t = sample(2 * n, 0.3);
+            let mut t2 = t.clone();
+            unsafe { rx_adjacent_avx2(&mut t, c, s) };
+            for pair in t2.chunks_exact_mut(2) {
+                (pair[0], pair[1]) = rx_pair(pair[0], pair[1], c, s);
+            }
+            assert!(t.iter().zip(&t2).all(|(x, y)| (x - y).norm() < 1e-14));
+
+            let f = sample(n, 1.9);
+            let (mut u, mut v) = (sample(n, 2.3), sample(n, 2.3));
+            unsafe { scale_avx2(&mut u, &f) };
+            v.iter_mut().zip(&f).for_each(|(a, g)| *a *= *g);
+            assert!(u.iter().zip(&v).all(|(x, y)| (x - y).norm() < 1e-14));
+            let (mut u, mut v) = (sample(n, 2.3), sample(n, 2.3));
+            unsafe { scale_avx2(&mut u, &f[..1]) };
+            v.iter_mut().for_each(|a| *a *= f[0]);
+            assert!(u.iter().zip(&v).all(|(x, y)| (x - y).norm() < 1e-14));
+        }
+    }
+}

@@ -588,7 +588,7 @@ impl StateVector {
             }
             // In the buffer, row `s` starts at `s * run`: the set's qubits sit at bits
             // `log2(run) + j`, so the tile routine applies.
-            rx_levels(buf, &buffer_bits, d.rx.0, d.rx.1);
+            rx_levels(buf, buffer_bits, d.rx.0, d.rx.1);
             if let Some(post) = &d.post {
                 diag(buf, post);
             }

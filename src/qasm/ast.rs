@@ -78,7 +78,19 @@ pub struct Expr {
 pub struct Arg {
     pub reg: Ident,
     pub index: Option<(u64, Span)>,
-    pub span: Span,
+}
+
+impl Arg {
+    /// From the register name to the closing `]` (taken to follow the index).
+    pub fn span(&self) -> Span {
+        match self.index {
+            Some((_, s)) => self.reg.span.to(Span {
+                end: s.end + 1,
+                ..s
+            }),
+            None => self.reg.span,
+        }
+    }
 }
 
 /// A gate call: `name(params) args;` (also `U` and `CX`).

@@ -559,7 +559,7 @@ impl<'l> Elaborator<'l> {
                         self.diags.push(
                             Diagnostic::error(
                                 "repeated-qubit",
-                                a.span,
+                                a.span(),
                                 format!("qubit `{}` is used twice in one gate", a.reg.name),
                             )
                             .hint("a gate acts on distinct qubits"),
@@ -773,7 +773,7 @@ impl<'l> Elaborator<'l> {
                     self.diags.push(
                         Diagnostic::error(
                             "register-size-mismatch",
-                            a.span,
+                            a.span(),
                             format!(
                                 "register `{}` has {} bits but `{}` has {n}",
                                 a.reg.name, l_len, first.reg.name

@@ -494,14 +494,13 @@ impl<'a> Parser<'a> {
 
     fn arg(&mut self) -> PResult<Arg> {
         let reg = self.ident("a register or argument name")?;
-        let mut span = reg.span;
         let mut index = None;
         if self.peek() == Token::LBracket {
             self.bump();
             index = Some(self.integer("an index")?);
-            span = span.to(self.expect(Token::RBracket, "close the index with `]`")?);
+            self.expect(Token::RBracket, "close the index with `]`")?;
         }
-        Ok(Arg { reg, index, span })
+        Ok(Arg { reg, index })
     }
 
     fn arg_list(&mut self) -> PResult<ArgList> {

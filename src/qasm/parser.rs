@@ -131,10 +131,17 @@ impl<'a> Parser<'a> {
         self.diags.push(d);
     }
 
+    #[inline]
     fn expect(&mut self, tok: Token, hint: &str) -> PResult<Span> {
         if self.peek() == tok {
             return Ok(self.bump());
         }
+        self.expect_failed(tok, hint)
+    }
+
+    /// The error path of [`Parser::expect`], kept out of line.
+    #[cold]
+    fn expect_failed(&mut self, tok: Token, hint: &str) -> PResult<Span> {
         let code = if tok == Token::Semi {
             "missing-semicolon"
         } else {
@@ -162,12 +169,19 @@ impl<'a> Parser<'a> {
         Err(())
     }
 
+    #[inline]
     fn ident(&mut self, what: &str) -> PResult<Ident> {
         if self.peek() == Token::Ident {
             let name = self.slice().into();
             let span = self.bump();
             return Ok(Ident { name, span });
         }
+        self.ident_failed(what)
+    }
+
+    /// The error path of [`Parser::ident`], kept out of line.
+    #[cold]
+    fn ident_failed(&mut self, what: &str) -> PResult<Ident> {
         let keyword = !matches!(
             self.peek(),
             Token::Eof | Token::Error | Token::Int | Token::Real | Token::Str

@@ -220,11 +220,7 @@ fn run(cli: Cli) -> Result<ExitCode, Failure> {
                 Some(path) => driver::write_atomic(path, &text, &file, force)?,
                 None => print!("{text}"),
             }
-            let compiler = if baseline {
-                "baseline"
-            } else {
-                "baseline (the optimizer is not built yet)"
-            };
+            let compiler = compiler_name(baseline);
             eprintln!(
                 "compiled {} for {device} ({target:?} target, {compiler})",
                 file.display()
@@ -247,16 +243,19 @@ fn run(cli: Cli) -> Result<ExitCode, Failure> {
             json,
             limits,
         } => {
-            let _ = baseline;
             let limits = limits.limits();
             let (_, compiled) = compile_one(&file, &device, target, false, &limits)?;
+            let compiler = compiler_name(baseline);
             if json {
                 println!(
                     "{}",
                     serde_json::to_string_pretty(&compiled.budget).map_err(|e| e.to_string())?
                 );
             } else {
-                println!("{} on {device} ({target:?} target)", file.display());
+                println!(
+                    "{} on {device} ({target:?} target, {compiler})",
+                    file.display()
+                );
                 print!("{}", tutti::report::budget_table(&compiled.budget));
             }
             Ok(ExitCode::SUCCESS)
@@ -301,6 +300,15 @@ fn run(cli: Cli) -> Result<ExitCode, Failure> {
                 ExitCode::from(1)
             })
         }
+    }
+}
+
+/// Which compiler ran: today always the baseline, which `--baseline` asks for.
+fn compiler_name(baseline: bool) -> &'static str {
+    if baseline {
+        "baseline"
+    } else {
+        "baseline (the optimizer is not built yet)"
     }
 }
 

@@ -7,7 +7,7 @@
 
 use super::{NativeOp, Sequence, Step};
 use crate::circuit::{format_real, Condition, Register};
-use crate::qasm::diag::{Diagnostic, FileId, SourceMap, Span};
+use crate::qasm::diag::{Diagnostic, SourceMap, Span};
 use std::f64::consts::PI;
 use std::fmt::Write;
 
@@ -163,7 +163,6 @@ pub fn read_pulses(name: &str, text: &str) -> SeqOutcome {
             .hint("start the list with a line `ions N`"),
         );
     }
-    let _ = FileId(0);
     let ok = diags.is_empty();
     SeqOutcome {
         sequence: ok.then_some(seq),

@@ -183,16 +183,16 @@ impl<'l> Elaborator<'l> {
             return;
         }
         let diags = parse_each(file, &text, is_main, |stmt| {
-            self.statement(stmt, file, sources);
+            self.statement(stmt, sources);
             !self.stopped
         });
         self.diags.extend(diags);
     }
 
-    fn statement(&mut self, stmt: &Stmt, file: FileId, sources: &mut SourceMap) {
+    fn statement(&mut self, stmt: &Stmt, sources: &mut SourceMap) {
         match stmt {
             Stmt::Version { .. } => {}
-            Stmt::Include { path, span } => self.include(path, *span, file, sources),
+            Stmt::Include { path, span } => self.include(path, *span, sources),
             Stmt::Qreg { name, size, .. } => self.declare(name, *size, true),
             Stmt::Creg { name, size, .. } => self.declare(name, *size, false),
             Stmt::Gate(def) => self.define(def),
@@ -212,10 +212,7 @@ impl<'l> Elaborator<'l> {
                 }
             }
             Stmt::If {
-                creg,
-                value,
-                op,
-                span,
+                creg, value, op, ..
             } => {
                 let Some(index) = self.creg(creg) else { return };
                 let size = self.circuit.cregs[index].size;
@@ -233,7 +230,6 @@ impl<'l> Elaborator<'l> {
                     );
                     return;
                 }
-                let _ = span;
                 self.qop(
                     op,
                     Some(Condition {
@@ -245,7 +241,7 @@ impl<'l> Elaborator<'l> {
         }
     }
 
-    fn include(&mut self, path: &str, span: Span, file: FileId, sources: &mut SourceMap) {
+    fn include(&mut self, path: &str, span: Span, sources: &mut SourceMap) {
         if path == "qelib1.inc" {
             self.library = true;
             return;
@@ -297,7 +293,6 @@ impl<'l> Elaborator<'l> {
                     .hint("paths resolve relative to the including file; the standard library is `qelib1.inc`"),
             ),
         }
-        let _ = file;
     }
 
     fn include_chain(&self) -> String {
@@ -309,8 +304,7 @@ impl<'l> Elaborator<'l> {
     }
 
     fn declare(&mut self, name: &Ident, size: (u64, Span), quantum: bool) {
-        if let Some((_, prev)) = self.regs.get(&name.name) {
-            let _ = prev;
+        if self.regs.contains_key(&name.name) {
             self.diags.push(
                 Diagnostic::error(
                     "duplicate-register",

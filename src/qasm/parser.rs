@@ -157,6 +157,15 @@ impl<'a> Parser<'a> {
             };
             let gap = &self.text[prev.end as usize..self.cur.1.start];
             self.resume_here = gap.contains('\n');
+            // A name right after an argument on the same line is most often a missing comma.
+            let hint = if !self.resume_here
+                && self.peek() == Token::Ident
+                && self.prev.0 == Token::RBracket
+            {
+                "separate arguments with `,`, or end the statement with `;`"
+            } else {
+                hint
+            };
             self.diags.push(
                 Diagnostic::error(code, at, format!("expected `;`, found {}", self.found()))
                     .label("`;` expected here")

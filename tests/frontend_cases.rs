@@ -5,31 +5,9 @@
 
 mod common;
 
+use common::limits_for;
 use std::path::Path;
-use tutti::qasm::{elaborate, FsLoader, Limits};
-
-fn limits_for(text: &str) -> Limits {
-    let mut limits = Limits::default();
-    if let Some(rest) = text
-        .lines()
-        .next()
-        .and_then(|l| l.strip_prefix("// limits:"))
-    {
-        for kv in rest.split_whitespace() {
-            let (k, v) = kv.split_once('=').expect("key=value");
-            let v: usize = v.parse().expect("number");
-            match k {
-                "max_ops" => limits.max_ops = v,
-                "max_file_bytes" => limits.max_file_bytes = v,
-                "max_qubits" => limits.max_qubits = v as u64,
-                "max_include_depth" => limits.max_include_depth = v,
-                "max_gate_nesting" => limits.max_gate_nesting = v,
-                other => panic!("unknown limit {other}"),
-            }
-        }
-    }
-    limits
-}
+use tutti::qasm::{elaborate, FsLoader};
 
 fn run_case(path: &Path) -> (bool, String) {
     let text = std::fs::read_to_string(path).unwrap();

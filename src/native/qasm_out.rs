@@ -195,10 +195,7 @@ pub fn read_qasm_sequence(text: &str) -> Option<Sequence> {
             Stmt::If {
                 creg, value, op, ..
             } => {
-                let i = seq
-                    .cregs
-                    .iter()
-                    .position(|r| r.name == creg.name.as_str())?;
+                let i = seq.cregs.iter().position(|r| r.name == creg.name)?;
                 (
                     &**op,
                     Some(Condition {
@@ -213,7 +210,7 @@ pub fn read_qasm_sequence(text: &str) -> Option<Sequence> {
         let ion = |a: &Arg| -> Option<u32> { a.index.map(|(i, _)| i as u32) };
         let native = match op {
             QOp::Measure { src, dst, .. } => {
-                let reg = seq.cregs.iter().find(|r| r.name == dst.reg.name.as_str())?;
+                let reg = seq.cregs.iter().find(|r| r.name == dst.reg.name)?;
                 NativeOp::Measure {
                     ion: ion(src)?,
                     clbit: reg.offset + dst.index?.0 as u32,
@@ -222,7 +219,7 @@ pub fn read_qasm_sequence(text: &str) -> Option<Sequence> {
             QOp::Reset { arg, .. } => NativeOp::Reset { ion: ion(arg)? },
             QOp::Call(call) => {
                 let p: Vec<f64> = call.params.iter().map(|e| eval(e, &[], &[])).collect();
-                let name = call.name.name.as_str();
+                let name = call.name.name;
                 let args: Option<Vec<u32>> = call.args.iter().map(ion).collect();
                 if name.starts_with("chain_rot_") || name.starts_with("chain_ms_") {
                     let visible: Vec<u32> =

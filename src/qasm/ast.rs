@@ -1,16 +1,18 @@
 //! The syntax tree of one OpenQASM 2 file: plain values with spans, no meaning
 //! attached (names are not resolved here).
+//!
+//! Invariant: the tree borrows every name from the source text (`'a`), so reading a
+//! statement copies no string; whoever keeps a part beyond the text owns a copy.
 
 use super::diag::Span;
-use compact_str::CompactString;
 use smallvec::SmallVec;
 
 /// Arguments of one call; most calls have at most three, kept without allocation.
-pub type ArgList = SmallVec<[Arg; 3]>;
+pub type ArgList<'a> = SmallVec<[Arg<'a>; 3]>;
 
-#[derive(Debug, Clone, PartialEq)]
-pub struct Ident {
-    pub name: CompactString,
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Ident<'a> {
+    pub name: &'a str,
     pub span: Span,
 }
 
@@ -21,6 +23,18 @@ pub enum BinOp {
     Mul,
     Div,
     Pow,
+}
+
+impl BinOp {
+    pub fn apply(self, x: f64, y: f64) -> f64 {
+        match self {
+            BinOp::Add => x + y,
+            BinOp::Sub => x - y,
+            BinOp::Mul => x * y,
+            BinOp::Div => x / y,
+            BinOp::Pow => x.powf(y),
+        }
+    }
 }
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -58,29 +72,29 @@ impl Func {
 }
 
 #[derive(Debug, Clone, PartialEq)]
-pub enum ExprKind {
+pub enum ExprKind<'a> {
     Number(f64),
     Pi,
-    Param(CompactString),
-    Neg(Box<Expr>),
-    Binary(BinOp, Box<Expr>, Box<Expr>),
-    Call(Func, Box<Expr>),
+    Param(&'a str),
+    Neg(Box<Expr<'a>>),
+    Binary(BinOp, Box<Expr<'a>>, Box<Expr<'a>>),
+    Call(Func, Box<Expr<'a>>),
 }
 
 #[derive(Debug, Clone, PartialEq)]
-pub struct Expr {
-    pub kind: ExprKind,
+pub struct Expr<'a> {
+    pub kind: ExprKind<'a>,
     pub span: Span,
 }
 
 /// A quantum or classical argument: a whole register `q` or one bit `q[3]`.
 #[derive(Debug, Clone, PartialEq)]
-pub struct Arg {
-    pub reg: Ident,
+pub struct Arg<'a> {
+    pub reg: Ident<'a>,
     pub index: Option<(u64, Span)>,
 }
 
-impl Arg {
+impl Arg<'_> {
     /// From the register name to the closing `]` (taken to follow the index).
     pub fn span(&self) -> Span {
         match self.index {
@@ -95,82 +109,99 @@ impl Arg {
 
 /// A gate call: `name(params) args;` (also `U` and `CX`).
 #[derive(Debug, Clone, PartialEq)]
-pub struct GateCall {
-    pub name: Ident,
-    pub params: SmallVec<[Expr; 3]>,
-    pub args: ArgList,
+pub struct GateCall<'a> {
+    pub name: Ident<'a>,
+    pub params: SmallVec<[Expr<'a>; 3]>,
+    pub args: ArgList<'a>,
     pub span: Span,
 }
 
 /// Operations allowed after `if(...)` and at top level.
 #[derive(Debug, Clone, PartialEq)]
-pub enum QOp {
-    Call(Box<GateCall>),
+pub enum QOp<'a> {
+    Call(Box<GateCall<'a>>),
     /// Boxed: a measurement is rarer than a gate call and would double the size of
     /// every operation.
     Measure {
-        src: Box<Arg>,
-        dst: Box<Arg>,
+        src: Box<Arg<'a>>,
+        dst: Box<Arg<'a>>,
         span: Span,
     },
     Reset {
-        arg: Arg,
+        arg: Arg<'a>,
         span: Span,
     },
 }
 
 /// A statement inside a gate body.
 #[derive(Debug, Clone, PartialEq)]
-pub enum BodyStmt {
-    Call(GateCall),
-    Barrier { args: ArgList, span: Span },
+pub enum BodyStmt<'a> {
+    Call(GateCall<'a>),
+    Barrier { args: ArgList<'a>, span: Span },
 }
 
 #[derive(Debug, Clone, PartialEq)]
-pub struct GateDef {
-    pub name: Ident,
-    pub params: Vec<Ident>,
-    pub qargs: Vec<Ident>,
+pub struct GateDef<'a> {
+    pub name: Ident<'a>,
+    pub params: Vec<Ident<'a>>,
+    pub qargs: Vec<Ident<'a>>,
     /// `None` for `opaque`.
-    pub body: Option<Vec<BodyStmt>>,
+    pub body: Option<Vec<BodyStmt<'a>>>,
     pub span: Span,
 }
 
 #[derive(Debug, Clone, PartialEq)]
-pub enum Stmt {
+pub enum Stmt<'a> {
     Version {
-        version: String,
+        version: &'a str,
         span: Span,
     },
     Include {
-        path: String,
+        path: &'a str,
         span: Span,
     },
     Qreg {
-        name: Ident,
+        name: Ident<'a>,
         size: (u64, Span),
         span: Span,
     },
     Creg {
-        name: Ident,
+        name: Ident<'a>,
         size: (u64, Span),
         span: Span,
     },
-    Gate(GateDef),
-    QOp(QOp),
+    Gate(GateDef<'a>),
+    QOp(QOp<'a>),
     Barrier {
-        args: Vec<Arg>,
+        args: Vec<Arg<'a>>,
         span: Span,
     },
     If {
-        creg: Ident,
+        creg: Ident<'a>,
         value: (u64, Span),
-        op: Box<QOp>,
+        op: Box<QOp<'a>>,
         span: Span,
     },
 }
 
+impl Stmt<'_> {
+    /// From the statement's first token to its last.
+    pub fn span(&self) -> Span {
+        match self {
+            Stmt::Version { span, .. }
+            | Stmt::Include { span, .. }
+            | Stmt::Qreg { span, .. }
+            | Stmt::Creg { span, .. }
+            | Stmt::Barrier { span, .. }
+            | Stmt::If { span, .. } => *span,
+            Stmt::Gate(d) => d.span,
+            Stmt::QOp(QOp::Call(c)) => c.span,
+            Stmt::QOp(QOp::Measure { span, .. }) | Stmt::QOp(QOp::Reset { span, .. }) => *span,
+        }
+    }
+}
+
 #[derive(Debug, Clone, PartialEq, Default)]
-pub struct Program {
-    pub stmts: Vec<Stmt>,
+pub struct Program<'a> {
+    pub stmts: Vec<Stmt<'a>>,
 }

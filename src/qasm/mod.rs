@@ -38,6 +38,7 @@ pub fn read_file(path: &Path, limits: &Limits) -> ReadOutcome {
                 circuit: None,
                 diagnostics: vec![d],
                 sources,
+                chunks_ahead: 0,
             };
         }
         _ => {}
@@ -60,6 +61,7 @@ pub fn read_file(path: &Path, limits: &Limits) -> ReadOutcome {
                 circuit: None,
                 diagnostics: vec![d],
                 sources,
+                chunks_ahead: 0,
             }
         }
     }

@@ -8,7 +8,6 @@ use super::ast::*;
 use super::diag::{Diagnostic, FileId, Span};
 use super::lexer::Token;
 use logos::Logos;
-use std::ops::Range;
 
 /// Deepest nesting of parentheses and unary operators in one expression.
 pub const MAX_EXPR_DEPTH: usize = 128;
@@ -17,11 +16,82 @@ pub const MAX_EXPR_DEPTH: usize = 128;
 /// evaluation recurse without bound).
 pub const MAX_EXPR_OPS: usize = 1024;
 
-struct Parser<'a> {
+/// One token and its byte range, packed (offsets fit in `u32`, as in [`Span`]).
+#[derive(Clone, Copy)]
+struct Tok {
+    kind: Token,
+    start: u32,
+    end: u32,
+}
+
+/// Tokens are lexed ahead in batches of this many: the lexer then runs in a tight
+/// loop of its own and the parser reads plain values from a small buffer.
+const BATCH: usize = 512;
+
+/// The lexer behind a buffer of tokens read ahead.
+struct TokenStream<'a> {
     lexer: logos::Lexer<'a, Token>,
+    buf: Vec<Tok>,
+    at: usize,
+    len: u32,
+}
+
+impl<'a> TokenStream<'a> {
+    /// Lexes `text` from byte `offset`, which must be a character boundary.
+    fn new(text: &'a str, offset: usize) -> TokenStream<'a> {
+        let mut lexer = Token::lexer(text);
+        lexer.bump(offset);
+        TokenStream {
+            lexer,
+            buf: Vec::with_capacity(BATCH),
+            at: 0,
+            len: text.len() as u32,
+        }
+    }
+
+    #[inline]
+    fn next(&mut self) -> Tok {
+        if self.at == self.buf.len() {
+            self.refill();
+        }
+        let t = self.buf[self.at];
+        self.at += 1;
+        t
+    }
+
+    /// Lexes the next batch; at the end of the text the batch ends with `Eof`.
+    #[inline(never)]
+    fn refill(&mut self) {
+        self.buf.clear();
+        self.at = 0;
+        while self.buf.len() < BATCH {
+            match self.lexer.next() {
+                Some(tok) => {
+                    let r = self.lexer.span();
+                    self.buf.push(Tok {
+                        kind: tok.unwrap_or(Token::Error),
+                        start: r.start as u32,
+                        end: r.end as u32,
+                    });
+                }
+                None => {
+                    self.buf.push(Tok {
+                        kind: Token::Eof,
+                        start: self.len,
+                        end: self.len,
+                    });
+                    return;
+                }
+            }
+        }
+    }
+}
+
+struct Parser<'a> {
+    tokens: TokenStream<'a>,
     /// The current token and the one before it.
-    cur: (Token, Range<usize>),
-    prev: (Token, Range<usize>),
+    cur: Tok,
+    prev: Tok,
     /// Tokens consumed so far; tells whether a rule made progress.
     pos: usize,
     text: &'a str,
@@ -33,15 +103,21 @@ struct Parser<'a> {
     /// Set when a `;` was missing before a token on a new line: parsing resumes at
     /// that token instead of skipping the next statement.
     resume_here: bool,
-    /// The box of the last gate call, handed back after the statement was used.
-    spare: Option<Box<GateCall>>,
+    /// Boxes of gate calls handed back after their statements were used. Kept boxed:
+    /// the point is to reuse the allocations the statements carry.
+    #[allow(clippy::vec_box)]
+    spares: Vec<Box<GateCall<'a>>>,
+    /// Statements read so far.
+    n_stmts: usize,
+    /// Whether the last statement read without error.
+    last_ok: bool,
 }
 
 type PResult<T> = Result<T, ()>;
 
 /// Parses one file. `is_main` asks for the `OPENQASM 2.0;` header (its absence is a
 /// warning, since real files often omit it).
-pub fn parse(file: FileId, text: &str, is_main: bool) -> (Program, Vec<Diagnostic>) {
+pub fn parse(file: FileId, text: &str, is_main: bool) -> (Program<'_>, Vec<Diagnostic>) {
     let mut stmts = Vec::new();
     let diags = parse_each(file, text, is_main, |s| {
         stmts.push(s.clone());
@@ -50,63 +126,166 @@ pub fn parse(file: FileId, text: &str, is_main: bool) -> (Program, Vec<Diagnosti
     (Program { stmts }, diags)
 }
 
-/// Parses one file and hands each statement to `on_stmt` as soon as it is read, so
-/// that a large file is never held as a whole tree; `on_stmt` returns false to stop.
-/// Returns the parser's diagnostics.
-pub fn parse_each(
+/// Statements per batch of [`parse_each`]: small enough to stay in cache.
+const STMTS_PER_BATCH: usize = 64;
+
+/// Parses one file and hands each statement to `on_stmt` soon after it is read (in
+/// small batches), so that a large file is never held as a whole tree; `on_stmt`
+/// returns false to stop. Returns the parser's diagnostics of everything before the
+/// statement that stopped (none the reader may have seen beyond it).
+pub fn parse_each<'a>(
     file: FileId,
-    text: &str,
+    text: &'a str,
     is_main: bool,
-    on_stmt: impl FnMut(&Stmt) -> bool,
+    mut on_stmt: impl FnMut(&Stmt<'a>) -> bool,
 ) -> Vec<Diagnostic> {
-    let mut lexer = Token::lexer(text);
-    let first = next_token(&mut lexer, text.len());
-    let mut p = Parser {
-        lexer,
-        cur: first,
-        prev: (Token::Eof, 0..0),
-        pos: 0,
-        text,
-        file,
-        diags: Vec::new(),
-        depth: 0,
-        expr_ops: 0,
-        resume_here: false,
-        spare: None,
-    };
-    p.program(is_main, on_stmt);
-    p.diags
+    let mut reader = StmtReader::new(file, text, is_main);
+    let mut batch = Vec::with_capacity(STMTS_PER_BATCH);
+    let mut stopped_at = None;
+    loop {
+        let more = reader.fill(&mut batch, STMTS_PER_BATCH, u32::MAX) == Fill::More;
+        if let Some(s) = batch.iter().find(|s| !on_stmt(s)) {
+            stopped_at = Some(s.span().start);
+            break;
+        }
+        if !more {
+            break;
+        }
+        reader.recycle(&mut batch);
+    }
+    let mut diags = reader.finish();
+    if let Some(at) = stopped_at {
+        diags.retain(|d| d.span.start < at);
+    }
+    diags
 }
 
-fn next_token(lexer: &mut logos::Lexer<'_, Token>, len: usize) -> (Token, Range<usize>) {
-    match lexer.next() {
-        Some(tok) => (tok.unwrap_or(Token::Error), lexer.span()),
-        None => (Token::Eof, len..len),
+/// How a call of [`StmtReader::fill`] ended.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Fill {
+    /// The batch is full; more statements may follow.
+    More,
+    /// The end of the file was reached.
+    End,
+    /// The next statement starts at or after the stop offset.
+    Stop,
+}
+
+/// Reads the statements of one file in batches, for callers that consume them
+/// elsewhere (another thread, say) and hand the used batches back for reuse.
+pub struct StmtReader<'a> {
+    p: Parser<'a>,
+}
+
+impl<'a> StmtReader<'a> {
+    /// Starts reading `text`. `is_main` asks for the `OPENQASM 2.0;` header.
+    pub fn new(file: FileId, text: &'a str, is_main: bool) -> StmtReader<'a> {
+        let mut r = StmtReader::starting_at(file, text, 0);
+        r.p.n_stmts = 0;
+        if is_main {
+            r.p.check_header();
+        }
+        r
+    }
+
+    /// Starts reading `text` at byte `offset`, a character boundary, as if a
+    /// statement had been read before it (so a header there is misplaced).
+    pub fn starting_at(file: FileId, text: &'a str, offset: usize) -> StmtReader<'a> {
+        let mut tokens = TokenStream::new(text, offset);
+        let first = tokens.next();
+        let p = Parser {
+            tokens,
+            cur: first,
+            prev: Tok {
+                kind: Token::Eof,
+                start: 0,
+                end: 0,
+            },
+            pos: 0,
+            text,
+            file,
+            diags: Vec::new(),
+            depth: 0,
+            expr_ops: 0,
+            resume_here: false,
+            spares: Vec::new(),
+            n_stmts: 1,
+            last_ok: true,
+        };
+        StmtReader { p }
+    }
+
+    /// Appends the next statements to `batch` until it holds `max`, the file ends,
+    /// or the next statement would start at or after byte `stop` (`u32::MAX`: never).
+    pub fn fill(&mut self, batch: &mut Vec<Stmt<'a>>, max: usize, stop: u32) -> Fill {
+        self.p.fill(batch, max, stop)
+    }
+
+    /// Where the next token starts (the length of the text at its end).
+    pub fn next_start(&self) -> u32 {
+        self.p.cur.start
+    }
+
+    /// Whether the last statement read without error: the reader then stands at the
+    /// start of a statement exactly as a fresh reader started there would.
+    pub fn last_ok(&self) -> bool {
+        self.p.last_ok
+    }
+
+    /// Whether anything read so far gave a diagnostic.
+    pub fn has_diagnostics(&self) -> bool {
+        !self.p.diags.is_empty()
+    }
+
+    /// Empties a used batch, keeping the boxes of its gate calls for the next ones.
+    pub fn recycle(&mut self, batch: &mut Vec<Stmt<'a>>) {
+        for s in batch.drain(..) {
+            if let Stmt::QOp(QOp::Call(call)) = s {
+                self.p.spares.push(call);
+            }
+        }
+    }
+
+    /// The diagnostics of everything read.
+    pub fn finish(self) -> Vec<Diagnostic> {
+        self.p.diags
     }
 }
 
 impl<'a> Parser<'a> {
+    #[inline(always)]
     fn peek(&self) -> Token {
-        self.cur.0
+        self.cur.kind
     }
 
+    #[inline(always)]
     fn span(&self) -> Span {
-        Span::new(self.file, self.cur.1.clone())
+        Span {
+            file: self.file,
+            start: self.cur.start,
+            end: self.cur.end,
+        }
     }
 
     fn prev_span(&self) -> Span {
-        Span::new(self.file, self.prev.1.clone())
+        Span {
+            file: self.file,
+            start: self.prev.start,
+            end: self.prev.end,
+        }
     }
 
+    #[inline(always)]
     fn slice(&self) -> &'a str {
-        &self.text[self.cur.1.clone()]
+        &self.text[self.cur.start as usize..self.cur.end as usize]
     }
 
+    #[inline(always)]
     fn bump(&mut self) -> Span {
         let s = self.span();
-        if self.cur.0 != Token::Eof {
-            let next = next_token(&mut self.lexer, self.text.len());
-            self.prev = std::mem::replace(&mut self.cur, next);
+        if self.cur.kind != Token::Eof {
+            self.prev = self.cur;
+            self.cur = self.tokens.next();
             self.pos += 1;
         }
         s
@@ -131,7 +310,7 @@ impl<'a> Parser<'a> {
         self.diags.push(d);
     }
 
-    #[inline]
+    #[inline(always)]
     fn expect(&mut self, tok: Token, hint: &str) -> PResult<Span> {
         if self.peek() == tok {
             return Ok(self.bump());
@@ -155,12 +334,12 @@ impl<'a> Parser<'a> {
                 start: prev.end,
                 end: prev.end,
             };
-            let gap = &self.text[prev.end as usize..self.cur.1.start];
+            let gap = &self.text[prev.end as usize..self.cur.start as usize];
             self.resume_here = gap.contains('\n');
             // A name right after an argument on the same line is most often a missing comma.
             let hint = if !self.resume_here
                 && self.peek() == Token::Ident
-                && self.prev.0 == Token::RBracket
+                && self.prev.kind == Token::RBracket
             {
                 "separate arguments with `,`, or end the statement with `;`"
             } else {
@@ -178,10 +357,10 @@ impl<'a> Parser<'a> {
         Err(())
     }
 
-    #[inline]
-    fn ident(&mut self, what: &str) -> PResult<Ident> {
+    #[inline(always)]
+    fn ident(&mut self, what: &str) -> PResult<Ident<'a>> {
         if self.peek() == Token::Ident {
-            let name = self.slice().into();
+            let name = self.slice();
             let span = self.bump();
             return Ok(Ident { name, span });
         }
@@ -190,7 +369,7 @@ impl<'a> Parser<'a> {
 
     /// The error path of [`Parser::ident`], kept out of line.
     #[cold]
-    fn ident_failed(&mut self, what: &str) -> PResult<Ident> {
+    fn ident_failed(&mut self, what: &str) -> PResult<Ident<'a>> {
         let keyword = !matches!(
             self.peek(),
             Token::Eof | Token::Error | Token::Int | Token::Real | Token::Str
@@ -210,7 +389,22 @@ impl<'a> Parser<'a> {
         Err(())
     }
 
+    #[inline(always)]
     fn integer(&mut self, what: &str) -> PResult<(u64, Span)> {
+        if self.peek() == Token::Int && self.cur.end - self.cur.start <= 19 {
+            // At most 19 digits always fit in 64 bits; the lexer guarantees digits.
+            let value = self.slice().bytes().fold(0u64, |acc, d| {
+                acc.wrapping_mul(10)
+                    .wrapping_add(u64::from(d.wrapping_sub(b'0')))
+            });
+            return Ok((value, self.bump()));
+        }
+        self.integer_slow(what)
+    }
+
+    /// Integers of 20 digits and more (which may overflow) and the error paths.
+    #[cold]
+    fn integer_slow(&mut self, what: &str) -> PResult<(u64, Span)> {
         if self.peek() == Token::Int {
             let text = self.slice();
             let span = self.span();
@@ -218,12 +412,10 @@ impl<'a> Parser<'a> {
             let value = text.bytes().try_fold(0u64, |acc, d| {
                 acc.checked_mul(10)?.checked_add(u64::from(d - b'0'))
             });
-            return match value.ok_or(()) {
-                Ok(v) => {
-                    self.bump();
-                    Ok((v, span))
-                }
-                Err(_) => {
+            self.bump();
+            return match value {
+                Some(v) => Ok((v, span)),
+                None => {
                     self.diags.push(
                         Diagnostic::error(
                             "integer-too-large",
@@ -232,7 +424,6 @@ impl<'a> Parser<'a> {
                         )
                         .hint("integers must fit in 64 bits"),
                     );
-                    self.bump();
                     Err(())
                 }
             };
@@ -261,9 +452,8 @@ impl<'a> Parser<'a> {
         }
     }
 
-    fn program(&mut self, is_main: bool, mut on_stmt: impl FnMut(&Stmt) -> bool) {
-        let mut n_stmts = 0usize;
-        if is_main && self.peek() != Token::OpenQasm {
+    fn check_header(&mut self) {
+        if self.peek() != Token::OpenQasm {
             let at = Span::new(self.file, 0..0);
             self.diags.push(
                 Diagnostic::warning(
@@ -275,35 +465,45 @@ impl<'a> Parser<'a> {
                 .hint("add `OPENQASM 2.0;` as the first statement; read as OpenQASM 2.0"),
             );
         }
-        while self.peek() != Token::Eof {
+    }
+
+    fn fill(&mut self, batch: &mut Vec<Stmt<'a>>, max: usize, stop: u32) -> Fill {
+        while batch.len() < max {
+            if self.peek() == Token::Eof {
+                return Fill::End;
+            }
+            if self.cur.start >= stop {
+                return Fill::Stop;
+            }
             let start = self.pos;
-            match self.statement(n_stmts == 0) {
+            let result = self.statement(self.n_stmts == 0);
+            self.last_ok = result.is_ok();
+            match result {
                 Ok(s) => {
-                    n_stmts += 1;
-                    let go_on = on_stmt(&s);
-                    if let Stmt::QOp(QOp::Call(call)) = s {
-                        self.spare = Some(call);
-                    }
-                    if !go_on {
-                        return;
-                    }
+                    self.n_stmts += 1;
+                    batch.push(s);
                 }
                 Err(()) => {
                     let resume = std::mem::take(&mut self.resume_here) && self.pos > start;
-                    if !resume && (self.pos == start || self.prev.0 != Token::Semi) {
+                    if !resume && (self.pos == start || self.prev.kind != Token::Semi) {
                         self.recover();
                     }
                 }
             }
         }
+        if self.peek() == Token::Eof {
+            Fill::End
+        } else {
+            Fill::More
+        }
     }
 
-    fn statement(&mut self, first: bool) -> PResult<Stmt> {
+    fn statement(&mut self, first: bool) -> PResult<Stmt<'a>> {
         let start = self.span();
         match self.peek() {
             Token::OpenQasm => {
                 self.bump();
-                let version = self.slice().to_string();
+                let version = self.slice();
                 if !matches!(self.peek(), Token::Real | Token::Int) {
                     let msg = format!("expected a version number, found {}", self.found());
                     self.error_here("bad-version", msg, "write `OPENQASM 2.0;`");
@@ -349,7 +549,7 @@ impl<'a> Parser<'a> {
                     return Err(());
                 }
                 let raw = self.slice();
-                let path = raw[1..raw.len() - 1].to_string();
+                let path = &raw[1..raw.len() - 1];
                 self.bump();
                 let end = self.expect(Token::Semi, "end the include with `;`")?;
                 Ok(Stmt::Include {
@@ -428,7 +628,7 @@ impl<'a> Parser<'a> {
         }
     }
 
-    fn qop(&mut self) -> PResult<QOp> {
+    fn qop(&mut self) -> PResult<QOp<'a>> {
         let start = self.span();
         match self.peek() {
             Token::Measure => {
@@ -472,11 +672,11 @@ impl<'a> Parser<'a> {
     }
 
     /// Reads a gate call straight into a box, so the large call is never moved.
-    fn gate_call(&mut self) -> PResult<Box<GateCall>> {
+    fn gate_call(&mut self) -> PResult<Box<GateCall<'a>>> {
         let name = self.ident("a gate name")?;
         let span = name.span;
         // The box of the previous call is reused: one allocation per file, not per call.
-        let mut call = match self.spare.take() {
+        let mut call = match self.spares.pop() {
             Some(mut b) => {
                 b.name = name;
                 b.params.clear();
@@ -515,7 +715,8 @@ impl<'a> Parser<'a> {
         Ok(call)
     }
 
-    fn arg(&mut self) -> PResult<Arg> {
+    #[inline(always)]
+    fn arg(&mut self) -> PResult<Arg<'a>> {
         let reg = self.ident("a register or argument name")?;
         let mut index = None;
         if self.peek() == Token::LBracket {
@@ -526,7 +727,7 @@ impl<'a> Parser<'a> {
         Ok(Arg { reg, index })
     }
 
-    fn arg_list(&mut self) -> PResult<ArgList> {
+    fn arg_list(&mut self) -> PResult<ArgList<'a>> {
         let mut args = smallvec::smallvec![self.arg()?];
         while self.peek() == Token::Comma {
             self.bump();
@@ -535,7 +736,7 @@ impl<'a> Parser<'a> {
         Ok(args)
     }
 
-    fn gate_def(&mut self) -> PResult<GateDef> {
+    fn gate_def(&mut self) -> PResult<GateDef<'a>> {
         let start = self.span();
         let opaque = self.peek() == Token::Opaque;
         self.bump();
@@ -627,7 +828,7 @@ impl<'a> Parser<'a> {
 
     /// Like [`Parser::recover`] but stops before a `}` so the body can be closed.
     fn recover_in_body(&mut self, start: usize) {
-        if self.pos > start && self.prev.0 == Token::Semi {
+        if self.pos > start && self.prev.kind == Token::Semi {
             return;
         }
         loop {
@@ -657,7 +858,7 @@ impl<'a> Parser<'a> {
         Ok(())
     }
 
-    fn expr(&mut self) -> PResult<Expr> {
+    fn expr(&mut self) -> PResult<Expr<'a>> {
         if self.depth == 0 {
             self.expr_ops = 0;
         }
@@ -681,7 +882,7 @@ impl<'a> Parser<'a> {
         t
     }
 
-    fn term(&mut self) -> PResult<Expr> {
+    fn term(&mut self) -> PResult<Expr<'a>> {
         let mut lhs = self.unary()?;
         while matches!(self.peek(), Token::Star | Token::Slash) {
             self.count_op()?;
@@ -709,7 +910,7 @@ impl<'a> Parser<'a> {
         Ok(())
     }
 
-    fn unary(&mut self) -> PResult<Expr> {
+    fn unary(&mut self) -> PResult<Expr<'a>> {
         self.enter()?;
         let result = match self.peek() {
             Token::Minus => {
@@ -732,7 +933,7 @@ impl<'a> Parser<'a> {
         result
     }
 
-    fn power(&mut self) -> PResult<Expr> {
+    fn power(&mut self) -> PResult<Expr<'a>> {
         let base = self.atom()?;
         if self.peek() == Token::Caret {
             self.count_op()?;
@@ -743,7 +944,7 @@ impl<'a> Parser<'a> {
         Ok(base)
     }
 
-    fn atom(&mut self) -> PResult<Expr> {
+    fn atom(&mut self) -> PResult<Expr<'a>> {
         let span = self.span();
         let func = match self.peek() {
             Token::Sin => Some(Func::Sin),
@@ -770,7 +971,14 @@ impl<'a> Parser<'a> {
         match self.peek() {
             Token::Int | Token::Real => {
                 let text = self.slice();
-                let v: f64 = text.parse().unwrap_or(f64::NAN);
+                let v = if self.peek() == Token::Int && text.len() <= 15 {
+                    // Below 10^15 every integer is exact in f64, so this equals `parse`.
+                    text.bytes()
+                        .fold(0u64, |acc, d| acc * 10 + u64::from(d - b'0'))
+                        as f64
+                } else {
+                    text.parse().unwrap_or(f64::NAN)
+                };
                 self.bump();
                 Ok(Expr {
                     kind: ExprKind::Number(v),
@@ -785,7 +993,7 @@ impl<'a> Parser<'a> {
                 })
             }
             Token::Ident => {
-                let name = self.slice().into();
+                let name = self.slice();
                 self.bump();
                 Ok(Expr {
                     kind: ExprKind::Param(name),
@@ -826,19 +1034,12 @@ fn constant(e: &Expr) -> Option<f64> {
 
 /// Builds a binary node, folding it to a number when both sides are numbers (the
 /// same arithmetic as evaluation, so the value is identical; it saves allocations).
-fn binary(op: BinOp, lhs: Expr, rhs: Expr) -> Expr {
+fn binary<'a>(op: BinOp, lhs: Expr<'a>, rhs: Expr<'a>) -> Expr<'a> {
     let span = lhs.span.to(rhs.span);
     if let (Some(x), Some(y)) = (constant(&lhs), constant(&rhs)) {
-        let v = match op {
-            BinOp::Add => x + y,
-            BinOp::Sub => x - y,
-            BinOp::Mul => x * y,
-            BinOp::Div => x / y,
-            BinOp::Pow => x.powf(y),
-        };
         return Expr {
             span,
-            kind: ExprKind::Number(v),
+            kind: ExprKind::Number(op.apply(x, y)),
         };
     }
     Expr {

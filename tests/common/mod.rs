@@ -68,3 +68,27 @@ pub fn read_ok(path: &Path) -> tutti::circuit::Circuit {
         None => panic!("{} did not read:\n{}", path.display(), outcome.render()),
     }
 }
+
+/// The limits a case file asks for in a first line `// limits: key=value ...`.
+pub fn limits_for(text: &str) -> tutti::qasm::Limits {
+    let mut limits = tutti::qasm::Limits::default();
+    if let Some(rest) = text
+        .lines()
+        .next()
+        .and_then(|l| l.strip_prefix("// limits:"))
+    {
+        for kv in rest.split_whitespace() {
+            let (k, v) = kv.split_once('=').expect("key=value");
+            let v: usize = v.parse().expect("number");
+            match k {
+                "max_ops" => limits.max_ops = v,
+                "max_file_bytes" => limits.max_file_bytes = v,
+                "max_qubits" => limits.max_qubits = v as u64,
+                "max_include_depth" => limits.max_include_depth = v,
+                "max_gate_nesting" => limits.max_gate_nesting = v,
+                other => panic!("unknown limit {other}"),
+            }
+        }
+    }
+    limits
+}

@@ -5,6 +5,8 @@
 //! include depth and cycles, expanded operations, register and qubit counts, input
 //! size and gate nesting are all checked and reported as located errors.
 
+mod chunks;
+
 use super::ast::*;
 use super::diag::{Diagnostic, FileId, SourceMap, Span};
 use super::parser::parse_each;
@@ -25,6 +27,11 @@ pub struct Limits {
     pub max_clbits: u64,
     pub max_file_bytes: usize,
     pub max_gate_nesting: usize,
+    /// Threads that read one large file together; 0 means one per core.
+    pub max_threads: usize,
+    /// A file is cut into chunks read in parallel only when each chunk gets at least
+    /// this many bytes.
+    pub min_chunk_bytes: usize,
 }
 
 impl Default for Limits {
@@ -37,12 +44,15 @@ impl Default for Limits {
             max_clbits: 1 << 16,
             max_file_bytes: 256 << 20,
             max_gate_nesting: 64,
+            max_threads: 0,
+            min_chunk_bytes: 2 << 20,
         }
     }
 }
 
 /// Where included files come from. The standard library is built in and never loaded.
-pub trait Loader {
+/// Shared by the threads that read one file (only the first of them loads).
+pub trait Loader: Sync {
     /// Reads the file at `path`, or says why it cannot.
     fn load(&self, path: &Path) -> Result<String, String>;
 
@@ -85,6 +95,9 @@ pub struct ReadOutcome {
     pub circuit: Option<Circuit>,
     pub diagnostics: Vec<Diagnostic>,
     pub sources: SourceMap,
+    /// Chunks of the main file that were read ahead on other threads and used (see
+    /// [`Limits::max_threads`]); 0 when it was read on one thread.
+    pub chunks_ahead: usize,
 }
 
 impl ReadOutcome {
@@ -114,6 +127,10 @@ pub fn read_with(name: &str, text: &str, limits: &Limits, loader: &dyn Loader) -
         include_stack: Vec::new(),
         stopped: false,
         last_reg: None,
+        scope_changes: 0,
+        ahead: false,
+        aborted: false,
+        chunks_ahead: 0,
     };
     let file = sources.add(name, text);
     // About one operation per 16 bytes of program text; reserving up front saves
@@ -131,6 +148,7 @@ pub fn read_with(name: &str, text: &str, limits: &Limits, loader: &dyn Loader) -
         circuit: if has_error { None } else { Some(e.circuit) },
         diagnostics,
         sources,
+        chunks_ahead: e.chunks_ahead,
     }
 }
 
@@ -140,6 +158,7 @@ enum RegKind {
     Classical(usize),
 }
 
+#[derive(Clone, Copy)]
 enum GateRef {
     Library(GateKind),
     Defined(usize),
@@ -152,7 +171,7 @@ struct Elaborator<'l> {
     circuit: Circuit,
     regs: FxHashMap<CompactString, (RegKind, Span)>,
     gates: FxHashMap<CompactString, usize>,
-    defs: Vec<Def>,
+    defs: Vec<std::sync::Arc<Def>>,
     library: bool,
     /// The files being read, outermost first: (name as shown, canonical name).
     include_stack: Vec<(PathBuf, PathBuf)>,
@@ -160,12 +179,84 @@ struct Elaborator<'l> {
     last_reg: Option<(CompactString, RegKind)>,
     /// Set when a limit was hit: nothing more is elaborated.
     stopped: bool,
+    /// Counts statements that may change the names in scope (declarations,
+    /// definitions, includes); a chunk read ahead is valid only if none came between.
+    scope_changes: u64,
+    /// Set for an elaborator that reads a chunk ahead: it stops at any statement
+    /// that would change the names in scope, and sets `aborted`.
+    ahead: bool,
+    aborted: bool,
+    /// Chunks read ahead and used.
+    chunks_ahead: usize,
 }
 
+/// A gate definition as the elaborator keeps it, owned (the syntax tree borrows the
+/// file's text) and with every name resolved: gates to [`GateRef`], parameters and
+/// qubit arguments to positions, so expanding a call copies and looks up nothing.
 struct Def {
-    ast: std::rc::Rc<GateDef>,
+    name: String,
+    n_params: usize,
+    n_qubits: usize,
+    /// For `opaque`: the index of its declaration in [`Circuit::opaque`].
     opaque_index: Option<u32>,
+    body: Vec<BodyOp>,
     nesting: usize,
+}
+
+enum BodyOp {
+    Call {
+        gate: GateRef,
+        params: smallvec::SmallVec<[Value; 3]>,
+        /// Positions in the definition's qubit arguments.
+        args: smallvec::SmallVec<[u32; 4]>,
+    },
+    Barrier {
+        args: smallvec::SmallVec<[u32; 4]>,
+    },
+}
+
+/// A parameter expression of a gate body, its names bound to parameter positions.
+enum Value {
+    Number(f64),
+    Param(usize),
+    Neg(Box<Value>),
+    Binary(BinOp, Box<Value>, Box<Value>),
+    Call(Func, Box<Value>),
+}
+
+impl Value {
+    /// Binds the names of `e` to their positions in `params`. Names were checked when
+    /// the definition was read; an unknown one would evaluate to NaN.
+    fn bind(e: &Expr, params: &[Ident]) -> Value {
+        match &e.kind {
+            ExprKind::Number(v) => Value::Number(*v),
+            ExprKind::Pi => Value::Number(std::f64::consts::PI),
+            ExprKind::Param(p) => Value::Param(
+                params
+                    .iter()
+                    .position(|q| q.name == *p)
+                    .unwrap_or(usize::MAX),
+            ),
+            ExprKind::Neg(a) => Value::Neg(Box::new(Value::bind(a, params))),
+            ExprKind::Call(f, a) => Value::Call(*f, Box::new(Value::bind(a, params))),
+            ExprKind::Binary(op, a, b) => Value::Binary(
+                *op,
+                Box::new(Value::bind(a, params)),
+                Box::new(Value::bind(b, params)),
+            ),
+        }
+    }
+
+    /// The same arithmetic as [`eval`], so a value is identical either way.
+    fn eval(&self, values: &[f64]) -> f64 {
+        match self {
+            Value::Number(v) => *v,
+            Value::Param(i) => values.get(*i).copied().unwrap_or(f64::NAN),
+            Value::Neg(a) => -a.eval(values),
+            Value::Call(f, a) => f.apply(a.eval(values)),
+            Value::Binary(op, a, b) => op.apply(a.eval(values), b.eval(values)),
+        }
+    }
 }
 
 impl<'l> Elaborator<'l> {
@@ -182,14 +273,30 @@ impl<'l> Elaborator<'l> {
             );
             return;
         }
-        let diags = parse_each(file, &text, is_main, |stmt| {
-            self.statement(stmt, sources);
-            !self.stopped
-        });
+        let n_chunks = self.n_chunks(text.len());
+        let diags = if is_main && n_chunks > 1 {
+            self.read_in_chunks(file, &text, n_chunks, sources)
+        } else {
+            parse_each(file, &text, is_main, |stmt| {
+                self.statement(stmt, sources);
+                !self.stopped
+            })
+        };
         self.diags.extend(diags);
     }
 
     fn statement(&mut self, stmt: &Stmt, sources: &mut SourceMap) {
+        if matches!(
+            stmt,
+            Stmt::Include { .. } | Stmt::Qreg { .. } | Stmt::Creg { .. } | Stmt::Gate(_)
+        ) {
+            self.scope_changes += 1;
+            if self.ahead {
+                self.aborted = true;
+                self.stopped = true;
+                return;
+            }
+        }
         match stmt {
             Stmt::Version { .. } => {}
             Stmt::Include { path, span } => self.include(path, *span, sources),
@@ -207,7 +314,7 @@ impl<'l> Elaborator<'l> {
                             qubits: qubits.into(),
                         },
                         None,
-                        stmt_span(stmt),
+                        stmt.span(),
                     );
                 }
             }
@@ -304,7 +411,7 @@ impl<'l> Elaborator<'l> {
     }
 
     fn declare(&mut self, name: &Ident, size: (u64, Span), quantum: bool) {
-        if self.regs.contains_key(&name.name) {
+        if self.regs.contains_key(name.name) {
             self.diags.push(
                 Diagnostic::error(
                     "duplicate-register",
@@ -365,7 +472,7 @@ impl<'l> Elaborator<'l> {
             self.circuit.cregs.push(reg);
             RegKind::Classical(self.circuit.cregs.len() - 1)
         };
-        self.regs.insert(name.name.clone(), (kind, name.span));
+        self.regs.insert(name.name.into(), (kind, name.span));
     }
 
     fn lookup_gate(&self, name: &str) -> Option<GateRef> {
@@ -386,15 +493,12 @@ impl<'l> Elaborator<'l> {
     fn signature(&self, g: &GateRef) -> (usize, usize) {
         match g {
             GateRef::Library(k) => (k.n_params(), k.n_qubits()),
-            GateRef::Defined(i) => (
-                self.defs[*i].ast.params.len(),
-                self.defs[*i].ast.qargs.len(),
-            ),
+            GateRef::Defined(i) => (self.defs[*i].n_params, self.defs[*i].n_qubits),
         }
     }
 
     fn undefined_gate(&self, name: &Ident) -> Diagnostic {
-        let hint = if GateKind::from_name(&name.name).is_some() {
+        let hint = if GateKind::from_name(name.name).is_some() {
             "this is a standard library gate: add `include \"qelib1.inc\";` at the top".to_string()
         } else {
             "define it with `gate` before its first use, or check the spelling".to_string()
@@ -409,7 +513,7 @@ impl<'l> Elaborator<'l> {
 
     /// Checks a call's name and counts; returns the gate it names.
     fn check_call(&mut self, call: &GateCall) -> Option<GateRef> {
-        let Some(g) = self.lookup_gate(&call.name.name) else {
+        let Some(g) = self.lookup_gate(call.name.name) else {
             let d = self.undefined_gate(&call.name);
             self.diags.push(d);
             return None;
@@ -453,9 +557,9 @@ impl<'l> Elaborator<'l> {
 
     fn define(&mut self, def: &GateDef) {
         let name = &def.name.name;
-        let redefines_library = matches!(name.as_str(), "U" | "CX")
-            || (self.library && QELIB1_2017.contains(&name.as_str()));
-        if redefines_library || self.gates.contains_key(name) {
+        let redefines_library =
+            matches!(*name, "U" | "CX") || (self.library && QELIB1_2017.contains(name));
+        if redefines_library || self.gates.contains_key(*name) {
             self.diags.push(
                 Diagnostic::error(
                     "duplicate-gate",
@@ -522,7 +626,7 @@ impl<'l> Elaborator<'l> {
                                 "the arguments are: {}",
                                 def.qargs
                                     .iter()
-                                    .map(|q| q.name.as_str())
+                                    .map(|q| q.name)
                                     .collect::<Vec<_>>()
                                     .join(", ")
                             )),
@@ -590,12 +694,36 @@ impl<'l> Elaborator<'l> {
         } else {
             None
         };
-        self.gates.insert(name.clone(), self.defs.len());
-        self.defs.push(Def {
-            ast: std::rc::Rc::new(def.clone()),
-            opaque_index,
-            nesting,
+        let position = |arg: &Arg| {
+            def.qargs
+                .iter()
+                .position(|q| q.name == arg.reg.name)
+                .unwrap_or(0) as u32
+        };
+        let body = def.body.iter().flatten().filter_map(|stmt| match stmt {
+            BodyStmt::Call(call) => Some(BodyOp::Call {
+                gate: self.lookup_gate(call.name.name)?,
+                params: call
+                    .params
+                    .iter()
+                    .map(|e| Value::bind(e, &def.params))
+                    .collect(),
+                args: call.args.iter().map(position).collect(),
+            }),
+            BodyStmt::Barrier { args, .. } => Some(BodyOp::Barrier {
+                args: args.iter().map(position).collect(),
+            }),
         });
+        let body = body.collect();
+        self.gates.insert((*name).into(), self.defs.len());
+        self.defs.push(std::sync::Arc::new(Def {
+            name: name.to_string(),
+            n_params: def.params.len(),
+            n_qubits: def.qargs.len(),
+            opaque_index,
+            body,
+            nesting,
+        }));
     }
 
     fn check_expr_names(&mut self, e: &Expr, params: &[Ident]) -> bool {
@@ -610,11 +738,7 @@ impl<'l> Elaborator<'l> {
                     } else {
                         format!(
                             "the parameters in scope are: {}",
-                            params
-                                .iter()
-                                .map(|q| q.name.as_str())
-                                .collect::<Vec<_>>()
-                                .join(", ")
+                            params.iter().map(|q| q.name).collect::<Vec<_>>().join(", ")
                         )
                     };
                     self.diags.push(
@@ -637,7 +761,7 @@ impl<'l> Elaborator<'l> {
     }
 
     fn creg(&mut self, name: &Ident) -> Option<usize> {
-        match self.regs.get(&name.name) {
+        match self.regs.get(name.name) {
             Some((RegKind::Classical(i), _)) => Some(*i),
             Some((RegKind::Quantum(_), _)) => {
                 self.diags.push(
@@ -674,9 +798,9 @@ impl<'l> Elaborator<'l> {
         let found = match cached {
             Some(kind) => Some(kind),
             None => {
-                let kind = self.regs.get(&arg.reg.name).map(|(k, _)| *k);
+                let kind = self.regs.get(arg.reg.name).map(|(k, _)| *k);
                 if let Some(k) = kind {
-                    self.last_reg = Some((arg.reg.name.clone(), k));
+                    self.last_reg = Some((arg.reg.name.into(), k));
                 }
                 kind
             }
@@ -913,7 +1037,8 @@ impl<'l> Elaborator<'l> {
                 at,
             ),
             GateRef::Defined(i) => {
-                if let Some(decl) = self.defs[i].opaque_index {
+                let def = std::sync::Arc::clone(&self.defs[i]);
+                if let Some(decl) = def.opaque_index {
                     return self.emit(
                         Op::Opaque {
                             decl,
@@ -924,44 +1049,26 @@ impl<'l> Elaborator<'l> {
                         at,
                     );
                 }
-                // The body was checked when the gate was defined, so every name resolves.
-                let body = self.defs[i].ast.body.clone().unwrap_or_default();
-                let param_names: Vec<CompactString> = self.defs[i]
-                    .ast
-                    .params
-                    .iter()
-                    .map(|p| p.name.clone())
-                    .collect();
-                let qarg_names: Vec<CompactString> = self.defs[i]
-                    .ast
-                    .qargs
-                    .iter()
-                    .map(|p| p.name.clone())
-                    .collect();
-                let bind = |a: &Arg| {
-                    qubits[qarg_names
-                        .iter()
-                        .position(|n| *n == a.reg.name)
-                        .unwrap_or(0)]
-                };
-                for stmt in &body {
-                    match stmt {
-                        BodyStmt::Barrier { args, .. } => {
-                            let mut qs: Vec<Qubit> = args.iter().map(bind).collect();
+                let bind = |k: &u32| qubits.get(*k as usize).copied().unwrap_or(Qubit(0));
+                for op in &def.body {
+                    match op {
+                        BodyOp::Barrier { args } => {
+                            let mut qs: Qubits = args.iter().map(bind).collect();
                             qs.sort();
                             qs.dedup();
-                            if !self.emit(Op::Barrier { qubits: qs.into() }, cond, at) {
+                            if !self.emit(Op::Barrier { qubits: qs }, cond, at) {
                                 return false;
                             }
                         }
-                        BodyStmt::Call(call) => {
-                            let Some(inner) = self.lookup_gate(&call.name.name) else {
-                                return false;
-                            };
+                        BodyOp::Call {
+                            gate,
+                            params: exprs,
+                            args,
+                        } => {
                             let mut values: smallvec::SmallVec<[f64; 4]> =
                                 smallvec::SmallVec::new();
-                            for p in &call.params {
-                                let v = eval(p, &param_names, params);
+                            for e in exprs {
+                                let v = e.eval(params);
                                 if !v.is_finite() {
                                     self.diags.push(
                                         Diagnostic::error(
@@ -969,7 +1076,7 @@ impl<'l> Elaborator<'l> {
                                             at,
                                             format!(
                                                 "inside gate `{}`, a parameter evaluates to {v}",
-                                                self.defs[i].ast.name.name
+                                                def.name
                                             ),
                                         )
                                         .hint("check the parameters passed to this gate"),
@@ -979,8 +1086,8 @@ impl<'l> Elaborator<'l> {
                                 }
                                 values.push(v);
                             }
-                            let args: Vec<Qubit> = call.args.iter().map(bind).collect();
-                            if !self.expand(&inner, &values, &args, cond, at) {
+                            let inner: Qubits = args.iter().map(bind).collect();
+                            if !self.expand(gate, &values, &inner, cond, at) {
                                 return false;
                             }
                         }
@@ -1028,22 +1135,8 @@ impl Bits {
     }
 }
 
-fn stmt_span(stmt: &Stmt) -> Span {
-    match stmt {
-        Stmt::Version { span, .. }
-        | Stmt::Include { span, .. }
-        | Stmt::Qreg { span, .. }
-        | Stmt::Creg { span, .. }
-        | Stmt::Barrier { span, .. }
-        | Stmt::If { span, .. } => *span,
-        Stmt::Gate(d) => d.span,
-        Stmt::QOp(QOp::Call(c)) => c.span,
-        Stmt::QOp(QOp::Measure { span, .. }) | Stmt::QOp(QOp::Reset { span, .. }) => *span,
-    }
-}
-
 /// Evaluates an expression with the named parameters bound to values.
-pub fn eval(e: &Expr, names: &[CompactString], values: &[f64]) -> f64 {
+pub fn eval(e: &Expr, names: &[&str], values: &[f64]) -> f64 {
     match &e.kind {
         ExprKind::Number(v) => *v,
         ExprKind::Pi => std::f64::consts::PI,
@@ -1053,15 +1146,6 @@ pub fn eval(e: &Expr, names: &[CompactString], values: &[f64]) -> f64 {
             .map_or(f64::NAN, |i| values[i]),
         ExprKind::Neg(a) => -eval(a, names, values),
         ExprKind::Call(f, a) => f.apply(eval(a, names, values)),
-        ExprKind::Binary(op, a, b) => {
-            let (x, y) = (eval(a, names, values), eval(b, names, values));
-            match op {
-                BinOp::Add => x + y,
-                BinOp::Sub => x - y,
-                BinOp::Mul => x * y,
-                BinOp::Div => x / y,
-                BinOp::Pow => x.powf(y),
-            }
-        }
+        ExprKind::Binary(op, a, b) => op.apply(eval(a, names, values), eval(b, names, values)),
     }
 }

@@ -35,6 +35,10 @@ struct LimitArgs {
     /// Deepest nesting of include files.
     #[arg(long, default_value_t = Limits::default().max_include_depth)]
     max_include_depth: usize,
+    /// Threads that read one large file together (0: one per core). The result is
+    /// the same with any number.
+    #[arg(long, default_value_t = Limits::default().max_threads)]
+    read_threads: usize,
 }
 
 impl LimitArgs {
@@ -46,6 +50,7 @@ impl LimitArgs {
             max_register_size: self.max_qubits,
             max_file_bytes: self.max_file_bytes,
             max_include_depth: self.max_include_depth,
+            max_threads: self.read_threads,
             ..Limits::default()
         }
     }

@@ -49,6 +49,11 @@ impl<'a> TokenStream<'a> {
         }
     }
 
+    /// The tokens lexed but not yet taken.
+    fn ahead(&self) -> &[Tok] {
+        &self.buf[self.at..]
+    }
+
     #[inline]
     fn next(&mut self) -> Tok {
         if self.at == self.buf.len() {
@@ -860,6 +865,9 @@ impl<'a> Parser<'a> {
 
     fn expr(&mut self) -> PResult<Expr<'a>> {
         if self.depth == 0 {
+            if let Some(e) = self.plain_constant() {
+                return Ok(e);
+            }
             self.expr_ops = 0;
         }
         let mut lhs = self.term()?;
@@ -874,6 +882,90 @@ impl<'a> Parser<'a> {
             lhs = binary(op, lhs, rhs);
         }
         Ok(lhs)
+    }
+
+    /// The most common parameter, read without the general rules: numbers and `pi`
+    /// joined by `+ - * /`, with `-` signs, up to a `,` or `)`, all in tokens already
+    /// lexed. The value is computed with the same operations in the same order as the
+    /// general rules fold them, so it is the same number to the bit. Anything else
+    /// (names, functions, `^`, parentheses, `+` signs, long chains) gives `None` and
+    /// consumes nothing.
+    fn plain_constant(&mut self) -> Option<Expr<'a>> {
+        const MOST_TOKENS: usize = 32;
+        let start = self.cur.start;
+        let mut end = start;
+        // The value of the terms so far and the `+` or `-` after them.
+        let mut sum: Option<(f64, BinOp)> = None;
+        // The value of the factors so far and the `*` or `/` after them.
+        let mut product: Option<(f64, BinOp)> = None;
+        let mut value = 0.0;
+        let mut negate = false;
+        let mut atoms = 0;
+        let mut lone_pi = false;
+        let mut expect_atom = true;
+        let tokens = std::iter::once(self.cur).chain(self.tokens.ahead().iter().copied());
+        for (n, tok) in tokens.take(MOST_TOKENS).enumerate() {
+            if expect_atom {
+                let v = match tok.kind {
+                    Token::Minus => {
+                        negate = !negate;
+                        continue;
+                    }
+                    Token::Int | Token::Real => {
+                        number(tok.kind, &self.text[tok.start as usize..tok.end as usize])
+                    }
+                    Token::Pi => std::f64::consts::PI,
+                    _ => return None,
+                };
+                atoms += 1;
+                lone_pi = tok.kind == Token::Pi && n == 0;
+                let v = if negate { -v } else { v };
+                negate = false;
+                value = match product.take() {
+                    Some((p, op)) => op.apply(p, v),
+                    None => v,
+                };
+                expect_atom = false;
+                end = tok.end;
+                continue;
+            }
+            match tok.kind {
+                Token::Star => product = Some((value, BinOp::Mul)),
+                Token::Slash => product = Some((value, BinOp::Div)),
+                Token::Plus | Token::Minus | Token::Comma | Token::RParen => {
+                    let total = match sum.take() {
+                        Some((s, op)) => op.apply(s, value),
+                        None => value,
+                    };
+                    if matches!(tok.kind, Token::Comma | Token::RParen) {
+                        for _ in 0..n {
+                            self.bump();
+                        }
+                        // A lone `pi` stays symbolic, as the general rules leave it.
+                        let kind = if lone_pi && atoms == 1 {
+                            ExprKind::Pi
+                        } else {
+                            ExprKind::Number(total)
+                        };
+                        let span = Span {
+                            file: self.file,
+                            start,
+                            end,
+                        };
+                        return Some(Expr { kind, span });
+                    }
+                    let op = if tok.kind == Token::Plus {
+                        BinOp::Add
+                    } else {
+                        BinOp::Sub
+                    };
+                    sum = Some((total, op));
+                }
+                _ => return None,
+            }
+            expect_atom = true;
+        }
+        None
     }
 
     fn bump_tok(&mut self) -> Token {
@@ -970,15 +1062,7 @@ impl<'a> Parser<'a> {
         }
         match self.peek() {
             Token::Int | Token::Real => {
-                let text = self.slice();
-                let v = if self.peek() == Token::Int && text.len() <= 15 {
-                    // Below 10^15 every integer is exact in f64, so this equals `parse`.
-                    text.bytes()
-                        .fold(0u64, |acc, d| acc * 10 + u64::from(d - b'0'))
-                        as f64
-                } else {
-                    text.parse().unwrap_or(f64::NAN)
-                };
+                let v = number(self.peek(), self.slice());
                 self.bump();
                 Ok(Expr {
                     kind: ExprKind::Number(v),
@@ -1020,6 +1104,17 @@ impl<'a> Parser<'a> {
                 Err(())
             }
         }
+    }
+}
+
+/// The value of an `Int` or `Real` token.
+fn number(kind: Token, text: &str) -> f64 {
+    if kind == Token::Int && text.len() <= 15 {
+        // Below 10^15 every integer is exact in f64, so this equals `parse`.
+        text.bytes()
+            .fold(0u64, |acc, d| acc * 10 + u64::from(d.wrapping_sub(b'0'))) as f64
+    } else {
+        text.parse().unwrap_or(f64::NAN)
     }
 }
 

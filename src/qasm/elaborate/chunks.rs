@@ -72,6 +72,8 @@ impl<'l> Elaborator<'l> {
 
     /// An elaborator for reading ahead: the names in scope of this one, no operations.
     fn fork(&self, capacity: usize) -> Elaborator<'l> {
+        let mut instrs = Vec::with_capacity(capacity);
+        crate::memory::advise_huge_pages(&mut instrs);
         Elaborator {
             limits: self.limits,
             loader: self.loader,
@@ -80,7 +82,7 @@ impl<'l> Elaborator<'l> {
                 qregs: self.circuit.qregs.clone(),
                 cregs: self.circuit.cregs.clone(),
                 opaque: self.circuit.opaque.clone(),
-                instrs: Vec::with_capacity(capacity),
+                instrs,
             },
             regs: self.regs.clone(),
             gates: self.gates.clone(),

@@ -138,6 +138,7 @@ pub fn read_with(name: &str, text: &str, limits: &Limits, loader: &dyn Loader) -
     e.circuit
         .instrs
         .reserve((text.len() / 16).min(limits.max_ops));
+    crate::memory::advise_huge_pages(&mut e.circuit.instrs);
     e.include_stack
         .push((PathBuf::from(name), loader.canonical(Path::new(name))));
     e.file(file, &mut sources, true);
@@ -950,59 +951,63 @@ impl<'l> Elaborator<'l> {
         let Some(g) = self.check_call(call) else {
             return;
         };
-        if !self.check_expr_names_all(&call.params) {
+        let mut params: smallvec::SmallVec<[f64; 4]> = smallvec::SmallVec::new();
+        let mut names_ok = true;
+        for p in &call.params {
+            // Constants were folded while parsing: most parameters are numbers.
+            params.push(match p.kind {
+                ExprKind::Number(v) => v,
+                _ => {
+                    names_ok &= self.check_expr_names(p, &[]);
+                    eval(p, &[], &[])
+                }
+            });
+        }
+        if !names_ok {
             return;
         }
-        let mut params: smallvec::SmallVec<[f64; 4]> = smallvec::SmallVec::new();
-        for p in &call.params {
-            let v = eval(p, &[], &[]);
-            if !v.is_finite() {
-                self.diags.push(
-                    Diagnostic::error(
-                        "non-finite-parameter",
-                        p.span,
-                        format!("this parameter evaluates to {v}"),
-                    )
-                    .hint("check for division by zero or ln/sqrt of a negative number"),
-                );
-                return;
-            }
-            params.push(v);
+        if let Some((p, v)) = call
+            .params
+            .iter()
+            .zip(&params)
+            .find(|(_, v)| !v.is_finite())
+        {
+            self.diags.push(
+                Diagnostic::error(
+                    "non-finite-parameter",
+                    p.span,
+                    format!("this parameter evaluates to {v}"),
+                )
+                .hint("check for division by zero or ln/sqrt of a negative number"),
+            );
+            return;
         }
         let mut lists: smallvec::SmallVec<[Bits; 4]> = smallvec::SmallVec::new();
+        let mut whole_registers = false;
         for a in &call.args {
             match self.resolve_arg(a, true) {
                 Some(l) => lists.push(l),
                 None => return,
             }
+            whole_registers |= a.index.is_none();
         }
-        let arg_refs: smallvec::SmallVec<[&Arg; 4]> = call.args.iter().collect();
-        let Some(n) = self.broadcast(&arg_refs, &lists) else {
-            return;
+        let n = if whole_registers {
+            let arg_refs: smallvec::SmallVec<[&Arg; 4]> = call.args.iter().collect();
+            match self.broadcast(&arg_refs, &lists) {
+                Some(n) => n,
+                None => return,
+            }
+        } else {
+            1
         };
         let mut qubits: smallvec::SmallVec<[Qubit; 4]> = smallvec::SmallVec::new();
         for k in 0..n as u32 {
             qubits.clear();
             qubits.extend(lists.iter().map(|l| Qubit(l.at(k))));
-            for (i, q) in qubits.iter().enumerate() {
-                if qubits[..i].contains(q) {
-                    let name = self
-                        .circuit
-                        .qregs
-                        .iter()
-                        .find(|r| q.0 >= r.offset && q.0 < r.offset + r.size);
-                    let shown =
-                        name.map_or(String::new(), |r| format!("{}[{}]", r.name, q.0 - r.offset));
-                    self.diags.push(
-                        Diagnostic::error(
-                            "repeated-qubit",
-                            call.span,
-                            format!("qubit {shown} is used twice in one gate"),
-                        )
-                        .hint("a gate acts on distinct qubits"),
-                    );
-                    return;
-                }
+            let repeated = (1..qubits.len()).find(|&i| qubits[..i].contains(&qubits[i]));
+            if let Some(i) = repeated {
+                self.repeated_qubit(qubits[i], call.span);
+                return;
             }
             if !self.expand(&g, &params, &qubits, cond, call.span) {
                 return;
@@ -1010,12 +1015,22 @@ impl<'l> Elaborator<'l> {
         }
     }
 
-    fn check_expr_names_all(&mut self, params: &[Expr]) -> bool {
-        let mut ok = true;
-        for p in params {
-            ok &= self.check_expr_names(p, &[]);
-        }
-        ok
+    #[cold]
+    fn repeated_qubit(&mut self, q: Qubit, at: Span) {
+        let name = self
+            .circuit
+            .qregs
+            .iter()
+            .find(|r| q.0 >= r.offset && q.0 < r.offset + r.size);
+        let shown = name.map_or(String::new(), |r| format!("{}[{}]", r.name, q.0 - r.offset));
+        self.diags.push(
+            Diagnostic::error(
+                "repeated-qubit",
+                at,
+                format!("qubit {shown} is used twice in one gate"),
+            )
+            .hint("a gate acts on distinct qubits"),
+        );
     }
 
     /// Emits a gate with its arguments bound; returns false once a limit was hit.

@@ -180,3 +180,27 @@ fn compile_replaces_an_existing_output_only_with_force() {
         .unwrap()
         .starts_with("# tutti pulse list"));
 }
+
+#[test]
+fn a_large_file_reads_the_same_on_one_thread_and_on_all_cores() {
+    // About 6 MB, so that the default reading cuts it into chunks on a 2-core machine.
+    let mut text = String::from("OPENQASM 2.0;\ninclude \"qelib1.inc\";\nqreg q[8];\ncreg c[8];\n");
+    for i in 0..300_000 {
+        match i % 3 {
+            0 => text.push_str(&format!("h q[{}];\n", i % 8)),
+            1 => text.push_str(&format!("cx q[{}],q[{}];\n", i % 8, (i + 3) % 8)),
+            _ => text.push_str(&format!("rz({}*pi/7) q[{}];\n", i % 5, i % 8)),
+        }
+    }
+    text.push_str("measure q -> c;\n");
+    let path = scratch("large.qasm");
+    std::fs::write(&path, &text).unwrap();
+    let file = path.to_str().unwrap();
+    let (code1, one, _) = tutti(&["inspect", file, "--json", "--read-threads", "1"]);
+    let (code2, all, _) = tutti(&["inspect", file, "--json"]);
+    assert_eq!((code1, code2), (0, 0));
+    assert_eq!(one, all);
+    let v: serde_json::Value = serde_json::from_str(&all).unwrap();
+    assert_eq!(v["ops"], 300_008);
+    assert_eq!(v["two_qubit_ops"], 100_000);
+}

@@ -107,6 +107,98 @@ fn read_never_panics(text: &str) {
     }
 }
 
+/// A constant parameter without parentheses: terms joined by `+`/`-`, each a chain
+/// of signed atoms joined by `*`/`/`. Returned as text and as the value the grammar
+/// of arXiv:1707.03429 gives it (left-associative, unary minus binding tightest),
+/// computed here by a plain fold that shares no code with the front end.
+fn arb_plain_constant() -> impl Strategy<Value = (String, f64)> {
+    let atom = (
+        0usize..4,
+        prop::sample::select(vec![
+            "0", "1", "2", "3", "8", "16", "0.5", "1e-3", "2.5e2", ".25",
+        ]),
+    );
+    let factor = (0usize..3, atom);
+    let term = (
+        factor.clone(),
+        prop::collection::vec((any::<bool>(), factor), 0..3),
+    );
+    (
+        term.clone(),
+        prop::collection::vec((any::<bool>(), term), 0..3),
+    )
+        .prop_map(|(first, rest)| {
+            let atom_value = |(kind, digits): &(usize, &str)| -> (String, f64) {
+                if *kind == 0 {
+                    ("pi".to_string(), std::f64::consts::PI)
+                } else {
+                    (digits.to_string(), digits.parse().unwrap())
+                }
+            };
+            let factor_value = |(signs, atom): &(usize, (usize, &str))| -> (String, f64) {
+                let (t, v) = atom_value(atom);
+                let v = if signs % 2 == 1 { -v } else { v };
+                ("-".repeat(*signs) + &t, v)
+            };
+            let term_value =
+                |(f0, fs): &((usize, (usize, &str)), Vec<(bool, (usize, (usize, &str)))>)| {
+                    let (mut text, mut v) = factor_value(f0);
+                    for (mul, f) in fs {
+                        let (t, x) = factor_value(f);
+                        text.push_str(if *mul { "*" } else { "/" });
+                        text.push_str(&t);
+                        v = if *mul { v * x } else { v / x };
+                    }
+                    (text, v)
+                };
+            let (mut text, mut v) = term_value(&first);
+            for (add, t) in &rest {
+                let (tt, x) = term_value(t);
+                text.push_str(if *add { "+" } else { "-" });
+                text.push_str(&tt);
+                v = if *add { v + x } else { v - x };
+            }
+            (text, v)
+        })
+}
+
+/// The first parameter of the only gate of `rz(<param>) q[0];` as read.
+fn read_param(param: &str) -> Result<f64, String> {
+    let text = format!("OPENQASM 2.0;\ninclude \"qelib1.inc\";\nqreg q[1];\nrz({param}) q[0];\n");
+    let out = tutti::qasm::read_str("param.qasm", &text);
+    match out.circuit.as_ref().map(|c| &c.instrs[..]) {
+        Some(
+            [Instr {
+                op: Op::Gate { gate, .. },
+                ..
+            }],
+        ) => Ok(gate.params[0]),
+        _ => Err(out.render()),
+    }
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig { cases: 500, ..ProptestConfig::default() })]
+
+    #[test]
+    fn constant_parameters_have_the_grammar_value_to_the_bit((text, value) in arb_plain_constant()) {
+        // Division by zero gives a non-finite value, which is a located error.
+        prop_assume!(value.is_finite());
+        let direct = read_param(&text).map_err(TestCaseError::fail)?;
+        prop_assert_eq!(direct.to_bits(), value.to_bits(), "{}", text);
+        // In parentheses, and behind a `+` sign, the general rules read it: same bits.
+        let cases = [
+            (format!("({text})"), value),
+            (format!("+{text}"), value),
+            (format!("0+({text})"), 0.0 + value),
+        ];
+        for (wrapped, expected) in cases {
+            let general = read_param(&wrapped).map_err(TestCaseError::fail)?;
+            prop_assert_eq!(general.to_bits(), expected.to_bits(), "{}", wrapped);
+        }
+    }
+}
+
 proptest! {
     #![proptest_config(ProptestConfig { cases: 200, ..ProptestConfig::default() })]
 

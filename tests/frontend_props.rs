@@ -111,6 +111,13 @@ fn read_never_panics(text: &str) {
 /// of signed atoms joined by `*`/`/`. Returned as text and as the value the grammar
 /// of arXiv:1707.03429 gives it (left-associative, unary minus binding tightest),
 /// computed here by a plain fold that shares no code with the front end.
+/// (kind: 0 is `pi`, else the digits) of one atom.
+type Atom = (usize, &'static str);
+/// (number of `-` signs, atom).
+type Factor = (usize, Atom);
+/// First factor, then (`*` if true else `/`, factor) pairs.
+type Term = (Factor, Vec<(bool, Factor)>);
+
 fn arb_plain_constant() -> impl Strategy<Value = (String, f64)> {
     let atom = (
         0usize..4,
@@ -128,29 +135,28 @@ fn arb_plain_constant() -> impl Strategy<Value = (String, f64)> {
         prop::collection::vec((any::<bool>(), term), 0..3),
     )
         .prop_map(|(first, rest)| {
-            let atom_value = |(kind, digits): &(usize, &str)| -> (String, f64) {
+            let atom_value = |(kind, digits): &Atom| -> (String, f64) {
                 if *kind == 0 {
                     ("pi".to_string(), std::f64::consts::PI)
                 } else {
                     (digits.to_string(), digits.parse().unwrap())
                 }
             };
-            let factor_value = |(signs, atom): &(usize, (usize, &str))| -> (String, f64) {
+            let factor_value = |(signs, atom): &Factor| -> (String, f64) {
                 let (t, v) = atom_value(atom);
                 let v = if signs % 2 == 1 { -v } else { v };
                 ("-".repeat(*signs) + &t, v)
             };
-            let term_value =
-                |(f0, fs): &((usize, (usize, &str)), Vec<(bool, (usize, (usize, &str)))>)| {
-                    let (mut text, mut v) = factor_value(f0);
-                    for (mul, f) in fs {
-                        let (t, x) = factor_value(f);
-                        text.push_str(if *mul { "*" } else { "/" });
-                        text.push_str(&t);
-                        v = if *mul { v * x } else { v / x };
-                    }
-                    (text, v)
-                };
+            let term_value = |(f0, fs): &Term| {
+                let (mut text, mut v) = factor_value(f0);
+                for (mul, f) in fs {
+                    let (t, x) = factor_value(f);
+                    text.push_str(if *mul { "*" } else { "/" });
+                    text.push_str(&t);
+                    v = if *mul { v * x } else { v / x };
+                }
+                (text, v)
+            };
             let (mut text, mut v) = term_value(&first);
             for (add, t) in &rest {
                 let (tt, x) = term_value(t);

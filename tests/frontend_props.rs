@@ -1,5 +1,5 @@
 //! Property tests of the front end: printing and reading back is the identity on
-//! the IR, and no input makes it panic.
+//! the IR, and no input makes it panic or reads differently in chunks.
 
 mod common;
 
@@ -89,12 +89,26 @@ fn arb_circuit() -> impl Strategy<Value = Circuit> {
 }
 
 /// Reading must never panic; a failure must carry a located error inside the file.
+/// Read again in small chunks on several threads, the outcome must be the same.
 fn read_never_panics(text: &str) {
     let limits = Limits {
         max_ops: 100_000,
+        max_threads: 1,
         ..Limits::default()
     };
     let out = elaborate::read_with("fuzz.qasm", text, &limits, &MemoryLoader::default());
+    let chunked = Limits {
+        max_threads: 3,
+        min_chunk_bytes: 40,
+        ..limits
+    };
+    let again = elaborate::read_with("fuzz.qasm", text, &chunked, &MemoryLoader::default());
+    assert_eq!(out.circuit, again.circuit, "chunks change the circuit");
+    assert_eq!(
+        out.render(),
+        again.render(),
+        "chunks change the diagnostics"
+    );
     if out.circuit.is_none() {
         let first = out
             .errors()

@@ -132,13 +132,21 @@ pub struct CompileConfig {
     pub check: CheckConfig,
 }
 
+/// Most work of a whole-program verification in [`compile`], in amplitude updates
+/// (about 2^34: a minute or so on one core); above it the sequence is verified gate
+/// by gate, which proves the same and takes seconds.
+pub const VERIFY_WORK: f64 = (1u64 << 34) as f64;
+
 impl Default for CompileConfig {
     fn default() -> CompileConfig {
         CompileConfig {
             target: Target::Collective,
             baseline: true,
             verify: true,
-            check: CheckConfig::default(),
+            check: CheckConfig {
+                max_work: VERIFY_WORK,
+                ..CheckConfig::default()
+            },
         }
     }
 }
@@ -149,7 +157,7 @@ pub enum Verification {
     /// The whole sequence against the whole circuit.
     Whole(Verdict),
     /// Each instruction against its block of pulses, when the whole comparison would
-    /// need more memory than the budget (large circuits that are not Clifford).
+    /// need more memory or work than the budget (large circuits that are not Clifford).
     GateByGate(BlockVerdict),
 }
 
@@ -199,6 +207,29 @@ impl DriverError {
     }
 }
 
+/// The stages of [`compile_with`], announced as each starts (for progress display).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Stage {
+    Compile,
+    /// The whole sequence against the whole circuit.
+    Verify,
+    /// Gate by gate, after the whole comparison was found too large.
+    VerifyGateByGate,
+    Budget,
+}
+
+impl Stage {
+    /// What the stage does, for a progress line.
+    pub fn describe(self) -> &'static str {
+        match self {
+            Stage::Compile => "compiling",
+            Stage::Verify => "verifying the sequence against the circuit",
+            Stage::VerifyGateByGate => "verifying gate by gate (too large to compare whole)",
+            Stage::Budget => "budgeting",
+        }
+    }
+}
+
 /// Compiles, verifies (unless switched off) and budgets one circuit. A failed
 /// verification is an error, never a silent success.
 pub fn compile(
@@ -206,8 +237,20 @@ pub fn compile(
     profile: &Profile,
     cfg: &CompileConfig,
 ) -> Result<Compiled, DriverError> {
+    compile_with(c, profile, cfg, &mut |_| {})
+}
+
+/// [`compile`], calling `on_stage` as each stage starts.
+pub fn compile_with(
+    c: &Circuit,
+    profile: &Profile,
+    cfg: &CompileConfig,
+    on_stage: &mut dyn FnMut(Stage),
+) -> Result<Compiled, DriverError> {
+    on_stage(Stage::Compile);
     let (sequence, origin) = compile_baseline_traced(c, profile, cfg.target)?;
     let verification = if cfg.verify {
+        on_stage(Stage::Verify);
         let a = Program::from_circuit(c).map_err(CheckError::Lower)?;
         let b = Program::from_sequence(&sequence);
         match check(&a, &b, &cfg.check) {
@@ -219,7 +262,8 @@ pub fn compile(
                     v.fidelity
                 )))
             }
-            Err(CheckError::TooLarge { .. }) => {
+            Err(CheckError::TooLarge { .. } | CheckError::TooSlow { .. }) => {
+                on_stage(Stage::VerifyGateByGate);
                 let b = check_blockwise(c, &sequence, &origin, &cfg.check)?;
                 if !b.equivalent {
                     return Err(DriverError::NotEquivalent(b.detail));
@@ -231,6 +275,7 @@ pub fn compile(
     } else {
         None
     };
+    on_stage(Stage::Budget);
     let budget = budget(&sequence, profile, c.n_qubits());
     Ok(Compiled {
         sequence,

@@ -278,9 +278,12 @@ fn run(cli: Cli) -> Result<ExitCode, Failure> {
             limits,
         } => {
             let limits = limits.limits();
-            let (pa, wa) = driver::load_program(&a, &limits)?;
-            let (pb, wb) = driver::load_program(&b, &limits)?;
-            eprint!("{wa}{wb}");
+            let progress = Progress::start(&a);
+            progress.stage("reading both sides");
+            let loaded = driver::load_program(&a, &limits)
+                .and_then(|pa| Ok((pa, driver::load_program(&b, &limits)?)));
+            let ((pa, wa), (pb, wb)) = loaded.inspect_err(|_| progress.clear())?;
+            progress.0.suspend(|| eprint!("{wa}{wb}"));
             let cfg = CheckConfig {
                 mode,
                 trials,
@@ -290,7 +293,10 @@ fn run(cli: Cli) -> Result<ExitCode, Failure> {
                 up_to_final_diagonal,
                 ..CheckConfig::default()
             };
-            let verdict = tutti::sim::check(&pa, &pb, &cfg).map_err(|e| format!("error: {e}"))?;
+            progress.stage("comparing");
+            let verdict = tutti::sim::check(&pa, &pb, &cfg);
+            progress.clear();
+            let verdict = verdict.map_err(|e| format!("error: {e}"))?;
             if json {
                 println!(
                     "{}",
@@ -324,16 +330,49 @@ fn compile_one(
     verify: bool,
     limits: &Limits,
 ) -> Result<(tutti::circuit::Circuit, driver::Compiled), Failure> {
-    let circuit = read(file, limits)?;
-    let profile = driver::load_profile(device)?;
+    let progress = Progress::start(file);
+    progress.stage("reading");
+    // Warnings are printed while reading: the spinner steps aside meanwhile.
+    let circuit = progress.0.suspend(|| read(file, limits));
+    let circuit = circuit.inspect_err(|_| progress.clear())?;
+    let profile = driver::load_profile(device).inspect_err(|_| progress.clear())?;
     let cfg = CompileConfig {
         target,
         verify,
         ..CompileConfig::default()
     };
-    let compiled = driver::compile(&circuit, &profile, &cfg).map_err(|e| Failure {
+    let compiled = driver::compile_with(&circuit, &profile, &cfg, &mut |stage| {
+        progress.stage(stage.describe())
+    });
+    progress.clear();
+    let compiled = compiled.map_err(|e| Failure {
         message: format!("error: {}: {e}\n", file.display()),
         code: e.exit_code(),
     })?;
     Ok((circuit, compiled))
+}
+
+/// A spinner on stderr with the stage and the time so far; drawn only when stderr is
+/// a terminal (indicatif hides it otherwise, so logs and pipes stay clean).
+struct Progress(indicatif::ProgressBar);
+
+impl Progress {
+    fn start(file: &Path) -> Progress {
+        let bar = indicatif::ProgressBar::new_spinner();
+        let style =
+            indicatif::ProgressStyle::with_template("{spinner} {prefix}: {msg} ({elapsed})")
+                .unwrap_or_else(|_| indicatif::ProgressStyle::default_spinner());
+        bar.set_style(style);
+        bar.set_prefix(file.display().to_string());
+        bar.enable_steady_tick(std::time::Duration::from_millis(120));
+        Progress(bar)
+    }
+
+    fn stage(&self, what: &str) {
+        self.0.set_message(what.to_string());
+    }
+
+    fn clear(&self) {
+        self.0.finish_and_clear();
+    }
 }

@@ -318,6 +318,30 @@ fn registers_beyond_the_memory_budget_are_refused_with_the_memory_they_need() {
 }
 
 #[test]
+fn comparisons_beyond_the_work_budget_are_refused_with_the_work_they_need() {
+    // 12 qubits entangled by a chain, not Clifford: random mode, 3 trials.
+    let chain: String = (0..11)
+        .map(|i| format!("cx q[{i}],q[{}]; t q[{}];", i + 1, i + 1))
+        .collect();
+    let a = program(&qasm(12, &format!("t q[0]; h q[0]; {chain}")));
+    let bounded = CheckConfig {
+        max_work: 1e5,
+        ..CheckConfig::default()
+    };
+    match check(&a, &a, &bounded) {
+        Err(CheckError::TooSlow {
+            qubits: 12,
+            operations,
+            work,
+            ..
+        }) => assert_eq!(work, operations as f64 * 4096.0 * 3.0),
+        other => panic!("{other:?}"),
+    }
+    // The same comparison within the default (unbounded) work runs and agrees.
+    assert!(check(&a, &a, &CheckConfig::default()).unwrap().equivalent);
+}
+
+#[test]
 fn a_final_diagonal_before_measurement_is_accepted_only_when_asked() {
     let a = qasm(
         3,

@@ -115,3 +115,21 @@ fn gate_by_gate_verification_catches_a_corrupted_block_and_a_bad_trace() {
     disordered.swap(0, origin.len() - 1);
     assert!(check_blockwise(&circuit, &seq, &disordered, &cfg).is_err());
 }
+
+#[test]
+fn the_default_compile_verifies_a_large_circuit_gate_by_gate_within_bounded_work() {
+    // With the default 8 GiB budget a 28-qubit state pair fits in memory, but the whole
+    // comparison would take hours; the default work bound sends it gate by gate.
+    let cfg = CompileConfig::default();
+    assert!(cfg.check.max_work.is_finite() && cfg.check.max_work <= 1e12);
+    let circuit = common::read_ok("tests/data/qasmbench/large/adder_n28/adder_n28.qasm".as_ref());
+    let out = compile(&circuit, &Profile::demo(), &cfg).unwrap();
+    match out.verification {
+        Some(Verification::GateByGate(b)) => assert!(b.equivalent, "{b:?}"),
+        other => panic!("expected gate-by-gate verification, got {other:?}"),
+    }
+    // A small circuit still gets the whole comparison under the same default.
+    let small = common::read_ok("circuits/qft_5.qasm".as_ref());
+    let out = compile(&small, &Profile::demo(), &cfg).unwrap();
+    assert!(matches!(out.verification, Some(Verification::Whole(v)) if v.equivalent));
+}

@@ -58,6 +58,11 @@ pub struct CheckConfig {
     pub memory_budget: usize,
     /// Accept a final diagonal on the qubits measured at the end.
     pub up_to_final_diagonal: bool,
+    /// Most work one comparison may take, in amplitude updates (operations of both
+    /// programs times 2^qubits times trials; 4^qubits per operation for unitaries).
+    /// Infinite by default; the compile driver sets a bound and then verifies gate
+    /// by gate instead of waiting for hours.
+    pub max_work: f64,
 }
 
 impl Default for CheckConfig {
@@ -70,6 +75,7 @@ impl Default for CheckConfig {
             max_unitary_qubits: 10,
             memory_budget: 8 << 30,
             up_to_final_diagonal: false,
+            max_work: f64::INFINITY,
         }
     }
 }
@@ -103,6 +109,13 @@ pub enum CheckError {
         qubits: usize,
         needed: usize,
         budget: usize,
+    },
+    #[error("{qubits} qubits with {operations} operations need about {work:.1e} amplitude updates, more than the budget of {budget:.1e}")]
+    TooSlow {
+        qubits: usize,
+        operations: usize,
+        work: f64,
+        budget: f64,
     },
     #[error("tableau mode needs Clifford programs, but {0}")]
     NotClifford(String),
@@ -587,6 +600,20 @@ fn compare(
             qubits: n,
             needed,
             budget: cfg.memory_budget,
+        });
+    }
+    let operations = p.len() + q.len();
+    let work = if use_unitary {
+        operations as f64 * 4f64.powi(n as i32)
+    } else {
+        operations as f64 * 2f64.powi(n as i32) * cfg.trials.max(1) as f64
+    };
+    if work > cfg.max_work {
+        return Err(CheckError::TooSlow {
+            qubits: n,
+            operations,
+            work,
+            budget: cfg.max_work,
         });
     }
     if use_unitary {

@@ -282,7 +282,7 @@ fn run(cli: Cli) -> Result<ExitCode, Failure> {
             progress.stage("reading both sides");
             let loaded = driver::load_program(&a, &limits)
                 .and_then(|pa| Ok((pa, driver::load_program(&b, &limits)?)));
-            let ((pa, wa), (pb, wb)) = loaded.inspect_err(|_| progress.clear())?;
+            let ((pa, wa), (pb, wb)) = loaded.map_err(|e| progress.cleared(e))?;
             progress.0.suspend(|| eprint!("{wa}{wb}"));
             let cfg = CheckConfig {
                 mode,
@@ -334,8 +334,8 @@ fn compile_one(
     progress.stage("reading");
     // Warnings are printed while reading: the spinner steps aside meanwhile.
     let circuit = progress.0.suspend(|| read(file, limits));
-    let circuit = circuit.inspect_err(|_| progress.clear())?;
-    let profile = driver::load_profile(device).inspect_err(|_| progress.clear())?;
+    let circuit = circuit.map_err(|e| progress.cleared(e))?;
+    let profile = driver::load_profile(device).map_err(|e| progress.cleared(e))?;
     let cfg = CompileConfig {
         target,
         verify,
@@ -374,5 +374,11 @@ impl Progress {
 
     fn clear(&self) {
         self.0.finish_and_clear();
+    }
+
+    /// Clears the spinner and passes an error on.
+    fn cleared<E>(&self, e: E) -> E {
+        self.clear();
+        e
     }
 }

@@ -146,14 +146,3 @@ fn skip_block_comment(lex: &mut logos::Lexer<Token>) -> logos::FilterResult<(), 
         }
     }
 }
-
-/// Lexes a whole file into tokens with byte ranges; the last token is `Eof`.
-pub fn lex(text: &str) -> Vec<(Token, std::ops::Range<usize>)> {
-    let mut out = Vec::with_capacity(text.len() / 4);
-    let mut lexer = Token::lexer(text);
-    while let Some(tok) = lexer.next() {
-        out.push((tok.unwrap_or(Token::Error), lexer.span()));
-    }
-    out.push((Token::Eof, text.len()..text.len()));
-    out
-}

@@ -227,8 +227,9 @@ fn run(cli: Cli) -> Result<ExitCode, Failure> {
             }
             let compiler = compiler_name(baseline);
             eprintln!(
-                "compiled {} for {device} ({target:?} target, {compiler})",
-                file.display()
+                "compiled {} for {device} ({} target, {compiler})",
+                file.display(),
+                target.name()
             );
             match &compiled.verification {
                 Some(v) => eprintln!("verified: {}", v.describe()),
@@ -258,8 +259,9 @@ fn run(cli: Cli) -> Result<ExitCode, Failure> {
                 );
             } else {
                 println!(
-                    "{} on {device} ({target:?} target, {compiler})",
-                    file.display()
+                    "{} on {device} ({} target, {compiler})",
+                    file.display(),
+                    target.name()
                 );
                 print!("{}", tutti::report::budget_table(&compiled.budget));
             }

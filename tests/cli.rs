@@ -143,6 +143,15 @@ fn budget_json_has_the_design_figures() {
 }
 
 #[test]
+fn the_budget_table_names_the_target_as_the_option_spells_it() {
+    for target in ["collective", "addressed"] {
+        let (code, out, err) = tutti(&["budget", "circuits/qft_3.qasm", "--target", target]);
+        assert_eq!(code, 0, "{err}");
+        assert!(out.contains(&format!("({target} target")), "{out}");
+    }
+}
+
+#[test]
 fn an_opaque_gate_is_a_clear_compile_error() {
     let f = scratch("opaque.qasm");
     std::fs::write(

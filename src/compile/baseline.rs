@@ -31,6 +31,16 @@ pub enum Target {
     Addressed,
 }
 
+impl Target {
+    /// The name the command line takes and prints.
+    pub fn name(self) -> &'static str {
+        match self {
+            Target::Collective => "collective",
+            Target::Addressed => "addressed",
+        }
+    }
+}
+
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
 pub enum CompileError {
     #[error(transparent)]

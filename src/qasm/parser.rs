@@ -123,46 +123,10 @@ type PResult<T> = Result<T, ()>;
 /// Parses one file. `is_main` asks for the `OPENQASM 2.0;` header (its absence is a
 /// warning, since real files often omit it).
 pub fn parse(file: FileId, text: &str, is_main: bool) -> (Program<'_>, Vec<Diagnostic>) {
-    let mut stmts = Vec::new();
-    let diags = parse_each(file, text, is_main, |s| {
-        stmts.push(s.clone());
-        true
-    });
-    (Program { stmts }, diags)
-}
-
-/// Statements per batch of [`parse_each`]: small enough to stay in cache.
-const STMTS_PER_BATCH: usize = 64;
-
-/// Parses one file and hands each statement to `on_stmt` soon after it is read (in
-/// small batches), so that a large file is never held as a whole tree; `on_stmt`
-/// returns false to stop. Returns the parser's diagnostics of everything before the
-/// statement that stopped (none the reader may have seen beyond it).
-pub fn parse_each<'a>(
-    file: FileId,
-    text: &'a str,
-    is_main: bool,
-    mut on_stmt: impl FnMut(&Stmt<'a>) -> bool,
-) -> Vec<Diagnostic> {
     let mut reader = StmtReader::new(file, text, is_main);
-    let mut batch = Vec::with_capacity(STMTS_PER_BATCH);
-    let mut stopped_at = None;
-    loop {
-        let more = reader.fill(&mut batch, STMTS_PER_BATCH, u32::MAX) == Fill::More;
-        if let Some(s) = batch.iter().find(|s| !on_stmt(s)) {
-            stopped_at = Some(s.span().start);
-            break;
-        }
-        if !more {
-            break;
-        }
-        reader.recycle(&mut batch);
-    }
-    let mut diags = reader.finish();
-    if let Some(at) = stopped_at {
-        diags.retain(|d| d.span.start < at);
-    }
-    diags
+    let mut stmts = Vec::new();
+    reader.fill(&mut stmts, usize::MAX, u32::MAX);
+    (Program { stmts }, reader.finish())
 }
 
 /// How a call of [`StmtReader::fill`] ended.
@@ -900,8 +864,6 @@ impl<'a> Parser<'a> {
         let mut product: Option<(f64, BinOp)> = None;
         let mut value = 0.0;
         let mut negate = false;
-        let mut atoms = 0;
-        let mut lone_pi = false;
         let mut expect_atom = true;
         let tokens = std::iter::once(self.cur).chain(self.tokens.ahead().iter().copied());
         for (n, tok) in tokens.take(MOST_TOKENS).enumerate() {
@@ -917,8 +879,6 @@ impl<'a> Parser<'a> {
                     Token::Pi => std::f64::consts::PI,
                     _ => return None,
                 };
-                atoms += 1;
-                lone_pi = tok.kind == Token::Pi && n == 0;
                 let v = if negate { -v } else { v };
                 negate = false;
                 value = match product.take() {
@@ -942,7 +902,7 @@ impl<'a> Parser<'a> {
                             self.bump();
                         }
                         // A lone `pi` stays symbolic, as the general rules leave it.
-                        let kind = if lone_pi && atoms == 1 {
+                        let kind = if n == 1 && self.prev.kind == Token::Pi {
                             ExprKind::Pi
                         } else {
                             ExprKind::Number(total)

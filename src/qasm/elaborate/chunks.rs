@@ -14,13 +14,11 @@
 
 use super::*;
 use crate::qasm::parser::{Fill, StmtReader};
-use std::sync::atomic::{AtomicBool, Ordering};
+use std::sync::atomic::AtomicBool;
+use std::sync::atomic::Ordering;
 
 /// At most this much of the file is read before the names in scope are copied.
 const PREFIX_BYTES: usize = 64 << 10;
-
-/// Statements handed from the reader to the elaborator at a time.
-const BATCH: usize = 64;
 
 /// How far to look past a chunk's nominal start for a line ending in `;`.
 const CUT_SEARCH_BYTES: usize = 1 << 20;
@@ -29,7 +27,8 @@ const CUT_SEARCH_BYTES: usize = 1 << 20;
 struct Ahead<'a> {
     reader: StmtReader<'a>,
     instrs: Vec<Instr>,
-    /// Whether the chunk read without diagnostics and without changing the scope.
+    /// Whether the chunk was read to its end without diagnostics and without
+    /// changing the scope.
     valid: bool,
 }
 
@@ -41,33 +40,6 @@ impl<'l> Elaborator<'l> {
             n => n,
         };
         threads.min(len / self.limits.min_chunk_bytes.max(1)).max(1)
-    }
-
-    /// Elaborates what `reader` reads until the next statement would start at or
-    /// after byte `stop`, the file ends, or a limit stops elaboration (then
-    /// `stopped_at` is where the statement that stopped it starts).
-    fn run<'a>(
-        &mut self,
-        reader: &mut StmtReader<'a>,
-        batch: &mut Vec<Stmt<'a>>,
-        stop: u32,
-        sources: &mut SourceMap,
-        stopped_at: &mut Option<u32>,
-    ) -> Fill {
-        loop {
-            let fill = reader.fill(batch, BATCH, stop);
-            for s in batch.iter() {
-                self.statement(s, sources);
-                if self.stopped {
-                    *stopped_at = Some(s.span().start);
-                    break;
-                }
-            }
-            reader.recycle(batch);
-            if self.stopped || fill != Fill::More {
-                return fill;
-            }
-        }
     }
 
     /// An elaborator for reading ahead: the names in scope of this one, no operations.
@@ -93,7 +65,6 @@ impl<'l> Elaborator<'l> {
             stopped: false,
             scope_changes: 0,
             ahead: true,
-            aborted: false,
             chunks_ahead: 0,
         }
     }
@@ -101,130 +72,95 @@ impl<'l> Elaborator<'l> {
     /// Reads one chunk ahead, on its own thread.
     fn read_ahead<'a>(
         mut self,
-        mut reader: StmtReader<'a>,
+        reader: StmtReader<'a>,
         stop: u32,
         cancel: &AtomicBool,
     ) -> Ahead<'a> {
         // Never used: reading ahead stops at any include before loading it.
         let mut sources = SourceMap::default();
-        let mut batch = Vec::with_capacity(BATCH);
-        let mut finished = false;
-        loop {
-            let fill = reader.fill(&mut batch, BATCH, stop);
-            for s in &batch {
-                self.statement(s, &mut sources);
-                if self.stopped {
-                    break;
-                }
-            }
-            reader.recycle(&mut batch);
-            let spoiled = self.stopped || !self.diags.is_empty() || reader.has_diagnostics();
-            if spoiled || cancel.load(Ordering::Relaxed) {
-                break;
-            }
-            if fill != Fill::More {
-                finished = true;
-                break;
-            }
-        }
-        let valid = finished
-            && !self.stopped
-            && !self.aborted
-            && self.diags.is_empty()
-            && !reader.has_diagnostics();
+        let mut reading = Reading::new(reader);
+        let fill = self.run(&mut reading, stop, &mut sources, Some(cancel));
         Ahead {
-            reader,
+            valid: fill != Fill::More && !self.stopped,
+            reader: reading.reader,
             instrs: self.circuit.instrs,
-            valid,
         }
     }
 
-    /// Reads the main file in `n_chunks` chunks; returns the parser's diagnostics.
-    pub(super) fn read_in_chunks(
+    /// Reads the main file from `reading` (at its start) in `n_chunks` chunks, the
+    /// later ones ahead on other threads, as far as the chunks can be used; the caller
+    /// reads on from where `reading` is left.
+    pub(super) fn read_chunks_ahead<'a>(
         &mut self,
+        reading: &mut Reading<'a>,
         file: FileId,
-        text: &str,
+        text: &'a str,
         n_chunks: usize,
         sources: &mut SourceMap,
-    ) -> Vec<Diagnostic> {
-        let mut diags = Vec::new();
-        let mut batch = Vec::with_capacity(BATCH);
-        let mut reader = StmtReader::new(file, text, true);
-        let mut stopped_at = None;
+    ) {
         let cuts = cut_points(text, n_chunks);
         let prefix = cuts.first().map_or(0, |&c| (c / 2).min(PREFIX_BYTES));
-        let fill = self.run(
-            &mut reader,
-            &mut batch,
-            prefix as u32,
-            sources,
-            &mut stopped_at,
-        );
-        if fill != Fill::End && !self.stopped {
-            let snapshot = self.scope_changes;
-            // Each chunk starts at the first token after its cut; they must increase.
-            let mut aheads = Vec::new();
-            let mut firsts: Vec<u32> = Vec::new();
-            for &cut in &cuts {
-                let r = StmtReader::starting_at(file, text, cut);
-                let first = r.next_start();
-                let after = firsts.last().copied().unwrap_or(reader.next_start());
-                if (first as usize) < text.len() && first > after {
-                    firsts.push(first);
-                    aheads.push(r);
-                }
-            }
-            let cancel = AtomicBool::new(false);
-            std::thread::scope(|scope| {
-                let mut handles = Vec::new();
-                for (i, r) in aheads.into_iter().enumerate() {
-                    let stop = firsts.get(i + 1).copied().unwrap_or(u32::MAX);
-                    let len = stop.min(text.len() as u32) - firsts[i];
-                    let worker = self.fork(len as usize / 16);
-                    let cancel = &cancel;
-                    handles.push(scope.spawn(move || worker.read_ahead(r, stop, cancel)));
-                }
-                let mut unused = Vec::new();
-                let mut handles = handles.into_iter();
-                for (handle, &first) in handles.by_ref().zip(&firsts) {
-                    let fill = self.run(&mut reader, &mut batch, first, sources, &mut stopped_at);
-                    if self.stopped || fill == Fill::End {
-                        unused.push(handle);
-                        break;
-                    }
-                    let usable = reader.next_start() == first
-                        && reader.last_ok()
-                        && self.scope_changes == snapshot;
-                    if !usable {
-                        unused.push(handle);
-                        continue;
-                    }
-                    // A reader that panicked (a bug) only costs its chunk being reread.
-                    let Ok(ahead) = handle.join() else { continue };
-                    let fits =
-                        self.circuit.instrs.len() + ahead.instrs.len() <= self.limits.max_ops;
-                    if ahead.valid && fits {
-                        self.circuit.instrs.extend(ahead.instrs);
-                        self.chunks_ahead += 1;
-                        diags.extend(std::mem::replace(&mut reader, ahead.reader).finish());
-                    }
-                }
-                // Chunks not used by now are of no use any more.
-                cancel.store(true, Ordering::Relaxed);
-                for handle in unused.into_iter().chain(handles) {
-                    let _ = handle.join();
-                }
-            });
-            if !self.stopped {
-                self.run(&mut reader, &mut batch, u32::MAX, sources, &mut stopped_at);
+        let fill = self.run(reading, prefix as u32, sources, None);
+        if fill == Fill::End || self.stopped {
+            return;
+        }
+        let snapshot = self.scope_changes;
+        // Each chunk starts at the first token after its cut; they must increase.
+        let mut aheads = Vec::new();
+        let mut firsts: Vec<u32> = Vec::new();
+        for &cut in &cuts {
+            let r = StmtReader::starting_at(file, text, cut);
+            let first = r.next_start();
+            let after = firsts
+                .last()
+                .copied()
+                .unwrap_or(reading.reader.next_start());
+            if (first as usize) < text.len() && first > after {
+                firsts.push(first);
+                aheads.push(r);
             }
         }
-        diags.extend(reader.finish());
-        // As when read on one thread: nothing the readers saw beyond the stop.
-        if let Some(at) = stopped_at {
-            diags.retain(|d| d.span.start < at);
-        }
-        diags
+        let cancel = AtomicBool::new(false);
+        std::thread::scope(|scope| {
+            let mut handles = Vec::new();
+            for (i, r) in aheads.into_iter().enumerate() {
+                let stop = firsts.get(i + 1).copied().unwrap_or(u32::MAX);
+                let len = stop.min(text.len() as u32) - firsts[i];
+                let worker = self.fork(len as usize / 16);
+                let cancel = &cancel;
+                handles.push(scope.spawn(move || worker.read_ahead(r, stop, cancel)));
+            }
+            let mut unused = Vec::new();
+            let mut handles = handles.into_iter();
+            for (handle, &first) in handles.by_ref().zip(&firsts) {
+                let fill = self.run(reading, first, sources, None);
+                if self.stopped || fill == Fill::End {
+                    unused.push(handle);
+                    break;
+                }
+                let usable = reading.reader.next_start() == first
+                    && reading.reader.last_ok()
+                    && self.scope_changes == snapshot;
+                if !usable {
+                    unused.push(handle);
+                    continue;
+                }
+                // A reader that panicked (a bug) only costs its chunk being reread.
+                let Ok(ahead) = handle.join() else { continue };
+                let fits = self.circuit.instrs.len() + ahead.instrs.len() <= self.limits.max_ops;
+                if ahead.valid && fits {
+                    self.circuit.instrs.extend(ahead.instrs);
+                    self.chunks_ahead += 1;
+                    reading.switch_to(ahead.reader);
+                }
+            }
+            // Chunks not used by now are of no use any more.
+            cancel.store(true, Ordering::Relaxed);
+            for handle in unused.into_iter().chain(handles) {
+                // Its outcome is not needed; a panic there only cost the work ahead.
+                let _ = handle.join();
+            }
+        });
     }
 }
 

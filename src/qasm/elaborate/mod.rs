@@ -9,7 +9,7 @@ mod chunks;
 
 use super::ast::*;
 use super::diag::{Diagnostic, FileId, SourceMap, Span};
-use super::parser::parse_each;
+use super::parser::{Fill, StmtReader};
 use crate::circuit::gates::QELIB1_2017;
 use crate::circuit::*;
 use compact_str::CompactString;
@@ -129,7 +129,6 @@ pub fn read_with(name: &str, text: &str, limits: &Limits, loader: &dyn Loader) -
         last_reg: None,
         scope_changes: 0,
         ahead: false,
-        aborted: false,
         chunks_ahead: 0,
     };
     let file = sources.add(name, text);
@@ -150,6 +149,47 @@ pub fn read_with(name: &str, text: &str, limits: &Limits, loader: &dyn Loader) -
         diagnostics,
         sources,
         chunks_ahead: e.chunks_ahead,
+    }
+}
+
+/// Statements handed from the reader to the elaborator at a time.
+const BATCH: usize = 64;
+
+/// Where the reading of one file stands: the reader, the batch in use, the parser's
+/// diagnostics of readers already done with, and where a limit stopped elaboration.
+struct Reading<'a> {
+    reader: StmtReader<'a>,
+    batch: Vec<Stmt<'a>>,
+    diags: Vec<Diagnostic>,
+    stopped_at: Option<u32>,
+}
+
+impl<'a> Reading<'a> {
+    fn new(reader: StmtReader<'a>) -> Reading<'a> {
+        Reading {
+            reader,
+            batch: Vec::with_capacity(BATCH),
+            diags: Vec::new(),
+            stopped_at: None,
+        }
+    }
+
+    /// Goes on with `reader` (which read a chunk ahead and stands where it ends).
+    fn switch_to(&mut self, reader: StmtReader<'a>) {
+        let done = std::mem::replace(&mut self.reader, reader);
+        self.diags.extend(done.finish());
+    }
+
+    /// The parser's diagnostics. When a limit stopped elaboration, only those before
+    /// the statement that stopped it: readers read ahead in batches and chunks, and
+    /// what they saw beyond the stop is dropped, so the outcome does not depend on it.
+    fn finish(self) -> Vec<Diagnostic> {
+        let mut diags = self.diags;
+        diags.extend(self.reader.finish());
+        if let Some(at) = self.stopped_at {
+            diags.retain(|d| d.span.start < at);
+        }
+        diags
     }
 }
 
@@ -184,9 +224,8 @@ struct Elaborator<'l> {
     /// definitions, includes); a chunk read ahead is valid only if none came between.
     scope_changes: u64,
     /// Set for an elaborator that reads a chunk ahead: it stops at any statement
-    /// that would change the names in scope, and sets `aborted`.
+    /// that would change the names in scope (as if a limit stopped it).
     ahead: bool,
-    aborted: bool,
     /// Chunks read ahead and used.
     chunks_ahead: usize,
 }
@@ -274,16 +313,53 @@ impl<'l> Elaborator<'l> {
             );
             return;
         }
-        let n_chunks = self.n_chunks(text.len());
-        let diags = if is_main && n_chunks > 1 {
-            self.read_in_chunks(file, &text, n_chunks, sources)
+        let mut reading = Reading::new(StmtReader::new(file, &text, is_main));
+        let n_chunks = if is_main {
+            self.n_chunks(text.len())
         } else {
-            parse_each(file, &text, is_main, |stmt| {
-                self.statement(stmt, sources);
-                !self.stopped
-            })
+            1
         };
+        if n_chunks > 1 {
+            self.read_chunks_ahead(&mut reading, file, &text, n_chunks, sources);
+        }
+        if !self.stopped {
+            self.run(&mut reading, u32::MAX, sources, None);
+        }
+        let diags = reading.finish();
         self.diags.extend(diags);
+    }
+
+    /// Elaborates what `reading` reads until the next statement would start at or
+    /// after byte `stop`, the file ends, a limit stops elaboration, or `cancel` is
+    /// set. An elaborator reading ahead also stops at its first diagnostic (the chunk
+    /// is then of no use); such early ends return [`Fill::More`].
+    fn run<'a>(
+        &mut self,
+        reading: &mut Reading<'a>,
+        stop: u32,
+        sources: &mut SourceMap,
+        cancel: Option<&std::sync::atomic::AtomicBool>,
+    ) -> Fill {
+        loop {
+            let fill = reading.reader.fill(&mut reading.batch, BATCH, stop);
+            for s in &reading.batch {
+                self.statement(s, sources);
+                if self.stopped {
+                    reading.stopped_at = Some(s.span().start);
+                    break;
+                }
+            }
+            reading.reader.recycle(&mut reading.batch);
+            let spoiled =
+                self.ahead && (!self.diags.is_empty() || reading.reader.has_diagnostics());
+            let cancelled = cancel.is_some_and(|c| c.load(std::sync::atomic::Ordering::Relaxed));
+            if self.stopped || spoiled || cancelled {
+                return Fill::More;
+            }
+            if fill != Fill::More {
+                return fill;
+            }
+        }
     }
 
     fn statement(&mut self, stmt: &Stmt, sources: &mut SourceMap) {
@@ -293,7 +369,6 @@ impl<'l> Elaborator<'l> {
         ) {
             self.scope_changes += 1;
             if self.ahead {
-                self.aborted = true;
                 self.stopped = true;
                 return;
             }
@@ -571,33 +646,8 @@ impl<'l> Elaborator<'l> {
             );
             return;
         }
-        let mut ok = true;
-        for (i, p) in def.params.iter().enumerate() {
-            if def.params[..i].iter().any(|q| q.name == p.name) {
-                self.diags.push(
-                    Diagnostic::error(
-                        "duplicate-parameter",
-                        p.span,
-                        format!("parameter `{}` is listed twice", p.name),
-                    )
-                    .hint("give each parameter its own name"),
-                );
-                ok = false;
-            }
-        }
-        for (i, a) in def.qargs.iter().enumerate() {
-            if def.qargs[..i].iter().any(|q| q.name == a.name) {
-                self.diags.push(
-                    Diagnostic::error(
-                        "duplicate-argument",
-                        a.span,
-                        format!("qubit argument `{}` is listed twice", a.name),
-                    )
-                    .hint("give each qubit argument its own name"),
-                );
-                ok = false;
-            }
-        }
+        let mut ok = self.distinct_names(&def.params, "duplicate-parameter", "parameter");
+        ok &= self.distinct_names(&def.qargs, "duplicate-argument", "qubit argument");
         let mut nesting = 1;
         if let Some(body) = &def.body {
             for stmt in body {
@@ -725,6 +775,21 @@ impl<'l> Elaborator<'l> {
             body,
             nesting,
         }));
+    }
+
+    /// Reports every name of `names` listed before; true when all are distinct.
+    fn distinct_names(&mut self, names: &[Ident], code: &'static str, what: &str) -> bool {
+        let mut ok = true;
+        for (i, n) in names.iter().enumerate() {
+            if names[..i].iter().any(|m| m.name == n.name) {
+                self.diags.push(
+                    Diagnostic::error(code, n.span, format!("{what} `{}` is listed twice", n.name))
+                        .hint(format!("give each {what} its own name")),
+                );
+                ok = false;
+            }
+        }
+        ok
     }
 
     fn check_expr_names(&mut self, e: &Expr, params: &[Ident]) -> bool {

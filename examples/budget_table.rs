@@ -34,10 +34,11 @@ fn main() {
                 Ok(c) => {
                     let b = c.budget;
                     println!(
-                        "| {} | {} | {} | {target:?} | {} | {:.2} | {} | {} | {:.0} | {:.3} |",
+                        "| {} | {} | {} | {} | {} | {:.2} | {} | {} | {:.0} | {:.3} |",
                         path.file_stem().unwrap().to_string_lossy(),
                         s.qubits,
                         s.two_qubit_ops + s.multi_qubit_ops,
+                        target.name(),
                         b.ms_pulses,
                         b.ms_area,
                         b.collective_pulses,

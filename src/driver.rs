@@ -1,5 +1,6 @@
-//! The whole job for one file: read, compile, verify, budget, write. The only
-//! library module besides `batch` that touches the file system.
+//! The whole job for one file: read, compile, verify, budget, write. With the front
+//! end's file reading (`qasm::read_file`, includes) the only library code that
+//! touches the file system.
 
 use crate::circuit::Circuit;
 use crate::compile::{compile_baseline_traced, CompileError, Target};
@@ -76,7 +77,8 @@ pub fn load(path: &Path, limits: &Limits) -> Result<(Loaded, String), String> {
     let name = path.display().to_string();
     match Format::sniff(path, &text) {
         Format::Qasm => {
-            let out = qasm::read_file(path, limits);
+            // The text is read already: elaborate it, do not read the file again.
+            let out = qasm::elaborate::read_with(&name, &text, limits, &qasm::FsLoader);
             let rendered = out.render();
             match out.circuit {
                 // A file tutti wrote maps back to its sequence exactly; it must also be

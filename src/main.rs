@@ -100,10 +100,12 @@ enum Command {
     Budget {
         /// The OpenQASM 2 circuit to budget.
         file: PathBuf,
+        /// Device profile: `demo` (embedded, invented example numbers) or a TOML file.
         #[arg(long, default_value = "demo")]
         device: String,
         #[arg(long, value_enum, default_value_t = Target::Collective)]
         target: Target,
+        /// Budget what the reference compiler makes (every two-qubit gate on its own).
         #[arg(long)]
         baseline: bool,
         /// Print one JSON object.

@@ -12,7 +12,7 @@
 //! time slot as long as the longest of them. Consecutive measurements of distinct
 //! ions are one readout (one time slot). Frame changes take no time.
 
-use crate::native::profile::{Cost, Profile};
+use crate::native::profile::{Cost, PerOp, Profile};
 use crate::native::{NativeOp, Sequence};
 use std::f64::consts::FRAC_PI_2;
 
@@ -34,20 +34,41 @@ pub struct Budget {
     pub idle_us: Vec<f64>,
 }
 
-fn cost_of(p: &Profile, op: &NativeOp, errors: bool) -> (f64, Vec<u32>) {
-    let t = if errors { &p.errors } else { &p.durations_us };
+/// What `op` costs by the table `t` (durations or errors) of the profile.
+fn cost_of(t: &PerOp, op: &NativeOp) -> f64 {
     let opt = |c: Option<Cost>, theta: f64| c.map_or(0.0, |c| c.at(theta));
     match *op {
-        NativeOp::Collective { theta, .. } => (t.collective.at(theta), vec![]),
-        NativeOp::LightShift { ion, theta } => (t.light_shift.at(theta), vec![ion]),
-        NativeOp::Ms { theta, .. } => (t.ms.at(theta), vec![]),
-        NativeOp::PairMs { a, b, theta, .. } => (opt(t.pair_ms, theta), vec![a, b]),
-        NativeOp::Addressed { ion, theta, .. } => (opt(t.addressed, theta), vec![ion]),
-        NativeOp::VirtualZ { .. } => (0.0, vec![]),
-        NativeOp::Hide { ion } => (opt(t.hide, 0.0), vec![ion]),
-        NativeOp::Unhide { ion } => (opt(t.unhide, 0.0), vec![ion]),
-        NativeOp::Measure { ion, .. } => (t.measure.at(0.0), vec![ion]),
-        NativeOp::Reset { ion } => (t.reset.at(0.0), vec![ion]),
+        NativeOp::Collective { theta, .. } => t.collective.at(theta),
+        NativeOp::LightShift { theta, .. } => t.light_shift.at(theta),
+        NativeOp::Ms { theta, .. } => t.ms.at(theta),
+        NativeOp::PairMs { theta, .. } => opt(t.pair_ms, theta),
+        NativeOp::Addressed { theta, .. } => opt(t.addressed, theta),
+        NativeOp::VirtualZ { .. } => 0.0,
+        NativeOp::Hide { .. } => opt(t.hide, 0.0),
+        NativeOp::Unhide { .. } => opt(t.unhide, 0.0),
+        NativeOp::Measure { .. } => t.measure.at(0.0),
+        NativeOp::Reset { .. } => t.reset.at(0.0),
+    }
+}
+
+/// The ions `op` acts on, given which are hidden: every visible ion for the
+/// whole-chain pulses, none for a frame change. Calls `f` on each.
+fn for_each_ion(op: &NativeOp, hidden: &[bool], mut f: impl FnMut(usize)) {
+    match *op {
+        NativeOp::Collective { .. } | NativeOp::Ms { .. } => {
+            (0..hidden.len()).filter(|&i| !hidden[i]).for_each(f)
+        }
+        NativeOp::PairMs { a, b, .. } => {
+            f(a as usize);
+            f(b as usize);
+        }
+        NativeOp::LightShift { ion, .. }
+        | NativeOp::Addressed { ion, .. }
+        | NativeOp::Hide { ion }
+        | NativeOp::Unhide { ion }
+        | NativeOp::Measure { ion, .. }
+        | NativeOp::Reset { ion } => f(ion as usize),
+        NativeOp::VirtualZ { .. } => {}
     }
 }
 
@@ -77,8 +98,8 @@ pub fn budget(seq: &Sequence, profile: &Profile, active: u32) -> Budget {
     let mut layer: Option<(bool, Vec<u32>, f64)> = None;
     for step in &seq.steps {
         let op = &step.op;
-        let (dt, own) = cost_of(profile, op, false);
-        let (err, _) = cost_of(profile, op, true);
+        let dt = cost_of(&profile.durations_us, op);
+        let err = cost_of(&profile.errors, op);
         fidelity *= (1.0 - err).max(0.0);
         match *op {
             NativeOp::Ms { theta, .. } | NativeOp::PairMs { theta, .. } => {
@@ -92,31 +113,19 @@ pub fn budget(seq: &Sequence, profile: &Profile, active: u32) -> Budget {
             NativeOp::Measure { .. } => b.measurements += 1,
             _ => {}
         }
-        let involved: Vec<u32> = match op {
-            NativeOp::Collective { .. } | NativeOp::Ms { .. } => {
-                (0..n as u32).filter(|&i| !hidden[i as usize]).collect()
-            }
-            _ => own,
-        };
         if op.is_entangling() {
-            let d = involved
-                .iter()
-                .map(|&i| depth[i as usize])
-                .max()
-                .unwrap_or(0)
-                + 1;
-            for &i in &involved {
-                depth[i as usize] = d;
-            }
+            let mut d = 0;
+            for_each_ion(op, &hidden, |i| d = d.max(depth[i]));
+            d += 1;
+            for_each_ion(op, &hidden, |i| depth[i] = d);
             b.entangling_depth = b.entangling_depth.max(d);
         }
+        // Busy while acting (a hidden ion is busy being hidden or unhidden).
+        for_each_ion(op, &hidden, |i| busy[i] += dt);
         match *op {
             NativeOp::Hide { ion } => hidden[ion as usize] = true,
             NativeOp::Unhide { ion } => hidden[ion as usize] = false,
             _ => {}
-        }
-        for &i in &involved {
-            busy[i as usize] += dt;
         }
         // Timing, with layers of light shifts and of measurements.
         let layered = match *op {

@@ -10,7 +10,10 @@ use crate::native::text::{read_json, read_pulses, write_json, write_pulses};
 use crate::native::Sequence;
 use crate::qasm::{self, Limits};
 use crate::report::budget::{budget, Budget};
-use crate::sim::{check, check_blockwise, BlockVerdict, CheckConfig, CheckError, Program, Verdict};
+use crate::sim::{
+    check, check_windows, sync_points_from_origin, CheckConfig, CheckError, Program, Verdict,
+    WindowVerdict,
+};
 use std::path::Path;
 
 /// Output formats of a compiled sequence.
@@ -136,7 +139,7 @@ pub struct CompileConfig {
 
 /// Most work of a whole-program verification in [`compile`], in amplitude updates
 /// (about 2^34: a minute or so on one core); above it the sequence is verified gate
-/// by gate, which proves the same and takes seconds.
+/// window by window, which proves the same and takes seconds.
 pub const VERIFY_WORK: f64 = (1u64 << 34) as f64;
 
 impl Default for CompileConfig {
@@ -158,9 +161,10 @@ impl Default for CompileConfig {
 pub enum Verification {
     /// The whole sequence against the whole circuit.
     Whole(Verdict),
-    /// Each instruction against its block of pulses, when the whole comparison would
-    /// need more memory or work than the budget (large circuits that are not Clifford).
-    GateByGate(BlockVerdict),
+    /// Window by window (each instruction against its pulses), when the whole
+    /// comparison would need more memory or work than the budget (large circuits
+    /// that are not Clifford).
+    Windowed(WindowVerdict),
 }
 
 impl Verification {
@@ -168,17 +172,27 @@ impl Verification {
     pub fn describe(&self) -> String {
         match self {
             Verification::Whole(v) => format!(
-                "EQUIVALENT (mode {}, fidelity {:.12}, {} qubit(s) compared)",
+                "EQUIVALENT (mode {}, distance {} within tolerance {:.1e}, {} qubit(s) compared)",
                 v.mode.name(),
-                v.fidelity,
+                fmt_distance(v.distance),
+                v.tolerance,
                 v.compared_qubits
             ),
-            Verification::GateByGate(b) => format!(
-                "EQUIVALENT gate by gate ({} instructions each against its pulses, worst fidelity {:.12}, at most {} qubit(s) per comparison)",
-                b.blocks, b.fidelity, b.compared_qubits
+            Verification::Windowed(b) => format!(
+                "EQUIVALENT window by window ({} windows, mode {}, worst distance {} within tolerance {:.1e}, at most {} qubit(s) per window)",
+                b.windows,
+                b.mode.name(),
+                fmt_distance(b.distance),
+                b.tolerance,
+                b.compared_qubits
             ),
         }
     }
+}
+
+/// A distance for a verdict line.
+pub fn fmt_distance(d: Option<f64>) -> String {
+    d.map_or_else(|| "not measured".into(), |d| format!("{d:.1e}"))
 }
 
 pub struct Compiled {
@@ -215,8 +229,8 @@ pub enum Stage {
     Compile,
     /// The whole sequence against the whole circuit.
     Verify,
-    /// Gate by gate, after the whole comparison was found too large.
-    VerifyGateByGate,
+    /// Window by window, after the whole comparison was found too large.
+    VerifyWindows,
     Budget,
 }
 
@@ -226,7 +240,7 @@ impl Stage {
         match self {
             Stage::Compile => "compiling",
             Stage::Verify => "verifying the sequence against the circuit",
-            Stage::VerifyGateByGate => "verifying gate by gate (too large to compare whole)",
+            Stage::VerifyWindows => "verifying window by window (too large to compare whole)",
             Stage::Budget => "budgeting",
         }
     }
@@ -259,18 +273,21 @@ pub fn compile_with(
             Ok(v) if v.equivalent => Some(Verification::Whole(v)),
             Ok(v) => {
                 return Err(DriverError::NotEquivalent(format!(
-                    "mode {}, fidelity {:.12}",
+                    "mode {}, distance {} against tolerance {:.1e}: {}",
                     v.mode.name(),
-                    v.fidelity
+                    fmt_distance(v.distance),
+                    v.tolerance,
+                    v.detail
                 )))
             }
             Err(CheckError::TooLarge { .. } | CheckError::TooSlow { .. }) => {
-                on_stage(Stage::VerifyGateByGate);
-                let b = check_blockwise(c, &sequence, &origin, &cfg.check)?;
+                on_stage(Stage::VerifyWindows);
+                let sync = sync_points_from_origin(&origin, c.instrs.len())?;
+                let b = check_windows(c, &sequence, &sync, &cfg.check)?;
                 if !b.equivalent {
                     return Err(DriverError::NotEquivalent(b.detail));
                 }
-                Some(Verification::GateByGate(b))
+                Some(Verification::Windowed(b))
             }
             Err(e) => return Err(e.into()),
         }

@@ -56,6 +56,26 @@ impl LimitArgs {
     }
 }
 
+/// `--mode` of `check`, mapped onto the library's [`Mode`].
+#[derive(Clone, Copy, clap::ValueEnum)]
+enum ModeArg {
+    Auto,
+    Unitary,
+    Random,
+    Tableau,
+}
+
+impl From<ModeArg> for Mode {
+    fn from(m: ModeArg) -> Mode {
+        match m {
+            ModeArg::Auto => Mode::Auto,
+            ModeArg::Unitary => Mode::Unitary,
+            ModeArg::Random => Mode::Random,
+            ModeArg::Tableau => Mode::Tableau,
+        }
+    }
+}
+
 #[derive(Subcommand)]
 enum Command {
     /// Read an OpenQASM 2 file and show what it contains: qubits, bits, operations by
@@ -122,21 +142,23 @@ enum Command {
         /// Second program, in any of the same formats.
         b: PathBuf,
         /// How to compare: exact unitaries, random states, stabilizer tableaux, or
-        /// chosen by size and Clifford-ness.
-        #[arg(long, value_enum, default_value_t = Mode::Auto)]
-        mode: Mode,
+        /// chosen by size and Clifford-ness (docs/checker.md).
+        #[arg(long, value_enum, default_value_t = ModeArg::Auto)]
+        mode: ModeArg,
         /// Random states per segment in random mode.
         #[arg(long, default_value_t = CheckConfig::default().trials)]
         trials: usize,
         /// Seed of the random states.
         #[arg(long, default_value_t = CheckConfig::default().seed)]
         seed: u64,
-        /// Fidelities within this of one count as equal.
-        #[arg(long, default_value_t = CheckConfig::default().tolerance)]
-        tolerance: f64,
-        /// Statevector memory budget in MiB.
-        #[arg(long, default_value_t = CheckConfig::default().memory_budget >> 20)]
-        memory: usize,
+        /// Largest distance accepted as equal (docs/checker.md). Default: derived
+        /// for each comparison from its operation counts and rounding.
+        #[arg(long)]
+        tolerance: Option<f64>,
+        /// Memory for states and unitaries, in MiB. Default: three quarters of what
+        /// the process may use (address-space limit and available memory).
+        #[arg(long)]
+        memory: Option<usize>,
         /// Accept a difference by a diagonal on the qubits measured at the end.
         #[arg(long)]
         up_to_final_diagonal: bool,
@@ -288,14 +310,15 @@ fn run(cli: Cli) -> Result<ExitCode, Failure> {
                 .and_then(|pa| Ok((pa, driver::load_program(&b, &limits)?)));
             let ((pa, wa), (pb, wb)) = loaded.map_err(|e| progress.cleared(e))?;
             progress.0.suspend(|| eprint!("{wa}{wb}"));
+            let defaults = CheckConfig::default();
             let cfg = CheckConfig {
-                mode,
+                mode: mode.into(),
                 trials,
                 seed,
                 tolerance,
-                memory_budget: memory << 20,
+                memory_budget: memory.map_or(defaults.memory_budget, |m| m.saturating_mul(1 << 20)),
                 up_to_final_diagonal,
-                ..CheckConfig::default()
+                ..defaults
             };
             progress.stage("comparing");
             let verdict = tutti::sim::check(&pa, &pb, &cfg);

@@ -292,11 +292,10 @@ fn programs_with_measurement_reset_and_conditions_compare_segment_by_segment() {
             .unwrap()
             .equivalent
     );
+    // A reset dropped: the cuts no longer match, which is a difference (exit 1).
     let no_reset = program(&text.replacen("reset q[0];", "", 1));
-    assert!(matches!(
-        check(&a, &no_reset, &CheckConfig::default()),
-        Err(CheckError::Segments(_))
-    ));
+    let v = check(&a, &no_reset, &CheckConfig::default()).unwrap();
+    assert!(!v.equivalent && v.distance.is_none(), "{v:?}");
 }
 
 #[test]

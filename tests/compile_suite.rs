@@ -52,7 +52,7 @@ fn every_circuit_compiles_and_verifies_on_both_targets() {
                             {
                                 None
                             }
-                            Verification::GateByGate(b)
+                            Verification::Windowed(b)
                                 if b.equivalent && GATE_BY_GATE.contains(&name.as_str()) =>
                             {
                                 None
@@ -71,19 +71,25 @@ fn every_circuit_compiles_and_verifies_on_both_targets() {
 }
 
 #[test]
-fn gate_by_gate_verification_catches_a_corrupted_block_and_a_bad_trace() {
+fn windowed_verification_catches_a_corrupted_block_and_a_bad_trace() {
     use tutti::compile::compile_baseline_traced;
     use tutti::native::NativeOp;
-    use tutti::sim::check_blockwise;
+    use tutti::native::Sequence;
+    use tutti::sim::{check_windows, sync_points_from_origin, CheckError};
+    fn windowed(
+        circuit: &tutti::circuit::Circuit,
+        seq: &Sequence,
+        origin: &[u32],
+        cfg: &CheckConfig,
+    ) -> Result<tutti::sim::WindowVerdict, CheckError> {
+        let sync = sync_points_from_origin(origin, circuit.instrs.len())?;
+        check_windows(circuit, seq, &sync, cfg)
+    }
     let circuit = common::read_ok("tests/data/qasmbench/large/adder_n28/adder_n28.qasm".as_ref());
     let profile = Profile::demo();
     let (seq, origin) = compile_baseline_traced(&circuit, &profile, Target::Addressed).unwrap();
     let cfg = CheckConfig::default();
-    assert!(
-        check_blockwise(&circuit, &seq, &origin, &cfg)
-            .unwrap()
-            .equivalent
-    );
+    assert!(windowed(&circuit, &seq, &origin, &cfg).unwrap().equivalent);
     // One light shift off by 1e-3 somewhere in the middle.
     let mut bad = seq.clone();
     let k = bad
@@ -97,23 +103,22 @@ fn gate_by_gate_verification_catches_a_corrupted_block_and_a_bad_trace() {
     if let NativeOp::LightShift { theta, .. } = &mut bad.steps[k].op {
         *theta += 1e-3;
     }
-    let v = check_blockwise(&circuit, &bad, &origin, &cfg).unwrap();
-    assert!(!v.equivalent && v.detail.contains("differs"), "{v:?}");
+    let v = windowed(&circuit, &bad, &origin, &cfg).unwrap();
+    assert!(
+        !v.equivalent && v.detail.contains("instruction 16"),
+        "{v:?}"
+    );
     // A pulse moved to another gate's block: the blocks no longer match.
     let mut shifted = origin.clone();
     let first_change = (1..shifted.len())
         .find(|&i| shifted[i] != shifted[i - 1])
         .unwrap();
     shifted[first_change] = shifted[first_change - 1];
-    assert!(
-        !check_blockwise(&circuit, &seq, &shifted, &cfg)
-            .unwrap()
-            .equivalent
-    );
+    assert!(!windowed(&circuit, &seq, &shifted, &cfg).unwrap().equivalent);
     // A trace out of order is refused.
     let mut disordered = origin.clone();
     disordered.swap(0, origin.len() - 1);
-    assert!(check_blockwise(&circuit, &seq, &disordered, &cfg).is_err());
+    assert!(windowed(&circuit, &seq, &disordered, &cfg).is_err());
 }
 
 #[test]
@@ -125,7 +130,7 @@ fn the_default_compile_verifies_a_large_circuit_gate_by_gate_within_bounded_work
     let circuit = common::read_ok("tests/data/qasmbench/large/adder_n28/adder_n28.qasm".as_ref());
     let out = compile(&circuit, &Profile::demo(), &cfg).unwrap();
     match out.verification {
-        Some(Verification::GateByGate(b)) => assert!(b.equivalent, "{b:?}"),
+        Some(Verification::Windowed(b)) => assert!(b.equivalent, "{b:?}"),
         other => panic!("expected gate-by-gate verification, got {other:?}"),
     }
     // A small circuit still gets the whole comparison under the same default.

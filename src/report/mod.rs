@@ -42,6 +42,13 @@ pub fn verdict_text(v: &Verdict) -> String {
         v.qubits,
         v.segments
     );
+    let _ = writeln!(
+        out,
+        "  distance      {}  (tolerance {:.3e}; docs/checker.md)",
+        v.distance
+            .map_or_else(|| "not measured".into(), |d| format!("{d:.3e}")),
+        v.tolerance
+    );
     let _ = writeln!(out, "  fidelity      {:.12}", v.fidelity);
     match v.global_phase {
         Some(g) => {

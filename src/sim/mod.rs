@@ -11,6 +11,9 @@ pub mod program;
 pub mod state;
 pub mod tableau;
 
-pub use equiv::{check, check_blockwise, BlockVerdict, CheckConfig, CheckError, Mode, Verdict};
+pub use equiv::{
+    check, check_windows, derived_tolerance, sync_points_from_origin, CheckConfig, CheckError,
+    Mode, SyncPoint, Verdict, WindowVerdict,
+};
 pub use program::{Item, Kernel, Program};
 pub use state::StateVector;

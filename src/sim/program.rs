@@ -70,10 +70,14 @@ pub enum Item {
 }
 
 /// A program over `n_qubits` qubits, ready for the simulator and the checker.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, Default)]
 pub struct Program {
     pub n_qubits: usize,
     pub items: Vec<Item>,
+    /// Defects that no unitary shows, found while lowering: an ion measured or reset
+    /// while hidden, an ion still hidden at the end. The checker never calls a
+    /// program with faults equal to anything.
+    pub faults: Vec<String>,
 }
 
 /// Why a program cannot be simulated.
@@ -171,8 +175,17 @@ impl Kernel {
 impl Program {
     /// Lowers a circuit. Barriers vanish; opaque gates are an error.
     pub fn from_circuit(c: &Circuit) -> Result<Program, LowerError> {
+        Program::from_circuit_with_starts(c).map(|(p, _)| p)
+    }
+
+    /// [`Program::from_circuit`], also returning for each instruction the index of its
+    /// first item (one more entry at the end: the item count), so that a range of
+    /// instructions maps to a range of items.
+    pub fn from_circuit_with_starts(c: &Circuit) -> Result<(Program, Vec<usize>), LowerError> {
         let mut items = Vec::with_capacity(c.instrs.len());
+        let mut starts = Vec::with_capacity(c.instrs.len() + 1);
         for instr in &c.instrs {
+            starts.push(items.len());
             let kernel = match &instr.op {
                 Op::Gate { gate, qubits } => {
                     let qs: Vec<usize> = qubits.iter().map(|q| q.0 as usize).collect();
@@ -201,24 +214,38 @@ impl Program {
                 None => Item::Unitary(kernel),
             });
         }
-        Ok(Program {
+        starts.push(items.len());
+        let p = Program {
             n_qubits: c.n_qubits() as usize,
             items,
-        })
+            faults: Vec::new(),
+        };
+        Ok((p, starts))
     }
 
     /// Lowers a native sequence, resolving hidden ions: collective and MS pulses act
-    /// on the ions not hidden at that point.
+    /// on the ions not hidden at that point. An ion measured or reset while hidden, or
+    /// still hidden at the end, is a fault.
     pub fn from_sequence(s: &Sequence) -> Program {
-        let n = s.n_ions as usize;
-        let mut hidden = vec![false; n];
-        let mut items = Vec::with_capacity(s.steps.len());
-        for step in &s.steps {
-            let visible = || (0..n).filter(|&i| !hidden[i]).collect::<Vec<usize>>();
+        let mut hidden = vec![false; s.n_ions as usize];
+        let mut p = Program::from_steps(s.n_ions, &s.steps, &mut hidden);
+        p.faults.extend(still_hidden(&hidden));
+        p
+    }
+
+    /// Lowers a run of steps of a sequence of `n_ions` ions, starting with the ions
+    /// marked in `hidden` hidden and leaving there which are hidden at the end (the
+    /// state that crosses from one window of a sequence to the next).
+    pub fn from_steps(n_ions: u32, steps: &[crate::native::Step], hidden: &mut [bool]) -> Program {
+        let n = n_ions as usize;
+        let mut items = Vec::with_capacity(steps.len());
+        let mut faults = Vec::new();
+        for step in steps {
+            let visible = |hidden: &[bool]| (0..n).filter(|&i| !hidden[i]).collect::<Vec<usize>>();
             let kernel = match step.op {
                 NativeOp::Collective { theta, phi } => Kernel::Collective {
                     m: rotation(theta, phi),
-                    qubits: visible(),
+                    qubits: visible(hidden),
                 },
                 NativeOp::VirtualZ { theta } => Kernel::Collective {
                     m: z_rotation(theta),
@@ -235,7 +262,7 @@ impl Program {
                 NativeOp::Ms { theta, phi } => Kernel::Ms {
                     theta,
                     phi,
-                    qubits: visible(),
+                    qubits: visible(hidden),
                 },
                 NativeOp::PairMs { a, b, theta, phi } => Kernel::Ms {
                     theta,
@@ -251,6 +278,9 @@ impl Program {
                     continue;
                 }
                 NativeOp::Measure { ion, clbit } => {
+                    if hidden[ion as usize] {
+                        faults.push(format!("ion {ion} is measured while hidden"));
+                    }
                     items.push(Item::Measure {
                         q: ion as usize,
                         clbit,
@@ -258,6 +288,9 @@ impl Program {
                     continue;
                 }
                 NativeOp::Reset { ion } => {
+                    if hidden[ion as usize] {
+                        faults.push(format!("ion {ion} is reset while hidden"));
+                    }
                     items.push(Item::Reset { q: ion as usize });
                     continue;
                 }
@@ -267,7 +300,11 @@ impl Program {
                 None => Item::Unitary(kernel),
             });
         }
-        Program { n_qubits: n, items }
+        Program {
+            n_qubits: n,
+            items,
+            faults,
+        }
     }
 
     /// The unitary kernels, for a program without measurement, reset or condition.
@@ -277,6 +314,15 @@ impl Program {
             _ => None,
         })
     }
+}
+
+/// A fault for each ion left hidden.
+pub fn still_hidden(hidden: &[bool]) -> impl Iterator<Item = String> + '_ {
+    hidden
+        .iter()
+        .enumerate()
+        .filter(|(_, &h)| h)
+        .map(|(ion, _)| format!("ion {ion} is still hidden at the end of the sequence"))
 }
 
 impl std::fmt::Display for Kernel {

@@ -41,6 +41,15 @@ pub fn zeroed_amps(len: usize) -> Vec<C64> {
     v
 }
 
+/// [`zeroed_amps`] that reports a failed allocation instead of aborting.
+pub fn try_zeroed_amps(len: usize) -> Result<Vec<C64>, std::collections::TryReserveError> {
+    let mut v: Vec<C64> = Vec::new();
+    v.try_reserve_exact(len)?;
+    crate::memory::advise_huge_pages(&mut v);
+    v.resize(len, C64::new(0.0, 0.0));
+    Ok(v)
+}
+
 #[derive(Clone, Copy)]
 struct SharedPtr(*mut C64);
 // SAFETY: the passes that use it write disjoint index sets from different threads.
@@ -324,7 +333,15 @@ impl StateVector {
 
     /// A Haar-random state: normalised independent complex Gaussians (Box-Muller).
     pub fn haar_random(n: usize, rng: &mut impl rand::Rng) -> StateVector {
-        let mut amps = zeroed_amps(1usize << n);
+        StateVector::try_haar_random(n, rng).unwrap_or_else(|e| panic!("{e}"))
+    }
+
+    /// [`StateVector::haar_random`], reporting a failed allocation.
+    pub fn try_haar_random(
+        n: usize,
+        rng: &mut impl rand::Rng,
+    ) -> Result<StateVector, std::collections::TryReserveError> {
+        let mut amps = try_zeroed_amps(1usize << n)?;
         for slot in amps.iter_mut() {
             let u1: f64 = rng.gen::<f64>().max(f64::MIN_POSITIVE);
             let u2: f64 = rng.gen();
@@ -333,7 +350,16 @@ impl StateVector {
         }
         let norm = amps.iter().map(|a| a.norm_sqr()).sum::<f64>().sqrt();
         amps.iter_mut().for_each(|a| *a /= norm);
-        StateVector { n, amps }
+        Ok(StateVector { n, amps })
+    }
+
+    /// A copy, reporting a failed allocation instead of aborting.
+    pub fn try_clone(&self) -> Result<StateVector, std::collections::TryReserveError> {
+        let mut amps: Vec<C64> = Vec::new();
+        amps.try_reserve_exact(self.amps.len())?;
+        crate::memory::advise_huge_pages(&mut amps);
+        amps.extend_from_slice(&self.amps);
+        Ok(StateVector { n: self.n, amps })
     }
 
     /// `<self|other>`.

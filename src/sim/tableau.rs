@@ -14,6 +14,12 @@ use num_complex::Complex64 as C64;
 use std::f64::consts::{FRAC_PI_2, FRAC_PI_4, PI};
 use std::sync::OnceLock;
 
+/// How far a coefficient or an angle may be from its exact Clifford value and still
+/// be read as that value. Every such reading adds its actual deviation to a bound
+/// that the checker adds to the distance it measures, so nothing that differs by
+/// more than the rounding floor is ever accepted as an exact Clifford.
+pub const CLIFFORD_EPS: f64 = 1e-12;
+
 /// A Clifford generator.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum Cliff {
@@ -135,36 +141,65 @@ fn normalise(m: &Mat2) -> Mat2 {
     [[m[0][0] / ph, m[0][1] / ph], [m[1][0] / ph, m[1][1] / ph]]
 }
 
+/// The largest entry distance between two 2x2 matrices.
+fn entry_distance(a: &Mat2, b: &Mat2) -> f64 {
+    let mut worst: f64 = 0.0;
+    for i in 0..2 {
+        for j in 0..2 {
+            worst = worst.max((a[i][j] - b[i][j]).norm());
+        }
+    }
+    worst
+}
+
 fn close(a: &Mat2, b: &Mat2) -> bool {
-    (0..2).all(|i| (0..2).all(|j| (a[i][j] - b[i][j]).norm() < 1e-9))
+    entry_distance(a, b) < CLIFFORD_EPS
 }
 
-/// The H/S word of a single-qubit Clifford, if `m` is one (up to global phase).
-pub fn clifford_word(m: &Mat2) -> Option<&'static [Cliff]> {
+/// The H/S word of a single-qubit Clifford, if `m` is one up to global phase within
+/// [`CLIFFORD_EPS`] per entry; adds to `dev` a bound on the operator-norm distance
+/// between `m` and the word (up to phase).
+pub fn clifford_word(m: &Mat2, dev: &mut f64) -> Option<&'static [Cliff]> {
     let n = normalise(m);
-    single_qubit_cliffords()
-        .iter()
-        .find(|(_, f)| close(f, &n))
-        .map(|(w, _)| w.as_slice())
+    single_qubit_cliffords().iter().find_map(|(w, f)| {
+        let d = entry_distance(f, &n);
+        (d < CLIFFORD_EPS).then(|| {
+            *dev += 2.0 * d;
+            w.as_slice()
+        })
+    })
 }
 
-/// `m = t P` for a Pauli `P` (0 = I, 1 = X, 2 = Y, 3 = Z): returns `(P, t)`.
-pub fn as_pauli(m: &Mat2) -> Option<(u8, C64)> {
+/// `m = t P` for a Pauli `P` (0 = I, 1 = X, 2 = Y, 3 = Z) and a phase `t`, within
+/// [`CLIFFORD_EPS`] per Pauli coefficient: returns `(P, t, d)` with `d` a bound on the
+/// operator-norm distance between `m` and `t P`.
+pub fn as_pauli(m: &Mat2) -> Option<(u8, C64, f64)> {
     let t = [
         (m[0][0] + m[1][1]) / 2.0,
         (m[0][1] + m[1][0]) / 2.0,
         (m[1][0] - m[0][1]) / C64::new(0.0, 2.0),
         (m[0][0] - m[1][1]) / 2.0,
     ];
-    (0..4u8)
-        .find(|&p| (t[p as usize].norm() - 1.0).abs() < 1e-9)
-        .map(|p| (p, t[p as usize]))
+    let p = (0..4u8).find(|&p| (t[p as usize].norm() - 1.0).abs() < CLIFFORD_EPS)?;
+    // Each Pauli has operator norm one: the distance is at most the sum of the
+    // other coefficients plus the modulus error of this one.
+    let d = (t[p as usize].norm() - 1.0).abs()
+        + (0..4)
+            .filter(|&o| o != p as usize)
+            .map(|o| t[o].norm())
+            .sum::<f64>();
+    (d < 4.0 * CLIFFORD_EPS).then(|| (p, t[p as usize] / t[p as usize].norm(), d))
 }
 
-/// `k` with `x = k * unit` (mod `period`), if `x` is such a multiple.
-fn multiple_of(x: f64, unit: f64, period: u32) -> Option<u32> {
+/// `k` with `x = k * unit` (mod `period`), if `x` is such a multiple within
+/// [`CLIFFORD_EPS`]; adds the actual offset to `dev`.
+fn multiple_of(x: f64, unit: f64, period: u32, dev: &mut f64) -> Option<u32> {
     let k = (x / unit).round();
-    ((x - k * unit).abs() < 1e-9).then(|| (k.rem_euclid(period as f64)) as u32)
+    let off = (x - k * unit).abs();
+    (off < CLIFFORD_EPS).then(|| {
+        *dev += off;
+        (k.rem_euclid(period as f64)) as u32
+    })
 }
 
 fn push_word(out: &mut Vec<Cliff>, word: &[Cliff], q: usize) {
@@ -177,15 +212,26 @@ fn push_word(out: &mut Vec<Cliff>, word: &[Cliff], q: usize) {
 
 /// `exp(-i w sum P_a P_b)` over `terms` with `P = Z` or `sigma_axis`, as Clifford
 /// generators; `None` unless every `w` is a multiple of pi/4 and the axis of pi/2.
-fn ising(axis: Option<f64>, terms: &[(usize, usize, f64)], out: &mut Vec<Cliff>) -> Option<()> {
+/// Adds to `dev` a bound on the operator-norm distance to the exact Clifford.
+fn ising(
+    axis: Option<f64>,
+    terms: &[(usize, usize, f64)],
+    out: &mut Vec<Cliff>,
+    dev: &mut f64,
+) -> Option<()> {
     let mut qubits: Vec<usize> = terms.iter().flat_map(|t| [t.0, t.1]).collect();
     qubits.sort_unstable();
     qubits.dedup();
     let basis = match axis {
         Some(phi) => {
-            multiple_of(phi, FRAC_PI_2, 4)?;
+            let mut off = 0.0;
+            multiple_of(phi, FRAC_PI_2, 4, &mut off)?;
+            let phi = (phi / FRAC_PI_2).round() * FRAC_PI_2;
+            // Turning the axis by `off` moves each basis change by at most `off / 2`,
+            // and it is applied twice per qubit.
+            *dev += off * qubits.len() as f64;
             let (w, wd) = z_to_sigma(phi);
-            Some((clifford_word(&w)?, clifford_word(&wd)?))
+            Some((clifford_word(&w, dev)?, clifford_word(&wd, dev)?))
         }
         None => None,
     };
@@ -197,7 +243,7 @@ fn ising(axis: Option<f64>, terms: &[(usize, usize, f64)], out: &mut Vec<Cliff>)
     for &(a, b, w) in terms {
         // exp(-i pi/4 Z_a Z_b) = CX(a,b) exp(-i pi/4 Z_b) CX(a,b), and exp(-i pi/4 Z) is
         // S up to phase; four units make -1.
-        let units = multiple_of(w, FRAC_PI_4, 4)?;
+        let units = multiple_of(w, FRAC_PI_4, 4, dev)?;
         for _ in 0..units {
             out.extend([Cliff::Cx(a, b), Cliff::S(b), Cliff::Cx(a, b)]);
         }
@@ -210,12 +256,16 @@ fn ising(axis: Option<f64>, terms: &[(usize, usize, f64)], out: &mut Vec<Cliff>)
     Some(())
 }
 
-/// The Clifford generators of a kernel, or `None` if it is not Clifford.
-pub fn kernel_to_clifford(k: &Kernel, out: &mut Vec<Cliff>) -> Option<()> {
+/// The Clifford generators of a kernel, or `None` if it is not Clifford within
+/// [`CLIFFORD_EPS`]. Adds to `dev` a bound on the operator-norm distance between
+/// the kernel and the generators (up to global phase).
+pub fn kernel_to_clifford(k: &Kernel, out: &mut Vec<Cliff>, dev: &mut f64) -> Option<()> {
     match k {
-        Kernel::One { q, m } => push_word(out, clifford_word(m)?, *q),
+        Kernel::One { q, m } => push_word(out, clifford_word(m, dev)?, *q),
         Kernel::Collective { m, qubits } => {
-            let w = clifford_word(m)?;
+            let mut one = 0.0;
+            let w = clifford_word(m, &mut one)?;
+            *dev += one * qubits.len() as f64;
             for &q in qubits {
                 push_word(out, w, q);
             }
@@ -226,9 +276,10 @@ pub fn kernel_to_clifford(k: &Kernel, out: &mut Vec<Cliff>) -> Option<()> {
             m,
         } if controls.len() == 1 => {
             let (c, t) = (controls[0], *target);
-            let (p, factor) = as_pauli(m)?;
+            let (p, factor, d) = as_pauli(m)?;
+            *dev += d;
             // controlled-(e^{i a} P) = diag(1, e^{i a}) on the control, times controlled-P.
-            let quarter_turns = multiple_of(factor.arg(), FRAC_PI_2, 4)?;
+            let quarter_turns = multiple_of(factor.arg(), FRAC_PI_2, 4, dev)?;
             match p {
                 0 => {}
                 1 => out.push(Cliff::Cx(c, t)),
@@ -247,27 +298,31 @@ pub fn kernel_to_clifford(k: &Kernel, out: &mut Vec<Cliff>) -> Option<()> {
         Kernel::Swap { a, b } => {
             out.extend([Cliff::Cx(*a, *b), Cliff::Cx(*b, *a), Cliff::Cx(*a, *b)])
         }
-        Kernel::Ising { axis, terms } => ising(*axis, terms, out)?,
+        Kernel::Ising { axis, terms } => ising(*axis, terms, out, dev)?,
         Kernel::Ms { theta, phi, qubits } => {
-            multiple_of(theta / 2.0, FRAC_PI_4, 4)?;
+            let mut off = 0.0;
+            multiple_of(theta / 2.0, FRAC_PI_4, 4, &mut off)?;
             let mut terms = Vec::new();
             for (i, &a) in qubits.iter().enumerate() {
                 for &b in &qubits[i + 1..] {
                     terms.push((a, b, theta / 2.0));
                 }
             }
-            ising(Some(*phi), &terms, out)?;
+            ising(Some(*phi), &terms, out, dev)?;
         }
     }
     Some(())
 }
 
 /// Whether a Pauli (0 I, 1 X, 2 Y, 3 Z) commutes (`Some(false)`) or anticommutes
-/// (`Some(true)`) with `sigma_phi`; `None` when it does neither.
-fn anticommutes_with_sigma(p: u8, phi: f64) -> Option<bool> {
-    let along_x = multiple_of(phi, PI, 2).is_some();
-    let along_y = multiple_of(phi - FRAC_PI_2, PI, 2).is_some();
-    match p {
+/// (`Some(true)`) with `sigma_phi`; `None` when it does neither. Adds the axis's
+/// offset from the exact axis to `dev`.
+fn anticommutes_with_sigma(p: u8, phi: f64, dev: &mut f64) -> Option<bool> {
+    let mut off_x = 0.0;
+    let mut off_y = 0.0;
+    let along_x = multiple_of(phi, PI, 2, &mut off_x).is_some();
+    let along_y = multiple_of(phi - FRAC_PI_2, PI, 2, &mut off_y).is_some();
+    let answer = match p {
         0 => Some(false),
         3 => Some(true),
         1 if along_x => Some(false),
@@ -275,7 +330,11 @@ fn anticommutes_with_sigma(p: u8, phi: f64) -> Option<bool> {
         2 if along_x => Some(true),
         2 if along_y => Some(false),
         _ => None,
+    };
+    if matches!(p, 1 | 2) && answer.is_some() {
+        *dev += off_x + off_y;
     }
+    answer
 }
 
 /// Fuses each run of MS kernels on the same qubits with the same axis (mod pi),
@@ -285,13 +344,19 @@ fn anticommutes_with_sigma(p: u8, phi: f64) -> Option<bool> {
 /// coupling matrix is tracked with signs. The product is unchanged (up to global
 /// phase), and a sign-vector echo of non-Clifford pulses becomes a Clifford
 /// interaction when its couplings are.
-pub fn fuse_xx_runs(kernels: &[Kernel]) -> Vec<Kernel> {
+///
+/// Operations read as Paulis or axes read as equal within [`CLIFFORD_EPS`] are not
+/// exactly so: the second value returned bounds, in operator norm, how far the
+/// fused product can be from the original one on that account.
+pub fn fuse_xx_runs(kernels: &[Kernel]) -> (Vec<Kernel>, f64) {
     struct Run {
         phi: f64,
         qubits: Vec<usize>,
         weights: Vec<f64>,
         signs: Vec<f64>,
         paulis: Vec<Kernel>,
+        /// Sum over pulses of |theta| / 2 times the pairs.
+        weight_sum: f64,
     }
     fn flush(run: &mut Option<Run>, out: &mut Vec<Kernel>) {
         if let Some(r) = run.take() {
@@ -312,24 +377,32 @@ pub fn fuse_xx_runs(kernels: &[Kernel]) -> Vec<Kernel> {
     }
     let mut out = Vec::with_capacity(kernels.len());
     let mut run: Option<Run> = None;
+    let mut slack = 0.0;
     for k in kernels {
         match k {
             Kernel::Ms { theta, phi, qubits } => {
+                let mut off = 0.0;
                 let compatible = run.as_ref().is_some_and(|r| {
-                    r.qubits == *qubits && multiple_of(phi - r.phi, PI, 2).is_some()
+                    r.qubits == *qubits && multiple_of(phi - r.phi, PI, 2, &mut off).is_some()
                 });
+                let m = qubits.len();
                 if !compatible {
                     flush(&mut run, &mut out);
-                    let m = qubits.len();
                     run = Some(Run {
                         phi: *phi,
                         qubits: qubits.clone(),
                         weights: vec![0.0; m * (m.saturating_sub(1)) / 2],
                         signs: vec![1.0; m],
                         paulis: Vec::new(),
+                        weight_sum: 0.0,
                     });
+                } else {
+                    // ||S_phi' - S_phi|| <= m off, so the exponents differ by at most
+                    // |theta| / 4 * 2 m * m off.
+                    slack += theta.abs() / 2.0 * (m * m) as f64 * off;
                 }
                 let r = run.as_mut().expect("a run is open");
+                r.weight_sum += theta.abs() / 2.0 * r.weights.len() as f64;
                 let mut idx = 0;
                 for i in 0..r.qubits.len() {
                     for j in i + 1..r.qubits.len() {
@@ -340,8 +413,16 @@ pub fn fuse_xx_runs(kernels: &[Kernel]) -> Vec<Kernel> {
             }
             Kernel::One { m, .. } | Kernel::Collective { m, .. } if run.is_some() => {
                 let r = run.as_mut().expect("checked");
-                match as_pauli(m).and_then(|(p, _)| anticommutes_with_sigma(p, r.phi)) {
-                    Some(anti) => {
+                let mut axis_off = 0.0;
+                let reading = as_pauli(m).and_then(|(p, _, d)| {
+                    anticommutes_with_sigma(p, r.phi, &mut axis_off).map(|anti| (anti, d))
+                });
+                match reading {
+                    Some((anti, d)) => {
+                        // Moving `t P + E` instead of `t P` costs at most 2 ||E|| per
+                        // qubit; an axis off by `a` costs at most 2 a per unit weight.
+                        let n_q = k.qubits().len() as f64;
+                        slack += 2.0 * d * n_q + 2.0 * axis_off * r.weight_sum * n_q;
                         if anti {
                             for q in k.qubits() {
                                 if let Some(i) = r.qubits.iter().position(|&x| x == q) {
@@ -364,21 +445,24 @@ pub fn fuse_xx_runs(kernels: &[Kernel]) -> Vec<Kernel> {
         }
     }
     flush(&mut run, &mut out);
-    out
+    (out, slack)
 }
 
-/// The tableau of a list of kernels, or the first kernel that is not Clifford.
-pub fn tableau_of(kernels: &[Kernel], n: usize) -> Result<Tableau, Kernel> {
+/// The tableau of a list of kernels with a bound on the operator-norm distance
+/// between the kernels and the Cliffords they were read as, or the first kernel
+/// that is not Clifford within [`CLIFFORD_EPS`].
+pub fn tableau_of(kernels: &[Kernel], n: usize) -> Result<(Tableau, f64), Kernel> {
     let mut t = Tableau::identity(n);
     let mut gates = Vec::new();
+    let mut dev = 0.0;
     for k in kernels {
         gates.clear();
-        if kernel_to_clifford(k, &mut gates).is_none() {
+        if kernel_to_clifford(k, &mut gates, &mut dev).is_none() {
             return Err(k.clone());
         }
         for &g in &gates {
             t.apply(g);
         }
     }
-    Ok(t)
+    Ok((t, dev))
 }

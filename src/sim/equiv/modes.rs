@@ -1,0 +1,324 @@
+//! The three comparison modes, each a distance against a tolerance.
+//!
+//! - `tableau`: both segments are Clifford within [`CLIFFORD_EPS`] per coefficient;
+//!   the tableaux (Aaronson and Gottesman, PRA 70, 052328, 2004) are compared
+//!   exactly. The distance is the bound on how far the kernels are from the
+//!   Cliffords they were read as, plus the pre-pass slack.
+//! - `unitary`: the full unitaries `A`, `B`; the distance is the largest entry
+//!   `|B_ij - e^{ig} A_ij|` with `g = arg tr(A^dagger B)`.
+//! - `random`: both run on the same Haar-random states; the distance is the largest
+//!   amplitude difference `|b_i - e^{ig} a_i|` (with `g = arg <a|b>`) in units of the
+//!   typical amplitude `2^(-n/2)`, worst over the trials.
+//!
+//! With a final diagonal allowed, the phase is aligned separately for every pattern
+//! of the measured bits. docs/checker.md says what each mode can and cannot detect.
+//!
+//! Invariant: a segment pair is called equal only when its distance, plus the slack
+//! of the pre-passes, is at most the tolerance; and the tolerance is the one the
+//! verdict reports.
+
+use super::prepass::{prepare, touches};
+use super::{CheckConfig, CheckError, Mode};
+use crate::sim::apply::run_kernels;
+use crate::sim::program::Kernel;
+use crate::sim::state::{try_zeroed_amps, StateVector};
+use crate::sim::tableau::{tableau_of, CLIFFORD_EPS};
+use num_complex::Complex64 as C64;
+use rand::SeedableRng;
+use rayon::prelude::*;
+
+/// Rounding allowed per qubit operation of either program, as a distance: 64 units
+/// of f64 rounding. The worst case grows linearly with the operations; rounding
+/// seen in practice grows more slowly, so this holds with room to spare.
+pub const ROUNDING_PER_TOUCH: f64 = 64.0 * f64::EPSILON;
+/// The smallest tolerance, whatever the operation count.
+pub const TOLERANCE_FLOOR: f64 = 1e-13;
+
+/// The tolerance for two segments with `touches` qubit operations together.
+pub fn derived_tolerance(touches: usize) -> f64 {
+    (ROUNDING_PER_TOUCH * touches as f64).max(TOLERANCE_FLOOR)
+}
+
+/// The outcome of one segment comparison.
+pub(super) struct SegResult {
+    /// Qubits compared after splitting off untouched ones.
+    pub compared: usize,
+    pub equal: bool,
+    pub mode: Mode,
+    /// `None` where the comparison is exact and found a difference (tableaux).
+    pub distance: Option<f64>,
+    pub tolerance: f64,
+    pub fidelity: f64,
+    pub phase: Option<f64>,
+    /// Why the segments differ, when a reason is known beyond the distance.
+    pub reason: Option<String>,
+}
+
+pub(super) fn state_bytes(n: usize) -> usize {
+    16usize.saturating_mul(1usize.checked_shl(n as u32).unwrap_or(usize::MAX))
+}
+
+fn too_large(n: usize, needed: usize, budget: usize) -> CheckError {
+    CheckError::TooLarge {
+        qubits: n,
+        needed,
+        budget,
+    }
+}
+
+/// Compares two unitary segments on `n` qubits; `diagonal` names the measured qubits
+/// when a final diagonal on them is allowed.
+pub(super) fn compare(
+    p: &[Kernel],
+    q: &[Kernel],
+    n: usize,
+    cfg: &CheckConfig,
+    diagonal: Option<&[usize]>,
+) -> Result<SegResult, CheckError> {
+    let tolerance = cfg.tolerance.unwrap_or_else(|| {
+        derived_tolerance(p.iter().chain(q).map(touches).sum::<usize>() + 2 * n)
+    });
+    let prepared = match prepare(p, q, n, diagonal.is_some(), tolerance) {
+        Ok(r) => r,
+        Err(idle) => {
+            return Ok(SegResult {
+                compared: 1,
+                equal: false,
+                mode: Mode::Unitary,
+                distance: Some(idle.distance),
+                tolerance,
+                fidelity: 0.0,
+                phase: None,
+                reason: Some(format!(
+                    "qubit {} takes part in no interaction, yet its own operations differ between the programs (distance {:.3e}, tolerance {:.3e})",
+                    idle.qubit, idle.distance, tolerance
+                )),
+            })
+        }
+    };
+    let (p, q, n, slack) = (
+        prepared.p.as_slice(),
+        prepared.q.as_slice(),
+        prepared.n,
+        prepared.slack,
+    );
+    let want_tableau = matches!(cfg.mode, Mode::Auto | Mode::Tableau) && diagonal.is_none();
+    if want_tableau {
+        match (tableau_of(p, n), tableau_of(q, n)) {
+            (Ok((ta, da)), Ok((tb, db))) => {
+                let bound = da + db + slack;
+                if ta != tb {
+                    return Ok(SegResult {
+                        compared: n,
+                        equal: false,
+                        mode: Mode::Tableau,
+                        distance: None,
+                        tolerance,
+                        fidelity: 0.0,
+                        phase: None,
+                        reason: Some("the stabilizer tableaux differ".into()),
+                    });
+                }
+                if bound <= tolerance {
+                    return Ok(SegResult {
+                        compared: n,
+                        equal: true,
+                        mode: Mode::Tableau,
+                        distance: Some(bound),
+                        tolerance,
+                        fidelity: 1.0,
+                        phase: None,
+                        reason: None,
+                    });
+                }
+                if cfg.mode == Mode::Tableau {
+                    return Err(CheckError::NotClifford(format!(
+                        "its operations are Clifford only within {bound:.3e}, more than the tolerance {tolerance:.3e}"
+                    )));
+                }
+            }
+            (Err(k), _) | (_, Err(k)) if cfg.mode == Mode::Tableau => {
+                return Err(CheckError::NotClifford(format!(
+                    "{k} is not a Clifford operation (within {CLIFFORD_EPS:e} per coefficient)"
+                )));
+            }
+            _ => {}
+        }
+    }
+    if cfg.mode == Mode::Tableau {
+        return Err(CheckError::Unsupported(
+            "tableau mode cannot compare up to a final diagonal; use --mode unitary or random"
+                .into(),
+        ));
+    }
+    let use_unitary =
+        cfg.mode == Mode::Unitary || (cfg.mode == Mode::Auto && n <= cfg.max_unitary_qubits);
+    let needed = if use_unitary {
+        // Two unitaries, and one column per thread while building them.
+        state_bytes(2 * n)
+            .saturating_mul(2)
+            .saturating_add(state_bytes(n).saturating_mul(rayon::current_num_threads()))
+    } else {
+        state_bytes(n).saturating_mul(2)
+    };
+    if needed > cfg.memory_budget || n >= 48 || (use_unitary && n >= 24) {
+        return Err(too_large(n, needed, cfg.memory_budget));
+    }
+    let operations = p.len() + q.len();
+    let work = if use_unitary {
+        operations as f64 * 4f64.powi(n as i32)
+    } else {
+        operations as f64 * 2f64.powi(n as i32) * cfg.trials.max(1) as f64
+    };
+    if work > cfg.max_work {
+        return Err(CheckError::TooSlow {
+            qubits: n,
+            operations,
+            work,
+            budget: cfg.max_work,
+        });
+    }
+    let oom = |_| too_large(n, needed, cfg.memory_budget);
+    if use_unitary {
+        let dim = 1usize << n;
+        let ua = try_unitary(p, n).map_err(oom)?;
+        let ub = try_unitary(q, n).map_err(oom)?;
+        let mask: usize = diagonal.map_or(0, |m| m.iter().map(|q| 1usize << q).sum());
+        // Column-major: entry (i, j) at j * dim + i; the phase is aligned per pattern
+        // of the measured bits of the row (one pattern without a diagonal).
+        let phases = pattern_phases(&ua, &ub, dim, mask);
+        let distance = ua
+            .par_chunks(dim)
+            .zip(ub.par_chunks(dim))
+            .map(|(ca, cb)| {
+                ca.iter()
+                    .zip(cb)
+                    .enumerate()
+                    .map(|(i, (x, y))| (y - phases.of(i) * x).norm())
+                    .fold(0.0, f64::max)
+            })
+            .reduce(|| 0.0, f64::max)
+            + slack;
+        let tr: C64 = ua.iter().zip(&ub).map(|(x, y)| x.conj() * y).sum::<C64>() / dim as f64;
+        return Ok(SegResult {
+            compared: n,
+            equal: distance <= tolerance,
+            mode: Mode::Unitary,
+            distance: Some(distance),
+            tolerance,
+            fidelity: tr.norm_sqr(),
+            phase: diagonal.is_none().then(|| tr.arg()),
+            reason: None,
+        });
+    }
+    let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(cfg.seed);
+    let scale = (n as f64 / 2.0).exp2();
+    let mask: usize = diagonal.map_or(0, |m| m.iter().map(|q| 1usize << q).sum());
+    let mut worst: f64 = 0.0;
+    let mut fidelity: f64 = 1.0;
+    let mut phase = None;
+    for _ in 0..cfg.trials.max(1) {
+        let mut sa = StateVector::try_haar_random(n, &mut rng).map_err(oom)?;
+        let mut sb = sa.try_clone().map_err(oom)?;
+        run_kernels(p, &mut sa);
+        run_kernels(q, &mut sb);
+        let phases = pattern_phases(&sa.amps, &sb.amps, sa.amps.len(), mask);
+        let d = sa
+            .amps
+            .par_chunks(1 << 12)
+            .zip(sb.amps.par_chunks(1 << 12))
+            .enumerate()
+            .map(|(c, (ca, cb))| {
+                ca.iter()
+                    .zip(cb)
+                    .enumerate()
+                    .map(|(k, (x, y))| (y - phases.of(c * (1 << 12) + k) * x).norm())
+                    .fold(0.0, f64::max)
+            })
+            .reduce(|| 0.0, f64::max);
+        worst = worst.max(d * scale);
+        let ov = sa.inner(&sb);
+        phase.get_or_insert(ov.arg());
+        fidelity = fidelity.min(ov.norm_sqr());
+    }
+    let distance = worst + slack * scale;
+    Ok(SegResult {
+        compared: n,
+        equal: distance <= tolerance,
+        mode: Mode::Random,
+        distance: Some(distance),
+        tolerance,
+        fidelity,
+        phase: diagonal.is_none().then_some(phase).flatten(),
+        reason: None,
+    })
+}
+
+/// Unit phases, one per pattern of the masked bits of an index.
+struct PatternPhases {
+    mask: usize,
+    by_pattern: std::collections::HashMap<usize, C64>,
+    single: C64,
+}
+
+impl PatternPhases {
+    fn of(&self, i: usize) -> C64 {
+        if self.mask == 0 {
+            self.single
+        } else {
+            self.by_pattern
+                .get(&(i & self.mask))
+                .copied()
+                .unwrap_or(C64::new(1.0, 0.0))
+        }
+    }
+}
+
+/// The phase `e^{ig}` that best aligns `b` with `a` on each pattern of `mask` (of the
+/// index modulo `rows`): the phase of `sum conj(a_i) b_i` over that pattern.
+fn pattern_phases(a: &[C64], b: &[C64], rows: usize, mask: usize) -> PatternPhases {
+    let unit = |z: C64| {
+        if z.norm() > 0.0 {
+            z / z.norm()
+        } else {
+            C64::new(1.0, 0.0)
+        }
+    };
+    if mask == 0 {
+        let s: C64 = a
+            .par_iter()
+            .zip(b.par_iter())
+            .map(|(x, y)| x.conj() * y)
+            .sum();
+        return PatternPhases {
+            mask,
+            by_pattern: Default::default(),
+            single: unit(s),
+        };
+    }
+    let mut sums = std::collections::HashMap::<usize, C64>::new();
+    for (i, (x, y)) in a.iter().zip(b).enumerate() {
+        *sums.entry((i % rows) & mask).or_default() += x.conj() * y;
+    }
+    PatternPhases {
+        mask,
+        by_pattern: sums.into_iter().map(|(k, v)| (k, unit(v))).collect(),
+        single: C64::new(1.0, 0.0),
+    }
+}
+
+/// The unitary of `kernels` on `n` qubits as a column-major vector, allocated
+/// fallibly; columns are simulated in parallel.
+fn try_unitary(
+    kernels: &[Kernel],
+    n: usize,
+) -> Result<Vec<C64>, std::collections::TryReserveError> {
+    let dim = 1usize << n;
+    let mut out = try_zeroed_amps(dim * dim)?;
+    out.par_chunks_mut(dim).enumerate().for_each(|(j, col)| {
+        let mut s = StateVector::basis(n, j);
+        run_kernels(kernels, &mut s);
+        col.copy_from_slice(&s.amps);
+    });
+    Ok(out)
+}

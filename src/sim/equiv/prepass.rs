@@ -1,0 +1,287 @@
+//! Exact rewrites that run before a comparison: MS runs fused into Ising
+//! interactions, cancelled couplings dropped, qubits that no interaction touches
+//! split off (and compared on their own), and runs of single-qubit operations
+//! multiplied out.
+//!
+//! Invariant: each rewrite changes the product of a segment by at most the `slack`
+//! it reports, in operator norm, up to global phase. The checker adds the slack to
+//! the distance it measures, so a rewrite can never make unequal programs pass.
+
+use crate::circuit::Mat2;
+use crate::sim::program::Kernel;
+use crate::sim::tableau::fuse_xx_runs;
+use num_complex::Complex64 as C64;
+
+/// Couplings smaller than this are dropped (their total weight goes into the slack).
+const ZERO_COUPLING: f64 = 1e-12;
+
+/// Two segments ready to compare on `n` qubits.
+pub(super) struct Prepared {
+    pub p: Vec<Kernel>,
+    pub q: Vec<Kernel>,
+    pub n: usize,
+    /// Operator-norm bound on what the rewrites changed.
+    pub slack: f64,
+}
+
+/// A qubit that no interaction touches, but whose own operations differ.
+pub(super) struct IdleMismatch {
+    pub qubit: usize,
+    pub distance: f64,
+}
+
+/// How much rounding one kernel can add to an amplitude: the number of qubit
+/// operations it takes (a collective rotation on 40 ions is 40).
+pub(super) fn touches(k: &Kernel) -> usize {
+    match k {
+        Kernel::One { .. } => 1,
+        Kernel::Controlled { controls, .. } => controls.len() + 1,
+        Kernel::Swap { .. } => 6,
+        Kernel::Ising { axis, terms } => {
+            2 * terms.len()
+                + if axis.is_some() {
+                    4 * k.qubits().len()
+                } else {
+                    0
+                }
+        }
+        Kernel::Ms { qubits, .. } => 3 * qubits.len() + 1,
+        Kernel::Collective { qubits, .. } => qubits.len(),
+        Kernel::Dense { qubits, .. } => 1 << qubits.len(),
+    }
+}
+
+/// Fuses, drops and (unless `keep_all`) splits off idle qubits. `Err` names an idle
+/// qubit whose operations differ by more than `tolerance`.
+pub(super) fn prepare(
+    p: &[Kernel],
+    q: &[Kernel],
+    n: usize,
+    keep_all: bool,
+    tolerance: f64,
+) -> Result<Prepared, IdleMismatch> {
+    let (fp, sp) = fuse_xx_runs(p);
+    let (fq, sq) = fuse_xx_runs(q);
+    let (fp, dp) = drop_zero_couplings(fp);
+    let (fq, dq) = drop_zero_couplings(fq);
+    let slack = sp + sq + dp + dq;
+    let (p, q, n) = if keep_all {
+        (fp, fq, n)
+    } else {
+        reduce(fp, fq, n, tolerance, slack)?
+    };
+    let (p, q) = (
+        merge_single_qubit_runs(&p, n),
+        merge_single_qubit_runs(&q, n),
+    );
+    Ok(Prepared { p, q, n, slack })
+}
+
+/// Removes couplings that cancelled to (nearly) zero, such as an echo's non-target
+/// pairs, and returns the total weight removed: `exp(-i sum w P P)` moves by at most
+/// that in operator norm.
+fn drop_zero_couplings(ks: Vec<Kernel>) -> (Vec<Kernel>, f64) {
+    let mut dropped = 0.0;
+    let out = ks
+        .into_iter()
+        .filter_map(|k| match k {
+            Kernel::Ising { axis, terms } => {
+                let terms: Vec<_> = terms
+                    .into_iter()
+                    .filter(|t| {
+                        let keep = t.2.abs() > ZERO_COUPLING;
+                        if !keep {
+                            dropped += t.2.abs();
+                        }
+                        keep
+                    })
+                    .collect();
+                (!terms.is_empty()).then_some(Kernel::Ising { axis, terms })
+            }
+            other => Some(other),
+        })
+        .collect();
+    (out, dropped)
+}
+
+/// The single-qubit part of `k` on qubit `q` (One or Collective kernels).
+fn local_part(k: &Kernel, q: usize) -> Option<Mat2> {
+    match k {
+        Kernel::One { q: kq, m } if *kq == q => Some(*m),
+        Kernel::Collective { m, qubits } if qubits.contains(&q) => Some(*m),
+        _ => None,
+    }
+}
+
+fn is_multi(k: &Kernel) -> bool {
+    !matches!(k, Kernel::One { .. } | Kernel::Collective { .. })
+}
+
+/// The largest entry distance between `b` and `a` after aligning the global phase
+/// by `arg tr(a^dagger b)`.
+pub(super) fn aligned_distance2(a: &Mat2, b: &Mat2) -> f64 {
+    let mut tr = C64::new(0.0, 0.0);
+    for i in 0..2 {
+        for j in 0..2 {
+            tr += a[i][j].conj() * b[i][j];
+        }
+    }
+    let ph = if tr.norm() > 0.0 {
+        tr / tr.norm()
+    } else {
+        C64::new(1.0, 0.0)
+    };
+    let mut worst: f64 = 0.0;
+    for i in 0..2 {
+        for j in 0..2 {
+            worst = worst.max((b[i][j] - ph * a[i][j]).norm());
+        }
+    }
+    worst
+}
+
+type Reduced = (Vec<Kernel>, Vec<Kernel>, usize);
+
+/// Splits off the qubits that no multi-qubit kernel of either program touches: the
+/// programs factor into a product over those qubits and the rest, and each split-off
+/// qubit is compared here (largest entry distance after phase alignment, plus the
+/// slack, against `tolerance`).
+fn reduce(
+    p: Vec<Kernel>,
+    q: Vec<Kernel>,
+    n: usize,
+    tolerance: f64,
+    slack: f64,
+) -> Result<Reduced, IdleMismatch> {
+    let mut entangled = vec![false; n];
+    for k in p.iter().chain(&q).filter(|k| is_multi(k)) {
+        for x in k.qubits() {
+            entangled[x] = true;
+        }
+    }
+    if entangled.iter().all(|&e| e) {
+        return Ok((p, q, n));
+    }
+    for x in (0..n).filter(|&x| !entangled[x]) {
+        let product = |ks: &[Kernel]| {
+            ks.iter()
+                .filter_map(|k| local_part(k, x))
+                .fold(identity2(), |acc, m| mul2(&m, &acc))
+        };
+        let distance = aligned_distance2(&product(&p), &product(&q)) + slack;
+        if distance > tolerance {
+            return Err(IdleMismatch { qubit: x, distance });
+        }
+    }
+    let kept: Vec<usize> = (0..n).filter(|&x| entangled[x]).collect();
+    let mut index = vec![usize::MAX; n];
+    for (new, &old) in kept.iter().enumerate() {
+        index[old] = new;
+    }
+    let remap = |ks: Vec<Kernel>| -> Vec<Kernel> {
+        ks.into_iter()
+            .filter_map(|k| match k {
+                Kernel::One { q, m } => {
+                    (index[q] != usize::MAX).then(|| Kernel::One { q: index[q], m })
+                }
+                Kernel::Collective { m, qubits } => {
+                    let qs: Vec<usize> = qubits
+                        .iter()
+                        .filter(|&&x| index[x] != usize::MAX)
+                        .map(|&x| index[x])
+                        .collect();
+                    (!qs.is_empty()).then_some(Kernel::Collective { m, qubits: qs })
+                }
+                other => Some(remap_kernel(other, &index)),
+            })
+            .collect()
+    };
+    Ok((remap(p), remap(q), kept.len()))
+}
+
+fn remap_kernel(k: Kernel, index: &[usize]) -> Kernel {
+    let f = |x: usize| index[x];
+    match k {
+        Kernel::One { q, m } => Kernel::One { q: f(q), m },
+        Kernel::Controlled {
+            controls,
+            target,
+            m,
+        } => Kernel::Controlled {
+            controls: controls.into_iter().map(f).collect(),
+            target: f(target),
+            m,
+        },
+        Kernel::Swap { a, b } => Kernel::Swap { a: f(a), b: f(b) },
+        Kernel::Ising { axis, terms } => Kernel::Ising {
+            axis,
+            terms: terms.into_iter().map(|(a, b, w)| (f(a), f(b), w)).collect(),
+        },
+        Kernel::Ms { theta, phi, qubits } => Kernel::Ms {
+            theta,
+            phi,
+            qubits: qubits.into_iter().map(f).collect(),
+        },
+        Kernel::Collective { m, qubits } => Kernel::Collective {
+            m,
+            qubits: qubits.into_iter().map(f).collect(),
+        },
+        Kernel::Dense { qubits, m } => Kernel::Dense {
+            qubits: qubits.into_iter().map(f).collect(),
+            m,
+        },
+    }
+}
+
+/// Multiplies consecutive single-qubit operations on each qubit into one, flushing a
+/// qubit when a multi-qubit kernel touches it. Exact up to rounding; cuts simulation
+/// work.
+fn merge_single_qubit_runs(ks: &[Kernel], n: usize) -> Vec<Kernel> {
+    let mut pending: Vec<Option<Mat2>> = vec![None; n];
+    let mut out = Vec::with_capacity(ks.len());
+    let add = |pending: &mut Vec<Option<Mat2>>, q: usize, m: &Mat2| {
+        let acc = pending[q].unwrap_or_else(identity2);
+        pending[q] = Some(mul2(m, &acc));
+    };
+    for k in ks {
+        match k {
+            Kernel::One { q, m } => add(&mut pending, *q, m),
+            Kernel::Collective { m, qubits } => {
+                for &q in qubits {
+                    add(&mut pending, q, m);
+                }
+            }
+            other => {
+                for q in other.qubits() {
+                    if let Some(m) = pending[q].take() {
+                        out.push(Kernel::One { q, m });
+                    }
+                }
+                out.push(other.clone());
+            }
+        }
+    }
+    for (q, m) in pending.into_iter().enumerate() {
+        if let Some(m) = m {
+            out.push(Kernel::One { q, m });
+        }
+    }
+    out
+}
+
+fn identity2() -> Mat2 {
+    [
+        [C64::new(1.0, 0.0), C64::new(0.0, 0.0)],
+        [C64::new(0.0, 0.0), C64::new(1.0, 0.0)],
+    ]
+}
+
+fn mul2(a: &Mat2, b: &Mat2) -> Mat2 {
+    let mut o = [[C64::new(0.0, 0.0); 2]; 2];
+    for i in 0..2 {
+        for j in 0..2 {
+            o[i][j] = a[i][0] * b[0][j] + a[i][1] * b[1][j];
+        }
+    }
+    o
+}

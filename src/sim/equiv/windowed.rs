@@ -1,0 +1,222 @@
+//! Verifying a long sequence against its circuit window by window.
+//!
+//! A sync point `(instrs, steps)` claims that the first `instrs` instructions of the
+//! circuit and the first `steps` steps of the sequence are the same unitary (up to
+//! global phase). Between consecutive sync points lies a window; the windows are
+//! compared independently (in parallel) with [`check`], and the product of equal
+//! windows is equal, so equal windows prove the whole sequence equal. A window may
+//! span many instructions, so an optimizer that merges pulses across gates still
+//! gets verified, at the sync points it can name.
+//!
+//! The circuit is lowered once. State that crosses a window boundary is carried:
+//! which ions are hidden at the start of each window comes from a sequential scan,
+//! and an ion still hidden after the last window is a fault. The cost is linear in
+//! the instructions and steps.
+
+use super::{check, CheckConfig, CheckError, Mode};
+use crate::circuit::Circuit;
+use crate::native::{NativeOp, Sequence};
+use crate::sim::program::{still_hidden, Program};
+use rayon::prelude::*;
+use std::sync::Arc;
+
+/// A point where a prefix of the circuit and a prefix of the sequence must be equal.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct SyncPoint {
+    pub instrs: usize,
+    pub steps: usize,
+}
+
+/// The outcome of a window-by-window verification.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct WindowVerdict {
+    pub equivalent: bool,
+    pub windows: usize,
+    /// The most expensive mode any window needed.
+    pub mode: Mode,
+    /// The distance of the window closest to failing (largest distance over
+    /// tolerance), and its tolerance; `None` when a window differs in a way no
+    /// distance measures.
+    pub distance: Option<f64>,
+    pub tolerance: f64,
+    /// The worst fidelity over the windows (informative).
+    pub fidelity: f64,
+    /// The most qubits one window comparison needed.
+    pub compared_qubits: usize,
+    /// The first window that differs, when one does.
+    pub detail: String,
+}
+
+/// Sync points at every instruction boundary, from `origin[k]`, the instruction
+/// that step `k` came from. The steps of one instruction must be contiguous and in
+/// instruction order.
+pub fn sync_points_from_origin(
+    origin: &[u32],
+    n_instrs: usize,
+) -> Result<Vec<SyncPoint>, CheckError> {
+    if origin.windows(2).any(|w| w[0] > w[1]) {
+        return Err(CheckError::Windows(
+            "the trace does not map the steps to instructions in order".into(),
+        ));
+    }
+    if origin.last().is_some_and(|&o| o as usize >= n_instrs) {
+        return Err(CheckError::Windows(
+            "the trace names an instruction the circuit does not have".into(),
+        ));
+    }
+    let mut out = Vec::with_capacity(n_instrs);
+    let mut step = 0;
+    for i in 1..=n_instrs {
+        while step < origin.len() && (origin[step] as usize) < i {
+            step += 1;
+        }
+        out.push(SyncPoint {
+            instrs: i,
+            steps: step,
+        });
+    }
+    Ok(out)
+}
+
+/// One window's result, small enough to keep a million of.
+struct Outcome {
+    equivalent: bool,
+    mode: Mode,
+    distance: Option<f64>,
+    tolerance: f64,
+    fidelity: f64,
+    compared: usize,
+    detail: String,
+}
+
+/// Verifies `seq` against `circuit` window by window between the `sync` points
+/// (strictly increasing in instructions, non-decreasing in steps, the last one
+/// covering both whole programs).
+pub fn check_windows(
+    circuit: &Circuit,
+    seq: &Sequence,
+    sync: &[SyncPoint],
+    cfg: &CheckConfig,
+) -> Result<WindowVerdict, CheckError> {
+    let last = sync.last().copied().unwrap_or(SyncPoint {
+        instrs: 0,
+        steps: 0,
+    });
+    if last.instrs != circuit.instrs.len() || last.steps != seq.steps.len() {
+        return Err(CheckError::Windows(format!(
+            "the last sync point covers {} instruction(s) and {} step(s), but the programs have {} and {}",
+            last.instrs,
+            last.steps,
+            circuit.instrs.len(),
+            seq.steps.len()
+        )));
+    }
+    let mut bounds = Vec::with_capacity(sync.len() + 1);
+    bounds.push(SyncPoint {
+        instrs: 0,
+        steps: 0,
+    });
+    for s in sync {
+        let prev = *bounds.last().expect("starts with the origin");
+        if s.instrs <= prev.instrs || s.steps < prev.steps {
+            return Err(CheckError::Windows(format!(
+                "sync point ({}, {}) does not come after ({}, {})",
+                s.instrs, s.steps, prev.instrs, prev.steps
+            )));
+        }
+        bounds.push(*s);
+    }
+    let (program, starts) = Program::from_circuit_with_starts(circuit)?;
+    let n_ions = seq.n_ions;
+    // Which ions are hidden at the start of each window: one sequential scan.
+    let mut hidden_at = Vec::with_capacity(bounds.len());
+    let mut hidden = Arc::new(vec![false; n_ions as usize]);
+    for w in bounds.windows(2) {
+        hidden_at.push(Arc::clone(&hidden));
+        for step in &seq.steps[w[0].steps..w[1].steps] {
+            match step.op {
+                NativeOp::Hide { ion } => Arc::make_mut(&mut hidden)[ion as usize] = true,
+                NativeOp::Unhide { ion } => Arc::make_mut(&mut hidden)[ion as usize] = false,
+                _ => {}
+            }
+        }
+    }
+    let n_windows = bounds.len() - 1;
+    let outcomes: Vec<Result<Outcome, CheckError>> = (0..n_windows)
+        .into_par_iter()
+        .with_min_len(64)
+        .map(|w| {
+            let (from, to) = (bounds[w], bounds[w + 1]);
+            let a = Program {
+                n_qubits: program.n_qubits,
+                items: program.items[starts[from.instrs]..starts[to.instrs]].to_vec(),
+                faults: Vec::new(),
+            };
+            let mut hidden = hidden_at[w].to_vec();
+            let mut b = Program::from_steps(n_ions, &seq.steps[from.steps..to.steps], &mut hidden);
+            if w + 1 == n_windows {
+                b.faults.extend(still_hidden(&hidden));
+            }
+            let v = check(&a, &b, cfg)?;
+            let place = if to.instrs == from.instrs + 1 {
+                format!("instruction {}", to.instrs)
+            } else {
+                format!("instructions {} to {}", from.instrs + 1, to.instrs)
+            };
+            Ok(Outcome {
+                equivalent: v.equivalent,
+                mode: v.mode,
+                distance: v.distance,
+                tolerance: v.tolerance,
+                fidelity: v.fidelity,
+                compared: v.compared_qubits,
+                detail: if v.equivalent {
+                    String::new()
+                } else {
+                    format!(
+                        "{place} and steps {} to {} differ: {}",
+                        from.steps + 1,
+                        to.steps,
+                        v.detail
+                    )
+                },
+            })
+        })
+        .collect();
+    let mut out = WindowVerdict {
+        equivalent: true,
+        windows: n_windows,
+        mode: Mode::Tableau,
+        distance: Some(0.0),
+        tolerance: super::TOLERANCE_FLOOR,
+        fidelity: 1.0,
+        compared_qubits: 0,
+        detail: String::new(),
+    };
+    let mut worst_ratio = -1.0;
+    for r in outcomes {
+        let o = r?;
+        if o.mode.rank() >= out.mode.rank() {
+            out.mode = o.mode;
+        }
+        out.fidelity = out.fidelity.min(o.fidelity);
+        out.compared_qubits = out.compared_qubits.max(o.compared);
+        if !out.equivalent {
+            continue;
+        }
+        if !o.equivalent {
+            out.equivalent = false;
+            out.distance = o.distance;
+            out.tolerance = o.tolerance;
+            out.detail = o.detail;
+            continue;
+        }
+        let ratio = o.distance.map_or(f64::INFINITY, |d| d / o.tolerance);
+        if ratio > worst_ratio {
+            worst_ratio = ratio;
+            out.distance = o.distance;
+            out.tolerance = o.tolerance;
+        }
+    }
+    Ok(out)
+}

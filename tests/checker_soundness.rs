@@ -1,0 +1,288 @@
+//! Regression tests for the checker's soundness: every way it could once say
+//! "equal" about programs that differ, each with the equal pair beside it so that
+//! the test fails both ways. The unitaries of the gates are those of OpenQASM 2
+//! (Cross, Bishop, Smolin, Gambetta, arXiv:1707.03429); a phase `delta` on one basis
+//! state moves one entry of the unitary by `|e^{i delta} - 1|`, about `delta`.
+
+use num_complex::Complex64 as C64;
+use std::f64::consts::PI;
+use tutti::native::{NativeOp, Sequence, Step};
+use tutti::sim::{check, CheckConfig, CheckError, Item, Kernel, Mode, Program};
+
+fn program(text: &str) -> Program {
+    let out = tutti::qasm::read_str("test.qasm", text);
+    let rendered = out.render();
+    Program::from_circuit(&out.circuit.unwrap_or_else(|| panic!("{rendered}"))).unwrap()
+}
+
+fn qasm(n: usize, body: &str) -> String {
+    format!("OPENQASM 2.0;\ninclude \"qelib1.inc\";\nqreg q[{n}];\ncreg c[{n}];\n{body}")
+}
+
+fn cfg(mode: Mode) -> CheckConfig {
+    CheckConfig {
+        mode,
+        ..CheckConfig::default()
+    }
+}
+
+fn equal(a: &Program, b: &Program, mode: Mode) -> bool {
+    let v = check(a, b, &cfg(mode)).unwrap_or_else(|e| panic!("{mode:?}: {e}"));
+    if v.equivalent {
+        let d = v.distance.expect("an equal verdict has a distance");
+        assert!(d <= v.tolerance, "{v:?}");
+    }
+    v.equivalent
+}
+
+const MODES: [Mode; 3] = [Mode::Auto, Mode::Unitary, Mode::Random];
+
+// Bug: terminal measurements were matched by sorted qubit only, so swapped bits
+// passed.
+#[test]
+fn swapped_bits_of_final_measurements_differ_in_every_mode() {
+    let body = "h q[0]; cx q[0],q[1]; ry(0.3) q[1];\n";
+    let a = program(&qasm(
+        2,
+        &format!("{body}measure q[0] -> c[0]; measure q[1] -> c[1];"),
+    ));
+    let reordered = program(&qasm(
+        2,
+        &format!("{body}measure q[1] -> c[1]; measure q[0] -> c[0];"),
+    ));
+    let swapped = program(&qasm(
+        2,
+        &format!("{body}measure q[0] -> c[1]; measure q[1] -> c[0];"),
+    ));
+    for mode in MODES {
+        assert!(equal(&a, &reordered, mode), "{mode:?}: reordered final run");
+        assert!(!equal(&a, &swapped, mode), "{mode:?}: swapped bits");
+    }
+    // The same in tableau mode with a Clifford body.
+    let clifford = "h q[0]; cx q[0],q[1];\n";
+    let a = program(&qasm(
+        2,
+        &format!("{clifford}measure q[0] -> c[0]; measure q[1] -> c[1];"),
+    ));
+    let swapped = program(&qasm(
+        2,
+        &format!("{clifford}measure q[0] -> c[1]; measure q[1] -> c[0];"),
+    ));
+    assert!(equal(&a, &a, Mode::Tableau));
+    assert!(!equal(&a, &swapped, Mode::Tableau));
+}
+
+// A bit written twice keeps the last outcome: the order of those writes matters.
+#[test]
+fn the_last_writer_of_a_bit_must_agree() {
+    let body = "h q[0]; cx q[0],q[1]; x q[1];\n";
+    let a = program(&qasm(
+        2,
+        &format!("{body}measure q[0] -> c[0]; measure q[1] -> c[0];"),
+    ));
+    let b = program(&qasm(
+        2,
+        &format!("{body}measure q[1] -> c[0]; measure q[0] -> c[0];"),
+    ));
+    for mode in MODES {
+        assert!(!equal(&a, &b, mode), "{mode:?}");
+        assert!(equal(&a, &a, mode), "{mode:?}");
+    }
+}
+
+// Bug: a mid-circuit measurement into the wrong bit, followed by a reset or an `if`,
+// passed as if it were terminal.
+#[test]
+fn a_mid_circuit_measurement_into_the_wrong_bit_differs() {
+    for tail in ["reset q[0]; h q[0];", "if(c==1) x q[1];"] {
+        let a = program(&qasm(2, &format!("h q[0]; measure q[0] -> c[0]; {tail}")));
+        let b = program(&qasm(2, &format!("h q[0]; measure q[0] -> c[1]; {tail}")));
+        for mode in MODES {
+            assert!(equal(&a, &a, mode), "{mode:?} {tail}");
+            let v = check(&a, &b, &cfg(mode)).unwrap();
+            assert!(
+                !v.equivalent && v.detail.contains("bit"),
+                "{mode:?} {tail}: {v:?}"
+            );
+        }
+    }
+    // A different condition value is a different cut.
+    let a = program(&qasm(2, "h q[0]; measure q[0] -> c[0]; if(c==1) x q[1];"));
+    let b = program(&qasm(2, "h q[0]; measure q[0] -> c[0]; if(c==2) x q[1];"));
+    assert!(!equal(&a, &b, Mode::Auto));
+}
+
+const FOUR: &str = "h q[0]; cx q[0],q[1]; ry(0.4) q[2]; cx q[2],q[3]; t q[3]; cx q[1],q[2];";
+
+// Bug: every mode accepted a fidelity within 1e-9 of one, so `crz(5e-5)` passed.
+#[test]
+fn a_tiny_controlled_rotation_is_caught_in_every_mode() {
+    let a = program(&qasm(4, FOUR));
+    for angle in ["5e-5", "1e-8", "1e-10"] {
+        let b = program(&qasm(4, &format!("{FOUR} crz({angle}) q[0],q[3];")));
+        for mode in MODES {
+            assert!(!equal(&a, &b, mode), "{mode:?}: crz({angle})");
+        }
+    }
+    for mode in MODES {
+        assert!(equal(
+            &a,
+            &program(&qasm(4, &format!("{FOUR} crz(0) q[0],q[3];"))),
+            mode
+        ));
+    }
+}
+
+/// A phase `delta` on the basis state with every qubit 1 (a multi-controlled phase).
+fn one_state_phase(n: usize, delta: f64) -> Kernel {
+    let z = C64::new(0.0, 0.0);
+    Kernel::Controlled {
+        controls: (0..n - 1).collect(),
+        target: n - 1,
+        m: [[C64::new(1.0, 0.0), z], [z, C64::from_polar(1.0, delta)]],
+    }
+}
+
+fn with_kernel(p: &Program, k: Kernel) -> Program {
+    let mut q = p.clone();
+    q.items.push(Item::Unitary(k));
+    q
+}
+
+// Bug: a 1e-4 phase on one basis state passed in unitary mode.
+#[test]
+fn a_phase_on_one_basis_state_is_caught_down_to_the_rounding_floor() {
+    let a = program(&qasm(4, FOUR));
+    // The derived tolerance of this pair is below 1e-12: a phase of 1e-11 on one of
+    // 16 basis states is just above the rounding floor and must be caught.
+    for delta in [1e-4, 1e-8, 1e-11] {
+        let b = with_kernel(&a, one_state_phase(4, delta));
+        for mode in MODES {
+            let v = check(&a, &b, &cfg(mode)).unwrap();
+            assert!(!v.equivalent, "{mode:?} delta {delta}: {v:?}");
+            assert!(v.tolerance < 1e-12, "{v:?}");
+        }
+    }
+    let same = with_kernel(&a, one_state_phase(4, 0.0));
+    for mode in MODES {
+        assert!(equal(&a, &same, mode), "{mode:?}");
+    }
+}
+
+// Bug: in random mode at 24 qubits a 0.1 rad phase on one basis state passed (the
+// overlap of two states hardly notices one amplitude in 16 million).
+#[test]
+fn random_mode_catches_a_phase_on_one_of_sixteen_million_basis_states() {
+    let n = 24;
+    let h: String = (0..n).map(|i| format!("h q[{i}]; t q[{i}]; ")).collect();
+    let a = program(&qasm(n, &format!("{h} cx q[0],q[1];")));
+    let b = with_kernel(&a, one_state_phase(n, 0.1));
+    let cfg = CheckConfig {
+        mode: Mode::Random,
+        trials: 1,
+        ..CheckConfig::default()
+    };
+    let v = check(&a, &b, &cfg).unwrap();
+    assert!(!v.equivalent, "{v:?}");
+    assert!(v.distance.unwrap() > 1e-3, "{v:?}");
+    let v = check(&a, &a.clone(), &cfg).unwrap();
+    assert!(v.equivalent, "{v:?}");
+}
+
+// Bug: the tableau recogniser accepted `crx(pi+8e-5)` as an exact controlled-X.
+#[test]
+fn a_nearly_clifford_gate_is_not_read_as_a_clifford() {
+    let a = program(&qasm(2, "h q[0]; crx(pi) q[0],q[1];"));
+    for off in ["8e-5", "1e-9", "1e-11"] {
+        let b = program(&qasm(2, &format!("h q[0]; crx(pi+{off}) q[0],q[1];")));
+        assert!(
+            matches!(
+                check(&a, &b, &cfg(Mode::Tableau)),
+                Err(CheckError::NotClifford(_))
+            ),
+            "crx(pi+{off}) read as Clifford"
+        );
+        for mode in MODES {
+            assert!(!equal(&a, &b, mode), "{mode:?}: crx(pi+{off})");
+        }
+    }
+    // crx(pi) itself is Clifford and equal to itself, with a distance at rounding.
+    let v = check(&a, &a, &cfg(Mode::Tableau)).unwrap();
+    assert!(v.equivalent && v.distance.unwrap() < 1e-14, "{v:?}");
+}
+
+// Swapped wires: a CNOT with control and target exchanged.
+#[test]
+fn a_swapped_wire_differs_in_every_mode() {
+    let a = program(&qasm(3, "h q[0]; cx q[0],q[1]; rz(0.2) q[1];"));
+    let b = program(&qasm(3, "h q[0]; cx q[1],q[0]; rz(0.2) q[1];"));
+    for mode in MODES {
+        assert!(!equal(&a, &b, mode), "{mode:?}");
+    }
+}
+
+fn sequence(n: u32, ops: &[NativeOp]) -> Sequence {
+    let mut s = Sequence::new(n, vec![]);
+    for op in ops {
+        s.push(*op);
+    }
+    s
+}
+
+// A hidden ion left hidden, or measured while hidden, is a fault: never equal.
+#[test]
+fn an_ion_left_hidden_or_measured_while_hidden_is_never_equal() {
+    // Three ions, ion 2 hidden around a collective pulse, so only ions 0 and 1 turn.
+    let pulse = NativeOp::Collective {
+        theta: PI / 2.0,
+        phi: 0.0,
+    };
+    let hidden_around = sequence(
+        3,
+        &[
+            NativeOp::Hide { ion: 2 },
+            pulse,
+            NativeOp::Unhide { ion: 2 },
+        ],
+    );
+    let left_hidden = sequence(3, &[NativeOp::Hide { ion: 2 }, pulse]);
+    let circuit = program(&qasm(2, "rx(pi/2) q[0]; rx(pi/2) q[1];"));
+    for mode in MODES {
+        assert!(equal(
+            &circuit,
+            &Program::from_sequence(&hidden_around),
+            mode
+        ));
+        let v = check(&circuit, &Program::from_sequence(&left_hidden), &cfg(mode)).unwrap();
+        assert!(!v.equivalent && v.detail.contains("still hidden"), "{v:?}");
+    }
+    let mut measured_hidden = sequence(3, &[NativeOp::Hide { ion: 2 }, pulse]);
+    measured_hidden.steps.push(Step {
+        op: NativeOp::Measure { ion: 2, clbit: 0 },
+        condition: None,
+    });
+    measured_hidden.push(NativeOp::Unhide { ion: 2 });
+    let p = Program::from_sequence(&measured_hidden);
+    assert!(p.faults.iter().any(|f| f.contains("measured while hidden")));
+    assert!(!check(&p, &p, &CheckConfig::default()).unwrap().equivalent);
+}
+
+// The verdict reports the distance it measured and the tolerance it used, and an
+// explicit tolerance is honoured.
+#[test]
+fn the_verdict_reports_distance_and_tolerance() {
+    let a = program(&qasm(4, FOUR));
+    let b = with_kernel(&a, one_state_phase(4, 1e-6));
+    let v = check(&a, &b, &cfg(Mode::Unitary)).unwrap();
+    let d = v.distance.unwrap();
+    // Entries have modulus at most one, so none moves by more than |e^(i 1e-6) - 1|;
+    // the phase alignment takes a sixteenth of it from the others.
+    assert!(d > 1e-7 && d <= 1e-6 + 1e-12, "{v:?}");
+    let loose = CheckConfig {
+        mode: Mode::Unitary,
+        tolerance: Some(1e-5),
+        ..CheckConfig::default()
+    };
+    let v = check(&a, &b, &loose).unwrap();
+    assert!(v.equivalent && v.tolerance == 1e-5, "{v:?}");
+}

@@ -94,7 +94,9 @@ enum Command {
     Compile {
         /// The OpenQASM 2 circuit to compile.
         file: PathBuf,
-        /// Where to write the sequence (never the input); stdout when absent.
+        /// Where to write the sequence: a new file, an existing one with --force
+        /// (replaced atomically), a device or FIFO (written through), or `-` for
+        /// standard output (also the default). Symbolic links and the input are refused.
         #[arg(short, long)]
         output: Option<PathBuf>,
         /// Device profile: `demo` (embedded, invented example numbers) or a TOML file.
@@ -246,7 +248,7 @@ fn run(cli: Cli) -> Result<ExitCode, Failure> {
             let (_, compiled) = compile_one(&file, &device, target, !no_verify, &limits)?;
             let text = format.render(&compiled.sequence);
             match &output {
-                Some(path) => driver::write_atomic(path, &text, &file, force)?,
+                Some(path) => driver::write_output(path, &text, &file, force)?,
                 None => print!("{text}"),
             }
             let compiler = compiler_name(baseline);

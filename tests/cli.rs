@@ -213,3 +213,128 @@ fn a_large_file_reads_the_same_on_one_thread_and_on_all_cores() {
     assert_eq!(v["ops"], 300_008);
     assert_eq!(v["two_qubit_ops"], 100_000);
 }
+
+// Bug: `-o /dev/null --force` replaced the device with a regular file by the atomic
+// rename (as root, a system file was replaced).
+#[cfg(unix)]
+#[test]
+fn special_files_are_written_through_and_links_refused() {
+    use std::os::unix::fs::{FileTypeExt, PermissionsExt};
+    // A device: written through, still a device afterwards.
+    let (code, _, err) = tutti(&[
+        "compile",
+        "circuits/ghz_5.qasm",
+        "-o",
+        "/dev/null",
+        "--force",
+    ]);
+    assert_eq!(code, 0, "{err}");
+    let meta = std::fs::metadata("/dev/null").unwrap();
+    assert!(meta.file_type().is_char_device());
+    // A FIFO: a reader gets the whole sequence; the FIFO stays a FIFO.
+    let fifo = scratch("out.fifo");
+    let _ = std::fs::remove_file(&fifo);
+    let made = Command::new("mkfifo").arg(&fifo).status();
+    if made.is_ok_and(|s| s.success()) {
+        let reader = {
+            let fifo = fifo.clone();
+            std::thread::spawn(move || std::fs::read_to_string(fifo).unwrap())
+        };
+        let (code, _, err) = tutti(&[
+            "compile",
+            "circuits/ghz_5.qasm",
+            "-o",
+            fifo.to_str().unwrap(),
+        ]);
+        assert_eq!(code, 0, "{err}");
+        let got = reader.join().unwrap();
+        assert!(
+            got.starts_with("# tutti pulse list") && got.contains("ions 40"),
+            "{got}"
+        );
+        assert!(std::fs::symlink_metadata(&fifo)
+            .unwrap()
+            .file_type()
+            .is_fifo());
+    }
+    // A symbolic link: refused (exit 2), and its target untouched.
+    let target = scratch("precious.txt");
+    std::fs::write(&target, "precious").unwrap();
+    let link = scratch("link.pulses");
+    let _ = std::fs::remove_file(&link);
+    std::os::unix::fs::symlink(&target, &link).unwrap();
+    let (code, _, err) = tutti(&[
+        "compile",
+        "circuits/ghz_5.qasm",
+        "-o",
+        link.to_str().unwrap(),
+        "--force",
+    ]);
+    assert_eq!(code, 2);
+    assert!(err.contains("symbolic link"), "{err}");
+    assert_eq!(std::fs::read_to_string(&target).unwrap(), "precious");
+    assert!(std::fs::symlink_metadata(&link)
+        .unwrap()
+        .file_type()
+        .is_symlink());
+    // `-` is standard output.
+    let (code, out, _) = tutti(&["compile", "circuits/ghz_5.qasm", "-o", "-"]);
+    assert_eq!(code, 0);
+    assert!(out.contains("ions 40"));
+    // A replaced regular file keeps its permissions.
+    let kept = scratch("kept.pulses");
+    std::fs::write(&kept, "old").unwrap();
+    std::fs::set_permissions(&kept, std::fs::Permissions::from_mode(0o640)).unwrap();
+    let (code, _, err) = tutti(&[
+        "compile",
+        "circuits/ghz_5.qasm",
+        "-o",
+        kept.to_str().unwrap(),
+        "--force",
+    ]);
+    assert_eq!(code, 0, "{err}");
+    let meta = std::fs::metadata(&kept).unwrap();
+    assert_eq!(meta.permissions().mode() & 0o777, 0o640);
+    assert!(std::fs::read_to_string(&kept).unwrap().contains("ions 40"));
+}
+
+// Bug: swapped bits of final measurements were judged EQUIVALENT (exit 0).
+#[test]
+fn check_exits_1_for_swapped_measurement_bits_in_every_mode() {
+    let body =
+        "OPENQASM 2.0;\ninclude \"qelib1.inc\";\nqreg q[2];\ncreg c[2];\nh q[0]; cx q[0],q[1];\n";
+    let a = scratch("wired.qasm");
+    let b = scratch("swapped.qasm");
+    std::fs::write(
+        &a,
+        format!("{body}measure q[0] -> c[0];\nmeasure q[1] -> c[1];\n"),
+    )
+    .unwrap();
+    std::fs::write(
+        &b,
+        format!("{body}measure q[0] -> c[1];\nmeasure q[1] -> c[0];\n"),
+    )
+    .unwrap();
+    for mode in ["auto", "unitary", "random", "tableau"] {
+        let (code, out, err) = tutti(&[
+            "check",
+            a.to_str().unwrap(),
+            b.to_str().unwrap(),
+            "--mode",
+            mode,
+            "--json",
+        ]);
+        assert_eq!(code, 1, "{mode}: {out}{err}");
+        let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+        assert_eq!(v["equivalent"], false);
+        assert!(v["detail"].as_str().unwrap().contains("final measurements"));
+        let (code, _, _) = tutti(&[
+            "check",
+            a.to_str().unwrap(),
+            a.to_str().unwrap(),
+            "--mode",
+            mode,
+        ]);
+        assert_eq!(code, 0, "{mode}");
+    }
+}

@@ -27,7 +27,13 @@ fn mask_of(qubits: &[usize]) -> usize {
 
 /// Applies one kernel. Cost: one pass over the state, or a few for collective
 /// kernels (see [`StateVector::apply_same_to_all`]).
+///
+/// Panics when the kernel names a qubit the state does not have (the state's
+/// kernels check their own arguments; this covers the masks built here).
 pub fn apply_kernel(s: &mut StateVector, k: &Kernel) {
+    if let Some(q) = k.qubits().into_iter().find(|&q| q >= s.n) {
+        panic!("{k} names qubit {q}, but the state has {} qubits", s.n);
+    }
     match k {
         Kernel::One { q, m } => {
             if m[0][1].norm() == 0.0 && m[1][0].norm() == 0.0 {

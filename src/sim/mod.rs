@@ -8,6 +8,7 @@
 pub mod apply;
 pub mod equiv;
 pub mod program;
+mod simd;
 pub mod state;
 pub mod tableau;
 
@@ -16,4 +17,5 @@ pub use equiv::{
     Mode, SyncPoint, Verdict, WindowVerdict,
 };
 pub use program::{Item, Kernel, Program};
+pub use simd::set_vector_kernels;
 pub use state::StateVector;

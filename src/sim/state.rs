@@ -7,6 +7,7 @@
 //! cache-sized tiles, then the others [`GROUP`] at a time. Large states run in
 //! parallel with rayon.
 
+use super::simd::{self, scale};
 use crate::circuit::Mat2;
 use num_complex::Complex64 as C64;
 use rayon::prelude::*;
@@ -84,65 +85,16 @@ struct Diagonals {
     mask: usize,
 }
 
-/// `Rx(x) = [[c, -i s], [-i s, c]]` on the pairs `(lo[k], hi[k])`, in real arithmetic.
-#[inline(always)]
-fn rx_butterfly(lo: &mut [C64], hi: &mut [C64], c: f64, s: f64) {
-    #[cfg(target_arch = "x86_64")]
-    if std::arch::is_x86_feature_detected!("avx2") && std::arch::is_x86_feature_detected!("fma") {
-        // SAFETY: the CPU has the features the function is compiled for.
-        unsafe { rx_butterfly_avx2(lo, hi, c, s) };
-        return;
-    }
-    for (a, b) in lo.iter_mut().zip(hi.iter_mut()) {
-        (*a, *b) = rx_pair(*a, *b, c, s);
-    }
-}
-
-/// [`rx_butterfly`] two pairs at a time in 256-bit registers: with `swap` exchanging
-/// the real and imaginary parts, `a' = c a + (s, -s) swap(b)` and
-/// `b' = c b + (s, -s) swap(a)`.
-#[cfg(target_arch = "x86_64")]
-#[target_feature(enable = "avx2,fma")]
-unsafe fn rx_butterfly_avx2(lo: &mut [C64], hi: &mut [C64], c: f64, s: f64) {
-    use std::arch::x86_64::*;
-    let n = lo.len().min(hi.len());
-    let (pl, ph) = (lo.as_mut_ptr() as *mut f64, hi.as_mut_ptr() as *mut f64);
-    let vc = _mm256_set1_pd(c);
-    let vs = _mm256_setr_pd(s, -s, s, -s);
-    for k in 0..n / 2 {
-        // SAFETY: `4k + 3 < 2n` doubles lie inside each slice (C64 is two f64).
-        let a = _mm256_loadu_pd(pl.add(4 * k));
-        let b = _mm256_loadu_pd(ph.add(4 * k));
-        let na = _mm256_fmadd_pd(vc, a, _mm256_mul_pd(vs, _mm256_permute_pd(b, 0b0101)));
-        let nb = _mm256_fmadd_pd(vc, b, _mm256_mul_pd(vs, _mm256_permute_pd(a, 0b0101)));
-        _mm256_storeu_pd(pl.add(4 * k), na);
-        _mm256_storeu_pd(ph.add(4 * k), nb);
-    }
-    if n % 2 == 1 {
-        (lo[n - 1], hi[n - 1]) = rx_pair(lo[n - 1], hi[n - 1], c, s);
-    }
-}
-
-/// `Rx` on the pair `(x, y)`, in real arithmetic.
-#[inline(always)]
-fn rx_pair(x: C64, y: C64, c: f64, s: f64) -> (C64, C64) {
-    (
-        C64::new(c * x.re + s * y.im, c * x.im - s * y.re),
-        C64::new(s * x.im + c * y.re, c * y.im - s * x.re),
-    )
-}
-
 /// `Rx` on the qubits `low` (ascending) of a tile. Qubit 0 alone, then two qubits per
-/// sweep where the CPU has AVX2 (the four amplitudes of each 4-point stay in
+/// sweep where the vector kernels run (the four amplitudes of each 4-point stay in
 /// registers, so the tile is read from cache half as often), else one per sweep.
 fn rx_levels(t: &mut [C64], low: &[usize], c: f64, s: f64) {
     let mut rest = low;
     if rest.first() == Some(&0) {
-        rx_adjacent(t, c, s);
+        simd::rx_adjacent(t, c, s);
         rest = &rest[1..];
     }
-    #[cfg(target_arch = "x86_64")]
-    if std::arch::is_x86_feature_detected!("avx2") && std::arch::is_x86_feature_detected!("fma") {
+    if simd::vector_kernels() {
         for pair in rest.chunks(2) {
             if let [qa, qb] = *pair {
                 let (ha, hb) = (1usize << qa, 1usize << qb);
@@ -151,8 +103,7 @@ fn rx_levels(t: &mut [C64], low: &[usize], c: f64, s: f64) {
                     for (l, h) in lo.chunks_exact_mut(2 * ha).zip(hi.chunks_exact_mut(2 * ha)) {
                         let (w, x) = l.split_at_mut(ha);
                         let (y, z) = h.split_at_mut(ha);
-                        // SAFETY: the CPU has the features the function is compiled for.
-                        unsafe { rx4_avx2(w, x, y, z, c, s) };
+                        simd::rx4(w, x, y, z, c, s);
                     }
                 }
             } else {
@@ -170,130 +121,7 @@ fn rx_single_level(t: &mut [C64], q: usize, c: f64, s: f64) {
     let half = 1usize << q;
     for block in t.chunks_exact_mut(2 * half) {
         let (lo, hi) = block.split_at_mut(half);
-        rx_butterfly(lo, hi, c, s);
-    }
-}
-
-/// `Rx` on two qubits at once: on the pairs `(w, x)` and `(y, z)` (the lower qubit),
-/// then `(w, y)` and `(x, z)` (the upper one), two amplitudes per register.
-#[cfg(target_arch = "x86_64")]
-#[target_feature(enable = "avx2,fma")]
-unsafe fn rx4_avx2(w: &mut [C64], x: &mut [C64], y: &mut [C64], z: &mut [C64], c: f64, s: f64) {
-    use std::arch::x86_64::*;
-    let n = w.len();
-    let (pw, px, py, pz) = (
-        w.as_mut_ptr() as *mut f64,
-        x.as_mut_ptr() as *mut f64,
-        y.as_mut_ptr() as *mut f64,
-        z.as_mut_ptr() as *mut f64,
-    );
-    let vc = _mm256_set1_pd(c);
-    let vs = _mm256_setr_pd(s, -s, s, -s);
-    let rx = |a: __m256d, b: __m256d| -> (__m256d, __m256d) {
-        (
-            _mm256_fmadd_pd(vc, a, _mm256_mul_pd(vs, _mm256_permute_pd(b, 0b0101))),
-            _mm256_fmadd_pd(vc, b, _mm256_mul_pd(vs, _mm256_permute_pd(a, 0b0101))),
-        )
-    };
-    for k in 0..n / 2 {
-        // SAFETY: the four slices have `n` amplitudes each, `2k + 1 < n`.
-        let (a, b) = rx(
-            _mm256_loadu_pd(pw.add(4 * k)),
-            _mm256_loadu_pd(px.add(4 * k)),
-        );
-        let (cc, d) = rx(
-            _mm256_loadu_pd(py.add(4 * k)),
-            _mm256_loadu_pd(pz.add(4 * k)),
-        );
-        let (a, cc) = rx(a, cc);
-        let (b, d) = rx(b, d);
-        _mm256_storeu_pd(pw.add(4 * k), a);
-        _mm256_storeu_pd(px.add(4 * k), b);
-        _mm256_storeu_pd(py.add(4 * k), cc);
-        _mm256_storeu_pd(pz.add(4 * k), d);
-    }
-    if n % 2 == 1 {
-        let i = n - 1;
-        let (a, b) = rx_pair(w[i], x[i], c, s);
-        let (cc, d) = rx_pair(y[i], z[i], c, s);
-        (w[i], y[i]) = rx_pair(a, cc, c, s);
-        (x[i], z[i]) = rx_pair(b, d, c, s);
-    }
-}
-
-/// `Rx` on qubit 0: the pairs are adjacent amplitudes.
-fn rx_adjacent(t: &mut [C64], c: f64, s: f64) {
-    #[cfg(target_arch = "x86_64")]
-    if std::arch::is_x86_feature_detected!("avx2") && std::arch::is_x86_feature_detected!("fma") {
-        // SAFETY: the CPU has the features the function is compiled for.
-        unsafe { rx_adjacent_avx2(t, c, s) };
-        return;
-    }
-    for pair in t.chunks_exact_mut(2) {
-        (pair[0], pair[1]) = rx_pair(pair[0], pair[1], c, s);
-    }
-}
-
-/// [`rx_adjacent`] with one pair per 256-bit register `[x, y]`: the new value is
-/// `c [x, y] + (s, -s, s, -s) swap([y, x])`.
-#[cfg(target_arch = "x86_64")]
-#[target_feature(enable = "avx2,fma")]
-unsafe fn rx_adjacent_avx2(t: &mut [C64], c: f64, s: f64) {
-    use std::arch::x86_64::*;
-    let p = t.as_mut_ptr() as *mut f64;
-    let vc = _mm256_set1_pd(c);
-    let vs = _mm256_setr_pd(s, -s, s, -s);
-    for k in 0..t.len() / 2 {
-        // SAFETY: pair `k` is the doubles `4k .. 4k + 4`, inside the slice.
-        let v = _mm256_loadu_pd(p.add(4 * k));
-        let crossed = _mm256_permute_pd(_mm256_permute2f128_pd(v, v, 1), 0b0101);
-        _mm256_storeu_pd(
-            p.add(4 * k),
-            _mm256_fmadd_pd(vc, v, _mm256_mul_pd(vs, crossed)),
-        );
-    }
-}
-
-/// Multiplies `t[k]` by `f[k]` (or by `f[0]` for all `k` when `f` has one entry).
-fn scale(t: &mut [C64], f: &[C64]) {
-    #[cfg(target_arch = "x86_64")]
-    if std::arch::is_x86_feature_detected!("avx2") && std::arch::is_x86_feature_detected!("fma") {
-        // SAFETY: the CPU has the features the function is compiled for.
-        unsafe { scale_avx2(t, f) };
-        return;
-    }
-    if f.len() == 1 {
-        t.iter_mut().for_each(|a| *a *= f[0]);
-    } else {
-        t.iter_mut().zip(f).for_each(|(a, g)| *a *= *g);
-    }
-}
-
-/// [`scale`] two amplitudes per register: `a f = fmaddsub(a, re(f), swap(a) im(f))`.
-#[cfg(target_arch = "x86_64")]
-#[target_feature(enable = "avx2,fma")]
-unsafe fn scale_avx2(t: &mut [C64], f: &[C64]) {
-    use std::arch::x86_64::*;
-    let n = t.len();
-    let p = t.as_mut_ptr() as *mut f64;
-    let q = f.as_ptr() as *const f64;
-    let one = f.len() == 1;
-    let (fre1, fim1) = (_mm256_set1_pd(f[0].re), _mm256_set1_pd(f[0].im));
-    for k in 0..n / 2 {
-        // SAFETY: amplitudes `2k, 2k + 1` are inside `t`, and inside `f` unless `f` has
-        // one entry.
-        let a = _mm256_loadu_pd(p.add(4 * k));
-        let (fre, fim) = if one {
-            (fre1, fim1)
-        } else {
-            let g = _mm256_loadu_pd(q.add(4 * k));
-            (_mm256_movedup_pd(g), _mm256_permute_pd(g, 0b1111))
-        };
-        let r = _mm256_fmaddsub_pd(a, fre, _mm256_mul_pd(_mm256_permute_pd(a, 0b0101), fim));
-        _mm256_storeu_pd(p.add(4 * k), r);
-    }
-    if n % 2 == 1 {
-        t[n - 1] *= if one { f[0] } else { f[n - 1] };
+        simd::rx_butterfly(lo, hi, c, s);
     }
 }
 
@@ -316,6 +144,30 @@ fn insert_zeros(mut c: usize, sorted: &[usize]) -> usize {
 }
 
 impl StateVector {
+    /// Panics unless the state holds `2^n` amplitudes and every qubit of `qubits` is
+    /// below `n` and named once. Every public kernel calls it first: the passes
+    /// below index raw memory from these numbers.
+    fn check_qubits(&self, what: &str, qubits: &[usize]) {
+        assert!(
+            self.n < usize::BITS as usize && self.amps.len() == 1usize << self.n,
+            "{what}: a state of {} qubits must hold 2^{} amplitudes, not {}",
+            self.n,
+            self.n,
+            self.amps.len()
+        );
+        for (i, &q) in qubits.iter().enumerate() {
+            assert!(
+                q < self.n,
+                "{what}: qubit {q} does not exist in a state of {} qubits",
+                self.n
+            );
+            assert!(
+                !qubits[..i].contains(&q),
+                "{what}: qubit {q} is named twice"
+            );
+        }
+    }
+
     /// The state `|0...0>`.
     pub fn zero(n: usize) -> StateVector {
         let mut amps = zeroed_amps(1usize << n);
@@ -364,6 +216,11 @@ impl StateVector {
 
     /// `<self|other>`.
     pub fn inner(&self, other: &StateVector) -> C64 {
+        assert_eq!(
+            self.amps.len(),
+            other.amps.len(),
+            "inner: states of different sizes"
+        );
         if self.amps.len() >= PAR_LEN {
             self.amps
                 .par_iter()
@@ -381,6 +238,7 @@ impl StateVector {
 
     /// Any 2x2 on one qubit. One pass.
     pub fn apply_mat2(&mut self, q: usize, m: &Mat2) {
+        self.check_qubits("apply_mat2", &[q]);
         let half = 1usize << q;
         if self.amps.len() < PAR_LEN {
             mat2_serial(&mut self.amps, q, m);
@@ -418,6 +276,9 @@ impl StateVector {
 
     /// A 2x2 on `target` where every qubit of `controls` is 1. One pass.
     pub fn apply_controlled(&mut self, controls: &[usize], target: usize, m: &Mat2) {
+        let mut all = controls.to_vec();
+        all.push(target);
+        self.check_qubits("apply_controlled", &all);
         let cmask: usize = controls.iter().map(|c| 1usize << c).sum();
         let half = 1usize << target;
         let apply = |base: usize, lo: &mut [C64], hi: &mut [C64]| {
@@ -465,6 +326,7 @@ impl StateVector {
 
     /// Multiplies amplitude `i` by `phase(i)`. One pass.
     pub fn apply_diagonal(&mut self, phase: impl Fn(usize) -> C64 + Sync) {
+        self.check_qubits("apply_diagonal", &[]);
         if self.amps.len() < PAR_LEN {
             self.amps
                 .iter_mut()
@@ -492,6 +354,7 @@ impl StateVector {
     /// whole product in one pass: `1 + ceil(h / GROUP)` passes, `h` the qubits at or
     /// above TILE_BITS.
     pub fn apply_same_to_all(&mut self, qubits: &[usize], m: &Mat2) {
+        self.check_qubits("apply_same_to_all", qubits);
         if qubits.len() < 4 {
             return self.apply_same_to_all_direct(qubits, m);
         }
@@ -643,6 +506,7 @@ impl StateVector {
     /// The same 2x2 on every qubit of `qubits`, one pass per qubit: the reference for
     /// [`StateVector::apply_same_to_all`] and its method for fewer than four qubits.
     pub fn apply_same_to_all_direct(&mut self, qubits: &[usize], m: &Mat2) {
+        self.check_qubits("apply_same_to_all_direct", qubits);
         for &q in qubits {
             self.apply_mat2(q, m);
         }
@@ -650,8 +514,16 @@ impl StateVector {
 
     /// Any `2^k x 2^k` matrix (row-major, argument 0 = bit 0) on `qubits`. One pass.
     pub fn apply_dense(&mut self, qubits: &[usize], m: &nalgebra::DMatrix<C64>) {
+        self.check_qubits("apply_dense", qubits);
         let k = qubits.len();
+        assert!(k <= 6, "apply_dense: at most 6 qubits, not {k}");
         let dim = 1usize << k;
+        assert!(
+            m.nrows() == dim && m.ncols() == dim,
+            "apply_dense: a {}x{} matrix on {k} qubits",
+            m.nrows(),
+            m.ncols()
+        );
         let mut sorted = qubits.to_vec();
         sorted.sort_unstable();
         let offsets: Vec<usize> = (0..dim)
@@ -686,7 +558,6 @@ impl StateVector {
                 }
             }
         };
-        assert!(k <= 6, "dense kernels take at most 6 qubits");
         if self.amps.len() < PAR_LEN {
             (0..outer).for_each(body);
         } else {
@@ -700,89 +571,17 @@ impl StateVector {
     /// A plain copy of the amplitudes into `dst`, the bandwidth reference of the
     /// benchmarks.
     pub fn copy_into(&self, dst: &mut [C64]) {
+        assert_eq!(
+            dst.len(),
+            self.amps.len(),
+            "copy_into: buffers of different sizes"
+        );
         if self.amps.len() < PAR_LEN {
             dst.copy_from_slice(&self.amps);
         } else {
             dst.par_chunks_mut(CHUNK)
                 .zip(self.amps.par_chunks(CHUNK))
                 .for_each(|(d, s)| d.copy_from_slice(s));
-        }
-    }
-}
-
-#[cfg(test)]
-mod tests {
-    use super::*;
-
-    fn sample(n: usize, seed: f64) -> Vec<C64> {
-        (0..n)
-            .map(|k| {
-                C64::new(
-                    (k as f64 * 0.37 + seed).sin(),
-                    (k as f64 * 0.91 - seed).cos(),
-                )
-            })
-            .collect()
-    }
-
-    /// The vector kernels against the plain loops they replace (odd lengths too).
-    #[cfg(target_arch = "x86_64")]
-    #[test]
-    fn vector_kernels_match_the_plain_loops() {
-        if !(std::arch::is_x86_feature_detected!("avx2")
-            && std::arch::is_x86_feature_detected!("fma"))
-        {
-            return;
-        }
-        let (c, s) = (0.3f64.cos(), 0.3f64.sin());
-        for n in [1usize, 2, 7, 64] {
-            let (mut lo, mut hi) = (sample(n, 0.1), sample(n, 0.7));
-            let (mut lo2, mut hi2) = (lo.clone(), hi.clone());
-            unsafe { rx_butterfly_avx2(&mut lo, &mut hi, c, s) };
-            for (a, b) in lo2.iter_mut().zip(hi2.iter_mut()) {
-                (*a, *b) = rx_pair(*a, *b, c, s);
-            }
-            assert!(lo
-                .iter()
-                .zip(&lo2)
-                .chain(hi.iter().zip(&hi2))
-                .all(|(x, y)| (x - y).norm() < 1e-14));
-
-            let mut t = sample(2 * n, 0.3);
-            let mut t2 = t.clone();
-            unsafe { rx_adjacent_avx2(&mut t, c, s) };
-            for pair in t2.chunks_exact_mut(2) {
-                (pair[0], pair[1]) = rx_pair(pair[0], pair[1], c, s);
-            }
-            assert!(t.iter().zip(&t2).all(|(x, y)| (x - y).norm() < 1e-14));
-
-            let (mut w, mut x, mut y, mut z) = (
-                sample(n, 0.2),
-                sample(n, 0.4),
-                sample(n, 0.6),
-                sample(n, 0.8),
-            );
-            let mut plain = [w.clone(), x.clone(), y.clone(), z.clone()];
-            unsafe { rx4_avx2(&mut w, &mut x, &mut y, &mut z, c, s) };
-            for i in 0..n {
-                let (a, b) = rx_pair(plain[0][i], plain[1][i], c, s);
-                let (cc, d) = rx_pair(plain[2][i], plain[3][i], c, s);
-                (plain[0][i], plain[2][i]) = rx_pair(a, cc, c, s);
-                (plain[1][i], plain[3][i]) = rx_pair(b, d, c, s);
-            }
-            for (fast, slow) in [&w, &x, &y, &z].into_iter().zip(&plain) {
-                assert!(fast.iter().zip(slow).all(|(p, q)| (p - q).norm() < 1e-14));
-            }
-
-            let f = sample(n, 1.9);
-            let (mut u, mut v) = (sample(n, 2.3), sample(n, 2.3));
-            unsafe { scale_avx2(&mut u, &f) };
-            v.iter_mut().zip(&f).for_each(|(a, g)| *a *= *g);
-            assert!(u.iter().zip(&v).all(|(x, y)| (x - y).norm() < 1e-14));
-            let (mut u, mut v) = (sample(n, 2.3), sample(n, 2.3));
-            unsafe { scale_avx2(&mut u, &f[..1]) };
-            v.iter_mut().for_each(|a| *a *= f[0]);
-            assert!(u.iter().zip(&v).all(|(x, y)| (x - y).norm() < 1e-14));
         }
     }
 }

@@ -146,12 +146,14 @@ fn kernels_match_plain_loops_at_25_qubits() {
     every_kernel_against_plain_loops(25, &[24, 20, 14], &mut rng);
 }
 
+type Call = Box<dyn Fn(&mut StateVector) + std::panic::RefUnwindSafe>;
+
 // Bug: safe public functions wrote out of bounds for a qubit index >= n.
 #[test]
 fn a_qubit_outside_the_state_is_a_panic_not_a_write() {
     let s = StateVector::zero(4);
     let m = rotation(0.3, 0.1);
-    let calls: Vec<Box<dyn Fn(&mut StateVector) + std::panic::RefUnwindSafe>> = vec![
+    let calls: Vec<Call> = vec![
         Box::new(move |s| s.apply_mat2(4, &m)),
         Box::new(move |s| s.apply_controlled(&[7], 0, &m)),
         Box::new(move |s| s.apply_controlled(&[1], 1, &m)),

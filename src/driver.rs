@@ -80,16 +80,17 @@ pub fn load(path: &Path, limits: &Limits) -> Result<(Loaded, String), String> {
     let name = path.display().to_string();
     match Format::sniff(path, &text) {
         Format::Qasm => {
+            // A file tutti wrote, with its header untouched, is read as the sequence
+            // it is, without expanding the native gates (a 40-ion MS gate is 780
+            // two-ion gates per pulse). An edited header makes it a circuit.
+            if let Some(seq) = read_qasm_sequence(&text) {
+                return Ok((Loaded::Sequence(seq), String::new()));
+            }
             // The text is read already: elaborate it, do not read the file again.
             let out = qasm::elaborate::read_with(&name, &text, limits, &qasm::FsLoader);
             let rendered = out.render();
             match out.circuit {
-                // A file tutti wrote maps back to its sequence exactly; it must also be
-                // valid OpenQASM 2, which reading it as a circuit just checked.
-                Some(c) => match read_qasm_sequence(&text) {
-                    Some(seq) => Ok((Loaded::Sequence(seq), rendered)),
-                    None => Ok((Loaded::Circuit(c), rendered)),
-                },
+                Some(c) => Ok((Loaded::Circuit(c), rendered)),
                 None => Err(format!(
                     "{rendered}{} error(s) in {name}\n",
                     out.errors().count()

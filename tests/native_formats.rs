@@ -293,3 +293,81 @@ proptest! {
         }
     }
 }
+
+/// The QASM output of the 15-qubit multiplier (QASMBench, vendored) on the demo
+/// device, and the sequence it came from.
+fn multiplier_qasm() -> (Sequence, String) {
+    let c =
+        common::read_ok("tests/data/qasmbench/medium/multiplier_n15/multiplier_n15.qasm".as_ref());
+    let seq = compile_baseline(&c, &Profile::demo(), Target::Collective).unwrap();
+    let text = tutti::native::qasm_out::write_qasm(&seq);
+    (seq, text)
+}
+
+fn load_text(name: &str, text: &str) -> tutti::driver::Loaded {
+    let dir = std::env::temp_dir().join(format!("tutti-formats-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let path = dir.join(name);
+    std::fs::write(&path, text).unwrap();
+    match tutti::driver::load(&path, &tutti::qasm::Limits::default()) {
+        Ok((loaded, _)) => loaded,
+        Err(e) => panic!("{e}"),
+    }
+}
+
+// Bug: checking a compiled `--format qasm` output expanded the native header gates
+// (780 two-ion gates per 40-ion MS pulse) and ran out of memory.
+#[test]
+fn tuttis_own_qasm_output_reads_back_as_its_sequence_without_expansion() {
+    let (seq, text) = multiplier_qasm();
+    match load_text("multiplier.qasm", &text) {
+        tutti::driver::Loaded::Sequence(back) => assert_eq!(back, seq),
+        tutti::driver::Loaded::Circuit(_) => panic!("read as a circuit"),
+    }
+}
+
+// An edited header is no longer tutti's: the file is read as the circuit it says,
+// and a changed gate body is then a different unitary.
+#[test]
+fn an_edited_qasm_header_is_read_as_a_circuit() {
+    let c = common::read_ok("circuits/teleport_3.qasm".as_ref());
+    let seq = compile_baseline(&c, &Profile::demo().with_ions(4), Target::Collective).unwrap();
+    let text = tutti::native::qasm_out::write_qasm(&seq);
+    assert!(matches!(
+        load_text("same.qasm", &text),
+        tutti::driver::Loaded::Sequence(_)
+    ));
+    let edited = text.replacen(
+        "gate light_shift(theta) a { rz(theta) a; }",
+        "gate light_shift(theta) a { rz(theta*1.000001) a; }",
+        1,
+    );
+    assert_ne!(edited, text);
+    let loaded = load_text("edited.qasm", &edited);
+    let tutti::driver::Loaded::Circuit(circuit) = loaded else {
+        panic!("an edited header was read as tutti's sequence");
+    };
+    let v = check(
+        &Program::from_circuit(&c).unwrap(),
+        &Program::from_circuit(&circuit).unwrap(),
+        &CheckConfig::default(),
+    )
+    .unwrap();
+    assert!(!v.equivalent, "{v:?}");
+    // Other edits that a reader of OpenQASM 2 would see: an extra gate definition,
+    // an ion outside the register, a chain gate the header does not define.
+    let extra = format!("{text}gate extra a {{ x a; }}\n");
+    let outside = text.replacen("light_shift(", "light_shift(0) q[9];\nlight_shift(", 1);
+    let undefined = text.replacen("chain_rot_4(", "chain_rot_5(", 1);
+    for (what, t) in [
+        ("extra gate", extra),
+        ("ion outside", outside),
+        ("undefined chain", undefined),
+    ] {
+        assert_ne!(t, text, "{what}");
+        assert!(
+            tutti::native::qasm_out::read_qasm_sequence(&t).is_none(),
+            "{what} read as tutti's sequence"
+        );
+    }
+}

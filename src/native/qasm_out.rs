@@ -37,29 +37,13 @@ gate hide_ion a { }
 gate unhide_ion a { }
 ";
 
-/// The OpenQASM 2 text of a sequence.
-pub fn write_qasm(seq: &Sequence) -> String {
-    let n = seq.n_ions;
+/// Everything [`write_qasm`] writes before the `qreg` line, for `n` ions and the
+/// given sizes of chain gates. A file whose text starts with exactly this is read
+/// back as a sequence without expanding any gate.
+fn header(n: u32, rot_sizes: &BTreeSet<usize>, ms_sizes: &BTreeSet<usize>) -> String {
     let mut out =
         format!("{MARKER} for {n} ions\nOPENQASM 2.0;\ninclude \"qelib1.inc\";\n{HEADER}");
-    // The chain gates for every number of visible ions the sequence uses.
-    let mut hidden = vec![false; n as usize];
-    let (mut rot_sizes, mut ms_sizes) = (BTreeSet::new(), BTreeSet::new());
-    for step in &seq.steps {
-        let k = hidden.iter().filter(|h| !**h).count();
-        match step.op {
-            NativeOp::Collective { .. } => {
-                rot_sizes.insert(k);
-            }
-            NativeOp::Ms { .. } => {
-                ms_sizes.insert(k);
-            }
-            NativeOp::Hide { ion } => hidden[ion as usize] = true,
-            NativeOp::Unhide { ion } => hidden[ion as usize] = false,
-            _ => {}
-        }
-    }
-    for k in rot_sizes {
+    for &k in rot_sizes {
         let args: Vec<String> = (0..k).map(|i| format!("i{i}")).collect();
         let body: String = args
             .iter()
@@ -72,7 +56,7 @@ pub fn write_qasm(seq: &Sequence) -> String {
             args.join(",")
         );
     }
-    for k in ms_sizes {
+    for &k in ms_sizes {
         let args: Vec<String> = (0..k).map(|i| format!("i{i}")).collect();
         let mut body = String::new();
         for a in 0..k {
@@ -90,6 +74,30 @@ pub fn write_qasm(seq: &Sequence) -> String {
             args.join(",")
         );
     }
+    out
+}
+
+/// The OpenQASM 2 text of a sequence.
+pub fn write_qasm(seq: &Sequence) -> String {
+    let n = seq.n_ions;
+    // The chain gates for every number of visible ions the sequence uses.
+    let mut hidden = vec![false; n as usize];
+    let (mut rot_sizes, mut ms_sizes) = (BTreeSet::new(), BTreeSet::new());
+    for step in &seq.steps {
+        let k = hidden.iter().filter(|h| !**h).count();
+        match step.op {
+            NativeOp::Collective { .. } => {
+                rot_sizes.insert(k);
+            }
+            NativeOp::Ms { .. } => {
+                ms_sizes.insert(k);
+            }
+            NativeOp::Hide { ion } => hidden[ion as usize] = true,
+            NativeOp::Unhide { ion } => hidden[ion as usize] = false,
+            _ => {}
+        }
+    }
+    let mut out = header(n, &rot_sizes, &ms_sizes);
     let _ = writeln!(out, "qreg q[{n}];");
     for r in &seq.cregs {
         let _ = writeln!(out, "creg {}[{}];", r.name, r.size);
@@ -156,10 +164,16 @@ pub fn write_qasm(seq: &Sequence) -> String {
     out
 }
 
-/// Recovers the sequence from a file [`write_qasm`] wrote. Returns `None` when the
-/// text is not such a file or does not map cleanly; callers then read it as an
-/// ordinary circuit. The text must also read as valid OpenQASM 2 (checked by the
-/// caller with the full front end).
+/// Recovers the sequence from a file [`write_qasm`] wrote, without expanding any
+/// gate. Returns `None` when the text is not exactly such a file: the header (every
+/// line before `qreg`) must be byte for byte what [`write_qasm`] writes for the
+/// chain gates it defines, no other gate, include or barrier may follow, and every
+/// statement after it must be a call of a header gate on ions of the one register
+/// (chain gates on exactly the ions not hidden), a measurement into a declared bit,
+/// a reset, or such an operation under `if` on a declared register. A file that
+/// passes is therefore valid OpenQASM 2 whose meaning is the sequence returned; an
+/// edited header makes it an ordinary circuit, which callers read with the full
+/// front end.
 pub fn read_qasm_sequence(text: &str) -> Option<Sequence> {
     if !text.starts_with(MARKER) {
         return None;
@@ -168,26 +182,60 @@ pub fn read_qasm_sequence(text: &str) -> Option<Sequence> {
     if diags.iter().any(|d| d.is_error()) {
         return None;
     }
-    let mut seq = Sequence::default();
-    let mut qreg = None;
-    let mut hidden: Vec<bool> = Vec::new();
+    let (mut rot_sizes, mut ms_sizes) = (BTreeSet::new(), BTreeSet::new());
+    let (mut gates, mut n_ions) = (0usize, None);
+    for stmt in &program.stmts {
+        match stmt {
+            Stmt::Gate(g) => {
+                gates += 1;
+                let name = g.name.name;
+                if let Some(k) = name.strip_prefix("chain_rot_") {
+                    rot_sizes.insert(k.parse::<usize>().ok()?);
+                } else if let Some(k) = name.strip_prefix("chain_ms_") {
+                    ms_sizes.insert(k.parse::<usize>().ok()?);
+                }
+            }
+            Stmt::Qreg { size, .. } if n_ions.is_none() => n_ions = Some(size.0),
+            Stmt::Qreg { .. } | Stmt::Barrier { .. } => return None,
+            _ => {}
+        }
+    }
+    let n = u32::try_from(n_ions?).ok()?;
+    let expected = header(n, &rot_sizes, &ms_sizes);
+    const FIXED_GATES: usize = 7;
+    if gates != FIXED_GATES + rot_sizes.len() + ms_sizes.len()
+        || !text.starts_with(&expected)
+        || !text[expected.len()..].starts_with(&format!("qreg q[{n}];"))
+    {
+        return None;
+    }
+    let mut seq = Sequence {
+        n_ions: n,
+        ..Sequence::default()
+    };
+    let mut hidden = vec![false; n as usize];
+    let mut versions = 0;
     for stmt in &program.stmts {
         let (op, condition) = match stmt {
-            Stmt::Qreg { name, size, .. } => {
-                if qreg.is_some() {
+            Stmt::Qreg { .. } | Stmt::Gate(_) => continue,
+            Stmt::Version { .. } | Stmt::Include { .. } => {
+                // Both are in the header; any more is an edit.
+                versions += 1;
+                if versions > 2 {
                     return None;
                 }
-                qreg = Some(name.name.to_string());
-                seq.n_ions = size.0 as u32;
-                hidden = vec![false; size.0 as usize];
                 continue;
             }
             Stmt::Creg { name, size, .. } => {
-                let offset = seq.n_clbits();
+                if seq.cregs.iter().any(|r| r.name == name.name) {
+                    return None;
+                }
+                let (offset, size) = (seq.n_clbits(), u32::try_from(size.0).ok()?);
+                offset.checked_add(size)?;
                 seq.cregs.push(Register {
                     name: name.name.to_string(),
                     offset,
-                    size: size.0 as u32,
+                    size,
                 });
                 continue;
             }
@@ -196,6 +244,9 @@ pub fn read_qasm_sequence(text: &str) -> Option<Sequence> {
                 creg, value, op, ..
             } => {
                 let i = seq.cregs.iter().position(|r| r.name == creg.name)?;
+                if seq.cregs[i].size < 64 && value.0 >> seq.cregs[i].size != 0 {
+                    return None;
+                }
                 (
                     &**op,
                     Some(Condition {
@@ -204,27 +255,43 @@ pub fn read_qasm_sequence(text: &str) -> Option<Sequence> {
                     }),
                 )
             }
-            Stmt::Version { .. } | Stmt::Include { .. } | Stmt::Gate(_) => continue,
             Stmt::Barrier { .. } => return None,
         };
-        let ion = |a: &Arg| -> Option<u32> { a.index.map(|(i, _)| i as u32) };
+        let ion = |a: &Arg| -> Option<u32> {
+            let i = a.index?.0;
+            (a.reg.name == "q" && i < n as u64).then_some(i as u32)
+        };
         let native = match op {
             QOp::Measure { src, dst, .. } => {
                 let reg = seq.cregs.iter().find(|r| r.name == dst.reg.name)?;
+                let bit = dst.index?.0;
+                if bit >= reg.size as u64 {
+                    return None;
+                }
                 NativeOp::Measure {
                     ion: ion(src)?,
-                    clbit: reg.offset + dst.index?.0 as u32,
+                    clbit: reg.offset + bit as u32,
                 }
             }
             QOp::Reset { arg, .. } => NativeOp::Reset { ion: ion(arg)? },
             QOp::Call(call) => {
                 let p: Vec<f64> = call.params.iter().map(|e| eval(e, &[], &[])).collect();
+                if p.iter().any(|v| !v.is_finite()) {
+                    return None;
+                }
                 let name = call.name.name;
                 let args: Option<Vec<u32>> = call.args.iter().map(ion).collect();
-                if name.starts_with("chain_rot_") || name.starts_with("chain_ms_") {
+                let chain_size = |prefix: &str| {
+                    name.strip_prefix(prefix)
+                        .and_then(|k| k.parse::<usize>().ok())
+                };
+                let (rot, ms) = (chain_size("chain_rot_"), chain_size("chain_ms_"));
+                let defined = rot.is_some_and(|k| rot_sizes.contains(&k))
+                    || ms.is_some_and(|k| ms_sizes.contains(&k));
+                if let Some(k) = rot.or(ms) {
                     let visible: Vec<u32> =
                         (0..seq.n_ions).filter(|&i| !hidden[i as usize]).collect();
-                    if args? != visible || p.len() != 2 {
+                    if !defined || args? != visible || p.len() != 2 || k != visible.len() {
                         return None;
                     }
                     if name.starts_with("chain_rot_") {
@@ -240,7 +307,7 @@ pub fn read_qasm_sequence(text: &str) -> Option<Sequence> {
                     }
                 } else {
                     match (name, p.as_slice(), call.args.as_slice()) {
-                        ("frame_z", [t], [a]) if a.index.is_none() => {
+                        ("frame_z", [t], [a]) if a.index.is_none() && a.reg.name == "q" => {
                             NativeOp::VirtualZ { theta: *t }
                         }
                         ("light_shift", [t], [a]) => NativeOp::LightShift {
@@ -252,7 +319,7 @@ pub fn read_qasm_sequence(text: &str) -> Option<Sequence> {
                             theta: *t,
                             phi: *f,
                         },
-                        ("pair_ms", [t, f], [a, b]) => NativeOp::PairMs {
+                        ("pair_ms", [t, f], [a, b]) if ion(a)? != ion(b)? => NativeOp::PairMs {
                             a: ion(a)?,
                             b: ion(b)?,
                             theta: *t,
@@ -260,12 +327,12 @@ pub fn read_qasm_sequence(text: &str) -> Option<Sequence> {
                         },
                         ("hide_ion", [], [a]) => {
                             let i = ion(a)?;
-                            *hidden.get_mut(i as usize)? = true;
+                            hidden[i as usize] = true;
                             NativeOp::Hide { ion: i }
                         }
                         ("unhide_ion", [], [a]) => {
                             let i = ion(a)?;
-                            *hidden.get_mut(i as usize)? = false;
+                            hidden[i as usize] = false;
                             NativeOp::Unhide { ion: i }
                         }
                         _ => return None,
@@ -278,5 +345,5 @@ pub fn read_qasm_sequence(text: &str) -> Option<Sequence> {
             condition,
         });
     }
-    qreg.map(|_| seq)
+    Some(seq)
 }

@@ -35,6 +35,14 @@ struct LimitArgs {
     /// Deepest nesting of include files.
     #[arg(long, default_value_t = Limits::default().max_include_depth)]
     max_include_depth: usize,
+    /// Deepest nesting of gate definitions (a gate calling a gate calling ...), at
+    /// most 4096 (deeper expansion would overflow the stack).
+    #[arg(long, default_value_t = Limits::default().max_gate_nesting as u64,
+          value_parser = clap::value_parser!(u64).range(1..=tutti::qasm::elaborate::MAX_GATE_NESTING as u64))]
+    max_gate_nesting: u64,
+    /// Most diagnostics printed; the rest are counted in one line.
+    #[arg(long, default_value_t = Limits::default().max_errors)]
+    max_errors: usize,
     /// Threads that read one large file together (0: one per core). The result is
     /// the same with any number.
     #[arg(long, default_value_t = Limits::default().max_threads)]
@@ -50,6 +58,8 @@ impl LimitArgs {
             max_register_size: self.max_qubits,
             max_file_bytes: self.max_file_bytes,
             max_include_depth: self.max_include_depth,
+            max_gate_nesting: self.max_gate_nesting as usize,
+            max_errors: self.max_errors,
             max_threads: self.read_threads,
             ..Limits::default()
         }
@@ -115,6 +125,10 @@ enum Command {
         /// Replace OUT if it exists (the input is never replaced).
         #[arg(long)]
         force: bool,
+        /// Most steps (pulses and other operations) the compiled sequence may have;
+        /// a larger one stops the compile with an error instead of exhausting memory.
+        #[arg(long, default_value_t = tutti::compile::DEFAULT_MAX_STEPS)]
+        max_pulses: usize,
         #[command(flatten)]
         limits: LimitArgs,
     },
@@ -133,6 +147,10 @@ enum Command {
         /// Print one JSON object.
         #[arg(long)]
         json: bool,
+        /// Most steps (pulses and other operations) the compiled sequence may have;
+        /// a larger one stops the compile with an error instead of exhausting memory.
+        #[arg(long, default_value_t = tutti::compile::DEFAULT_MAX_STEPS)]
+        max_pulses: usize,
         #[command(flatten)]
         limits: LimitArgs,
     },
@@ -242,10 +260,12 @@ fn run(cli: Cli) -> Result<ExitCode, Failure> {
             baseline,
             no_verify,
             force,
+            max_pulses,
             limits,
         } => {
             let limits = limits.limits();
-            let (_, compiled) = compile_one(&file, &device, target, !no_verify, &limits)?;
+            let (_, compiled) =
+                compile_one(&file, &device, target, !no_verify, max_pulses, &limits)?;
             let text = format.render(&compiled.sequence);
             match &output {
                 Some(path) => driver::write_output(path, &text, &file, force)?,
@@ -273,10 +293,11 @@ fn run(cli: Cli) -> Result<ExitCode, Failure> {
             target,
             baseline,
             json,
+            max_pulses,
             limits,
         } => {
             let limits = limits.limits();
-            let (_, compiled) = compile_one(&file, &device, target, false, &limits)?;
+            let (_, compiled) = compile_one(&file, &device, target, false, max_pulses, &limits)?;
             let compiler = compiler_name(baseline);
             if json {
                 println!(
@@ -308,17 +329,19 @@ fn run(cli: Cli) -> Result<ExitCode, Failure> {
             let limits = limits.limits();
             let progress = Progress::start(&a);
             progress.stage("reading both sides");
-            let loaded = driver::load_program(&a, &limits)
-                .and_then(|pa| Ok((pa, driver::load_program(&b, &limits)?)));
+            let defaults = CheckConfig::default();
+            let memory_budget =
+                memory.map_or(defaults.memory_budget, |m| m.saturating_mul(1 << 20));
+            let loaded = driver::load_program(&a, &limits, memory_budget)
+                .and_then(|pa| Ok((pa, driver::load_program(&b, &limits, memory_budget)?)));
             let ((pa, wa), (pb, wb)) = loaded.map_err(|e| progress.cleared(e))?;
             progress.0.suspend(|| eprint!("{wa}{wb}"));
-            let defaults = CheckConfig::default();
             let cfg = CheckConfig {
                 mode: mode.into(),
                 trials,
                 seed,
                 tolerance,
-                memory_budget: memory.map_or(defaults.memory_budget, |m| m.saturating_mul(1 << 20)),
+                memory_budget,
                 up_to_final_diagonal,
                 ..defaults
             };
@@ -357,6 +380,7 @@ fn compile_one(
     device: &str,
     target: Target,
     verify: bool,
+    max_steps: usize,
     limits: &Limits,
 ) -> Result<(tutti::circuit::Circuit, driver::Compiled), Failure> {
     let progress = Progress::start(file);
@@ -368,6 +392,7 @@ fn compile_one(
     let cfg = CompileConfig {
         target,
         verify,
+        max_steps,
         ..CompileConfig::default()
     };
     let compiled = driver::compile_with(&circuit, &profile, &cfg, &mut |stage| {

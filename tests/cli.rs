@@ -281,6 +281,20 @@ fn special_files_are_written_through_and_links_refused() {
     let (code, out, _) = tutti(&["compile", "circuits/ghz_5.qasm", "-o", "-"]);
     assert_eq!(code, 0);
     assert!(out.contains("ions 40"));
+    // A new file gets 0666 less the umask, not the 0600 of a temporary file.
+    let fresh = scratch("fresh.pulses");
+    let _ = std::fs::remove_file(&fresh);
+    let (code, _, _) = tutti(&[
+        "compile",
+        "circuits/ghz_5.qasm",
+        "-o",
+        fresh.to_str().unwrap(),
+    ]);
+    assert_eq!(code, 0);
+    let mode = std::fs::metadata(&fresh).unwrap().permissions().mode() & 0o777;
+    let umask = Command::new("sh").args(["-c", "umask"]).output().unwrap();
+    let umask = u32::from_str_radix(String::from_utf8_lossy(&umask.stdout).trim(), 8).unwrap();
+    assert_eq!(mode, 0o666 & !umask, "{mode:o} under umask {umask:o}");
     // A replaced regular file keeps its permissions.
     let kept = scratch("kept.pulses");
     std::fs::write(&kept, "old").unwrap();

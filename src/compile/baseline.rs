@@ -53,7 +53,22 @@ pub enum CompileError {
     },
     #[error("the addressed target needs pair MS pulses or hiding, and device `{0}` has neither")]
     NoAddressedEntangler(String),
+    #[error("the compiled sequence grows past {limit} steps (at instruction {instruction}); raise --max-pulses if the machine has the memory (about {bytes_per_step} bytes a step), or compile a smaller circuit")]
+    TooManySteps {
+        limit: usize,
+        instruction: usize,
+        bytes_per_step: usize,
+    },
+    #[error("out of memory after {steps} steps (at instruction {instruction}); lower --max-pulses to be told sooner, or run where more memory is available")]
+    OutOfMemory { steps: usize, instruction: usize },
 }
+
+/// Most steps a compile may produce unless told otherwise (`--max-pulses`): about
+/// 640 MB of sequence and trace.
+pub const DEFAULT_MAX_STEPS: usize = 10_000_000;
+
+/// Bytes one step of a compiled sequence takes, with its trace entry.
+pub const BYTES_PER_STEP: usize = std::mem::size_of::<Step>() + std::mem::size_of::<u32>();
 
 /// Angles this close to zero are left out.
 const EPS: f64 = 1e-12;
@@ -101,11 +116,23 @@ pub fn compile_baseline(
 
 /// Like [`compile_baseline`], also returning for every step of the sequence the
 /// index of the circuit instruction it came from. The steps of one instruction are
-/// contiguous and in instruction order, so the sequence can be verified gate by gate.
+/// contiguous and in instruction order, so the sequence can be verified window by
+/// window.
 pub fn compile_baseline_traced(
     c: &Circuit,
     profile: &Profile,
     target: Target,
+) -> Result<(Sequence, Vec<u32>), CompileError> {
+    compile_baseline_bounded(c, profile, target, DEFAULT_MAX_STEPS)
+}
+
+/// [`compile_baseline_traced`] that stops with an error once the sequence has more
+/// than `max_steps` steps, or when memory for it runs out (growth is fallible).
+pub fn compile_baseline_bounded(
+    c: &Circuit,
+    profile: &Profile,
+    target: Target,
+    max_steps: usize,
 ) -> Result<(Sequence, Vec<u32>), CompileError> {
     let ions = profile.device.ions;
     if c.n_qubits() > ions {
@@ -136,7 +163,31 @@ pub fn compile_baseline_traced(
     } in canon
     {
         // Steps emitted so far came from the previous canonical operation.
-        origin.resize(e.seq.steps.len(), last_source);
+        let steps = e.seq.steps.len();
+        if steps > max_steps {
+            return Err(CompileError::TooManySteps {
+                limit: max_steps,
+                instruction: last_source as usize + 1,
+                bytes_per_step: BYTES_PER_STEP,
+            });
+        }
+        // Room for the largest block one operation makes, taken fallibly.
+        let headroom = 4096 + 8 * (ions as usize) * (ions as usize);
+        let oom = || CompileError::OutOfMemory {
+            steps,
+            instruction: last_source as usize + 1,
+        };
+        if e.seq.steps.capacity() - steps < headroom {
+            e.seq
+                .steps
+                .try_reserve(steps.max(headroom))
+                .map_err(|_| oom())?;
+        }
+        if origin.capacity() < e.seq.steps.capacity() {
+            let more = e.seq.steps.capacity() - origin.len();
+            origin.try_reserve_exact(more).map_err(|_| oom())?;
+        }
+        origin.resize(steps, last_source);
         last_source = source;
         e.condition = condition;
         match op {
@@ -176,6 +227,13 @@ pub fn compile_baseline_traced(
             Canon::Measure { q, clbit } => e.push(NativeOp::Measure { ion: q, clbit }),
             Canon::Reset { q } => e.push(NativeOp::Reset { ion: q }),
         }
+    }
+    if e.seq.steps.len() > max_steps {
+        return Err(CompileError::TooManySteps {
+            limit: max_steps,
+            instruction: last_source as usize + 1,
+            bytes_per_step: BYTES_PER_STEP,
+        });
     }
     origin.resize(e.seq.steps.len(), last_source);
     Ok((e.seq, origin))

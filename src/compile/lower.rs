@@ -51,6 +51,8 @@ pub struct CanonStep {
 pub enum LowerError {
     #[error("gate `{0}` is opaque: tutti does not know its unitary and cannot compile it")]
     Opaque(String),
+    #[error("out of memory lowering {instrs} instructions (about {bytes} bytes); lower --max-ops to be told sooner, or run where more memory is available")]
+    OutOfMemory { instrs: usize, bytes: usize },
 }
 
 fn g(kind: GateKind, params: &[f64]) -> Mat2 {
@@ -307,9 +309,21 @@ fn lower_gate(gate: &Gate, q: &[u32], out: &mut Out<'_>) {
 
 /// Lowers a whole circuit to the canonical form. Barriers vanish.
 pub fn lower(c: &Circuit) -> Result<Vec<CanonStep>, LowerError> {
-    let mut ops = Vec::with_capacity(c.instrs.len() * 3);
+    let mut ops = Vec::new();
+    let oom = |len: usize| LowerError::OutOfMemory {
+        instrs: c.instrs.len(),
+        bytes: len.saturating_mul(std::mem::size_of::<CanonStep>()),
+    };
+    ops.try_reserve(c.instrs.len().saturating_mul(3))
+        .map_err(|_| oom(c.instrs.len().saturating_mul(3)))?;
     for (source, instr) in c.instrs.iter().enumerate() {
         let source = source as u32;
+        // One instruction adds a few dozen steps at most (a controlled gate by
+        // Barenco et al.); grow fallibly before it could need to.
+        if ops.capacity() - ops.len() < 256 {
+            let more = ops.len().max(256);
+            ops.try_reserve(more).map_err(|_| oom(ops.len() + more))?;
+        }
         let mut out = Out {
             ops: &mut ops,
             condition: instr.condition,

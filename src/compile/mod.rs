@@ -5,4 +5,7 @@ pub mod baseline;
 pub mod hadamard;
 pub mod lower;
 
-pub use baseline::{compile_baseline, compile_baseline_traced, CompileError, Target};
+pub use baseline::{
+    compile_baseline, compile_baseline_bounded, compile_baseline_traced, CompileError, Target,
+    DEFAULT_MAX_STEPS,
+};

@@ -136,18 +136,35 @@ impl Diagnostic {
 
     /// Renders the diagnostic as plain text (no colour): a headline with
     /// `file:line:column`, the source line with a caret under the span, and the hint.
+    /// Builds the line index of the whole file: to render many, use
+    /// [`render_limited`], which builds it once.
     pub fn render(&self, sources: &SourceMap) -> String {
-        use ariadne::{CharSet, Config, Label, Report, ReportKind, Source};
-        let name = sources.name(self.span.file).to_string();
+        let mut caches = Vec::new();
+        self.render_cached(sources, &mut caches)
+    }
+
+    /// [`Diagnostic::render`] with the line indexes of the files kept in `caches`
+    /// (indexed by file), so that rendering costs the length of the lines shown.
+    fn render_cached<'s>(
+        &self,
+        sources: &'s SourceMap,
+        caches: &mut Vec<Option<(&'s str, ariadne::Source<&'s str>)>>,
+    ) -> String {
+        use ariadne::{CharSet, Config, IndexType, Label, Report, ReportKind, Source};
+        let file = self.span.file.0 as usize;
+        let file_name: &'s str = sources.name(self.span.file);
+        let name = file_name.to_string();
         let text = sources.text(self.span.file);
         let (line, col) = sources.line_col(self.span.file, self.span.start);
-        let to_char = |b: u32| {
-            text[..floor_char_boundary(text, b as usize)]
+        let start = floor_char_boundary(text, self.span.start as usize);
+        let mut end = floor_char_boundary(text, self.span.end as usize).max(start);
+        if end == start {
+            // Widen an empty span to the next character (if any) for the caret.
+            end = text[start..]
                 .chars()
-                .count()
-        };
-        let start = to_char(self.span.start);
-        let end = to_char(self.span.end).max(start + 1);
+                .next()
+                .map_or(start, |c| start + c.len_utf8());
+        }
         let kind = match self.severity {
             Severity::Error => ReportKind::Error,
             Severity::Warning => ReportKind::Warning,
@@ -157,20 +174,24 @@ impl Diagnostic {
         } else {
             self.label.as_str()
         };
-        let report = Report::build(kind, name.as_str(), start)
+        let report = Report::build(kind, file_name, start)
             .with_code(self.code)
             .with_message(format!("{name}:{line}:{col}: {}", self.message))
-            .with_label(Label::new((name.as_str(), start..end)).with_message(label_text))
+            .with_label(Label::new((file_name, start..end)).with_message(label_text))
             .with_help(&self.hint)
             .with_config(
                 Config::default()
                     .with_color(false)
-                    .with_char_set(CharSet::Ascii),
+                    .with_char_set(CharSet::Ascii)
+                    .with_index_type(IndexType::Byte),
             )
             .finish();
+        if caches.len() <= file {
+            caches.resize_with(file + 1, || None);
+        }
+        let cache = caches[file].get_or_insert_with(|| (file_name, Source::from(text)));
         let mut out = Vec::new();
-        let cache = (name.as_str(), Source::from(text));
-        if report.write(cache, &mut out).is_err() {
+        if report.write(&mut *cache, &mut out).is_err() {
             return format!(
                 "{name}:{line}:{col}: {}\n  hint: {}\n",
                 self.message, self.hint
@@ -186,11 +207,30 @@ impl fmt::Display for Diagnostic {
     }
 }
 
-/// Renders every diagnostic, errors and warnings in source order.
+/// Most diagnostics shown by default; the rest are counted.
+pub const DEFAULT_MAX_SHOWN: usize = 20;
+
+/// Renders the diagnostics in source order, at most [`DEFAULT_MAX_SHOWN`].
 pub fn render_all(diags: &[Diagnostic], sources: &SourceMap) -> String {
-    diags
-        .iter()
-        .map(|d| d.render(sources))
-        .collect::<Vec<_>>()
-        .join("")
+    render_limited(diags, sources, DEFAULT_MAX_SHOWN)
+}
+
+/// Renders the first `max_shown` diagnostics, then one line counting the errors
+/// and warnings not shown. Each file's line index is built once, so the cost is
+/// linear in the file plus the lines shown.
+pub fn render_limited(diags: &[Diagnostic], sources: &SourceMap, max_shown: usize) -> String {
+    let mut caches = Vec::new();
+    let mut out = String::new();
+    for d in diags.iter().take(max_shown) {
+        out.push_str(&d.render_cached(sources, &mut caches));
+    }
+    if diags.len() > max_shown {
+        let rest = &diags[max_shown..];
+        let errors = rest.iter().filter(|d| d.is_error()).count();
+        let warnings = rest.len() - errors;
+        out.push_str(&format!(
+            "... and {errors} more error(s) and {warnings} more warning(s) not shown (--max-errors sets how many are shown)\n"
+        ));
+    }
+    out
 }

@@ -39,6 +39,7 @@ pub fn read_file(path: &Path, limits: &Limits) -> ReadOutcome {
                 diagnostics: vec![d],
                 sources,
                 chunks_ahead: 0,
+                max_shown: limits.max_errors,
             };
         }
         _ => {}
@@ -62,6 +63,7 @@ pub fn read_file(path: &Path, limits: &Limits) -> ReadOutcome {
                 diagnostics: vec![d],
                 sources,
                 chunks_ahead: 0,
+                max_shown: limits.max_errors,
             }
         }
     }

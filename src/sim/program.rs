@@ -316,6 +316,20 @@ impl Program {
     }
 }
 
+/// About how many bytes the checker holds for a sequence of `steps` steps on
+/// `n_ions` ions while comparing it whole: the lowered items with their ion lists,
+/// their copy in segments and the fused copy (three in all).
+pub fn sequence_check_bytes(steps: usize, n_ions: usize) -> usize {
+    let per_item = std::mem::size_of::<Item>() + std::mem::size_of::<usize>() * n_ions;
+    steps.saturating_mul(per_item).saturating_mul(3)
+}
+
+/// The same for a circuit of `instrs` instructions.
+pub fn circuit_check_bytes(instrs: usize) -> usize {
+    let per_item = std::mem::size_of::<Item>() + 4 * std::mem::size_of::<usize>();
+    instrs.saturating_mul(per_item).saturating_mul(3)
+}
+
 /// A fault for each ion left hidden.
 pub fn still_hidden(hidden: &[bool]) -> impl Iterator<Item = String> + '_ {
     hidden

@@ -66,6 +66,8 @@ impl<'l> Elaborator<'l> {
             scope_changes: 0,
             ahead: true,
             chunks_ahead: 0,
+            repeats: Default::default(),
+            broken_gates: self.broken_gates.clone(),
         }
     }
 
@@ -147,7 +149,10 @@ impl<'l> Elaborator<'l> {
                 }
                 // A reader that panicked (a bug) only costs its chunk being reread.
                 let Ok(ahead) = handle.join() else { continue };
-                let fits = self.circuit.instrs.len() + ahead.instrs.len() <= self.limits.max_ops;
+                let fits = self.circuit.instrs.len() + ahead.instrs.len() <= self.limits.max_ops
+                    && self.circuit.instrs.try_reserve(ahead.instrs.len()).is_ok();
+                // A chunk that does not fit in memory is reread, where the one-thread
+                // reader reports the shortage with its location.
                 if ahead.valid && fits {
                     self.circuit.instrs.extend(ahead.instrs);
                     self.chunks_ahead += 1;

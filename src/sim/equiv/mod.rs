@@ -21,7 +21,7 @@ mod modes;
 mod prepass;
 mod windowed;
 
-pub use modes::{derived_tolerance, ROUNDING_PER_TOUCH, TOLERANCE_FLOOR};
+pub use modes::{derived_tolerance, random_tolerance, ROUNDING_PER_TOUCH, TOLERANCE_FLOOR};
 pub use windowed::{check_windows, sync_points_from_origin, SyncPoint, WindowVerdict};
 
 use crate::sim::program::{LowerError, Program};

@@ -58,7 +58,7 @@ fn arb_circuit() -> impl Strategy<Value = Circuit> {
                 let condition = (which == 3 && n_cregs > 0 && !matches!(op, Op::Barrier { .. }))
                     .then(|| Condition {
                         creg: cb % n_cregs,
-                        value: value % 2,
+                        value: (value % 2).into(),
                     });
                 Instr { op, condition }
             });

@@ -66,11 +66,98 @@ pub enum Op {
 }
 
 /// `if(creg == value)`: the condition of a classically controlled instruction.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[derive(Debug, Clone, PartialEq, Eq)]
 pub struct Condition {
     /// Index into `Circuit::cregs`.
     pub creg: u32,
-    pub value: u64,
+    pub value: RegValue,
+}
+
+/// The value of a classical register, as wide as the register (OpenQASM 2 compares a
+/// whole register with a non-negative integer; registers may be far wider than 64
+/// bits). Canonical: `Wide` only for values above `u64::MAX`, so equality of values
+/// is equality of the representations.
+#[derive(Debug, Clone, PartialEq, Eq, Hash)]
+pub enum RegValue {
+    Small(u64),
+    Wide(std::sync::Arc<num_bigint::BigUint>),
+}
+
+impl RegValue {
+    /// Reads a decimal number of any length (ASCII digits only).
+    pub fn parse_decimal(digits: &str) -> Option<RegValue> {
+        if digits.is_empty() || !digits.bytes().all(|b| b.is_ascii_digit()) {
+            return None;
+        }
+        if let Ok(v) = digits.parse::<u64>() {
+            return Some(RegValue::Small(v));
+        }
+        num_bigint::BigUint::parse_bytes(digits.as_bytes(), 10).map(RegValue::from)
+    }
+
+    /// The number of bits needed to write the value (0 for zero).
+    pub fn bits(&self) -> u64 {
+        match self {
+            RegValue::Small(v) => 64 - u64::from(v.leading_zeros()),
+            RegValue::Wide(b) => b.bits(),
+        }
+    }
+
+    /// Whether a register of `size` bits can hold the value.
+    pub fn fits(&self, size: u32) -> bool {
+        self.bits() <= u64::from(size)
+    }
+}
+
+impl From<u64> for RegValue {
+    fn from(v: u64) -> RegValue {
+        RegValue::Small(v)
+    }
+}
+
+impl From<num_bigint::BigUint> for RegValue {
+    fn from(b: num_bigint::BigUint) -> RegValue {
+        match u64::try_from(&b) {
+            Ok(v) => RegValue::Small(v),
+            Err(_) => RegValue::Wide(std::sync::Arc::new(b)),
+        }
+    }
+}
+
+impl fmt::Display for RegValue {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self {
+            RegValue::Small(v) => write!(f, "{v}"),
+            RegValue::Wide(b) => write!(f, "{b}"),
+        }
+    }
+}
+
+/// JSON: a number when it fits 64 bits, else a decimal string.
+impl serde::Serialize for RegValue {
+    fn serialize<S: serde::Serializer>(&self, s: S) -> Result<S::Ok, S::Error> {
+        match self {
+            RegValue::Small(v) => s.serialize_u64(*v),
+            RegValue::Wide(b) => s.serialize_str(&b.to_string()),
+        }
+    }
+}
+
+impl<'de> serde::Deserialize<'de> for RegValue {
+    fn deserialize<D: serde::Deserializer<'de>>(d: D) -> Result<RegValue, D::Error> {
+        #[derive(serde::Deserialize)]
+        #[serde(untagged)]
+        enum Either {
+            Number(u64),
+            Text(String),
+        }
+        match Either::deserialize(d)? {
+            Either::Number(v) => Ok(RegValue::Small(v)),
+            Either::Text(t) => RegValue::parse_decimal(&t).ok_or_else(|| {
+                serde::de::Error::custom(format!("`{t}` is not a non-negative whole number"))
+            }),
+        }
+    }
 }
 
 #[derive(Debug, Clone, PartialEq)]
@@ -195,7 +282,7 @@ impl Circuit {
                 s.measurements += 1;
                 clbits.push(clbit.0 as usize);
             }
-            if let Some(cond) = instr.condition {
+            if let Some(cond) = &instr.condition {
                 s.conditioned += 1;
                 let r = &self.cregs[cond.creg as usize];
                 clbits.extend((r.offset..r.offset + r.size).map(|b| b as usize));
@@ -272,7 +359,7 @@ impl fmt::Display for Circuit {
             writeln!(f, "creg {}[{}];", r.name, r.size)?;
         }
         for instr in &self.instrs {
-            if let Some(cond) = instr.condition {
+            if let Some(cond) = &instr.condition {
                 write!(
                     f,
                     "if({}=={}) ",

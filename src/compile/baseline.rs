@@ -82,7 +82,7 @@ impl Emit {
     fn push(&mut self, op: NativeOp) {
         self.seq.steps.push(Step {
             op,
-            condition: self.condition,
+            condition: self.condition.clone(),
         });
     }
 

@@ -39,7 +39,7 @@ pub enum Canon {
 }
 
 /// A canonical operation with the condition of the gate it came from.
-#[derive(Debug, Clone, Copy, PartialEq)]
+#[derive(Debug, Clone, PartialEq)]
 pub struct CanonStep {
     pub op: Canon,
     pub condition: Option<Condition>,
@@ -116,14 +116,14 @@ impl Out<'_> {
     fn local(&mut self, q: u32, m: Mat2) {
         self.ops.push(CanonStep {
             op: Canon::Local { q, m },
-            condition: self.condition,
+            condition: self.condition.clone(),
             source: self.source,
         });
     }
     fn zz(&mut self, a: u32, b: u32, theta: f64) {
         self.ops.push(CanonStep {
             op: Canon::Zz { a, b, theta },
-            condition: self.condition,
+            condition: self.condition.clone(),
             source: self.source,
         });
     }
@@ -326,7 +326,7 @@ pub fn lower(c: &Circuit) -> Result<Vec<CanonStep>, LowerError> {
         }
         let mut out = Out {
             ops: &mut ops,
-            condition: instr.condition,
+            condition: instr.condition.clone(),
             source,
         };
         match &instr.op {
@@ -343,12 +343,12 @@ pub fn lower(c: &Circuit) -> Result<Vec<CanonStep>, LowerError> {
                     q: qubit.0,
                     clbit: clbit.0,
                 },
-                condition: instr.condition,
+                condition: instr.condition.clone(),
                 source,
             }),
             Op::Reset { qubit } => ops.push(CanonStep {
                 op: Canon::Reset { q: qubit.0 },
-                condition: instr.condition,
+                condition: instr.condition.clone(),
                 source,
             }),
         }

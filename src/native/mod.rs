@@ -73,7 +73,7 @@ impl NativeOp {
 }
 
 /// A native operation with an optional classical condition.
-#[derive(Debug, Clone, Copy, PartialEq)]
+#[derive(Debug, Clone, PartialEq)]
 pub struct Step {
     pub op: NativeOp,
     pub condition: Option<Condition>,

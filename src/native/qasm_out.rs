@@ -105,7 +105,7 @@ pub fn write_qasm(seq: &Sequence) -> String {
     let mut hidden = vec![false; n as usize];
     let r = format_real;
     for step in &seq.steps {
-        if let Some(c) = step.condition {
+        if let Some(c) = &step.condition {
             let _ = write!(out, "if({}=={}) ", seq.cregs[c.creg as usize].name, c.value);
         }
         let visible: Vec<String> = (0..n)
@@ -244,14 +244,14 @@ pub fn read_qasm_sequence(text: &str) -> Option<Sequence> {
                 creg, value, op, ..
             } => {
                 let i = seq.cregs.iter().position(|r| r.name == creg.name)?;
-                if seq.cregs[i].size < 64 && value.0 >> seq.cregs[i].size != 0 {
+                if !value.0.fits(seq.cregs[i].size) {
                     return None;
                 }
                 (
                     &**op,
                     Some(Condition {
                         creg: i as u32,
-                        value: value.0,
+                        value: value.0.clone(),
                     }),
                 )
             }

@@ -189,12 +189,15 @@ fn parse_line(content: &str, seq: &mut Sequence, have_ions: &mut bool) -> Result
             format!("classical register `{reg}` is not declared"),
             "declare it with `creg name[size]` first",
         ))?;
-        let value: u64 = value.parse().map_err(|_| {
-            (
-                format!("`{value}` is not a register value"),
-                "use a whole number",
-            )
-        })?;
+        let value = crate::circuit::RegValue::parse_decimal(value)
+            .filter(|v| v.fits(seq.cregs[creg].size))
+            .ok_or((
+                format!(
+                    "`{value}` is not a value register `{reg}` of {} bits can hold",
+                    seq.cregs[creg].size
+                ),
+                "use a whole number below 2^size",
+            ))?;
         condition = Some(Condition {
             creg: creg as u32,
             value,
@@ -419,7 +422,8 @@ fn parse_line(content: &str, seq: &mut Sequence, have_ions: &mut bool) -> Result
 #[derive(serde::Serialize, serde::Deserialize)]
 struct JsonCondition {
     register: String,
-    value: u64,
+    /// A number, or a decimal string when it does not fit 64 bits.
+    value: crate::circuit::RegValue,
 }
 
 #[derive(serde::Serialize, serde::Deserialize)]
@@ -469,9 +473,9 @@ pub fn write_json(seq: &Sequence) -> String {
             .iter()
             .map(|s| JsonStep {
                 op: s.op,
-                condition: s.condition.map(|c| JsonCondition {
+                condition: s.condition.as_ref().map(|c| JsonCondition {
                     register: seq.cregs[c.creg as usize].name.clone(),
-                    value: c.value,
+                    value: c.value.clone(),
                 }),
             })
             .collect(),
@@ -554,6 +558,15 @@ pub fn read_json(name: &str, text: &str) -> SeqOutcome {
         let condition = match s.condition {
             None => None,
             Some(c) => match seq.cregs.iter().position(|r| r.name == c.register) {
+                Some(i) if !c.value.fits(seq.cregs[i].size) => return fail(
+                    sources,
+                    0,
+                    format!(
+                        "step {k} compares register `{}` of {} bits with {}, which it cannot hold",
+                        c.register, seq.cregs[i].size, c.value
+                    ),
+                    "use a value below 2^size",
+                ),
                 Some(i) => Some(Condition {
                     creg: i as u32,
                     value: c.value,

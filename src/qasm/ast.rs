@@ -178,7 +178,7 @@ pub enum Stmt<'a> {
     },
     If {
         creg: Ident<'a>,
-        value: (u64, Span),
+        value: (crate::circuit::RegValue, Span),
         op: Box<QOp<'a>>,
         span: Span,
     },

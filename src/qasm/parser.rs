@@ -371,6 +371,35 @@ impl<'a> Parser<'a> {
         self.integer_slow(what)
     }
 
+    /// The value an `if` compares a register with: a whole number of any width up to
+    /// that of the widest register (65,536 bits is 19,729 digits).
+    fn register_value(&mut self) -> PResult<(crate::circuit::RegValue, Span)> {
+        const MAX_DIGITS: usize = 20_000;
+        if self.peek() == Token::Int {
+            let (text, span) = (self.slice(), self.span());
+            if text.len() <= MAX_DIGITS {
+                if let Some(v) = crate::circuit::RegValue::parse_decimal(text) {
+                    self.bump();
+                    return Ok((v, span));
+                }
+            }
+            self.diags.push(
+                Diagnostic::error(
+                    "integer-too-large",
+                    span,
+                    format!("a register value of {} digits is too long", text.len()),
+                )
+                .hint(format!(
+                    "a register value has at most {MAX_DIGITS} digits (registers hold at most 65,536 bits)"
+                )),
+            );
+            self.bump();
+            return Err(());
+        }
+        self.integer("a register value")
+            .map(|(v, s)| (crate::circuit::RegValue::Small(v), s))
+    }
+
     /// Integers of 20 digits and more (which may overflow) and the error paths.
     #[cold]
     fn integer_slow(&mut self, what: &str) -> PResult<(u64, Span)> {
@@ -565,7 +594,7 @@ impl<'a> Parser<'a> {
                     return Err(());
                 }
                 self.bump();
-                let value = self.integer("a register value")?;
+                let value = self.register_value()?;
                 self.expect(Token::RParen, "close the condition with `)`")?;
                 if self.peek() == Token::If {
                     self.error_here(

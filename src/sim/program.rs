@@ -209,8 +209,11 @@ impl Program {
                     continue;
                 }
             };
-            items.push(match instr.condition {
-                Some(condition) => Item::Conditioned { condition, kernel },
+            items.push(match &instr.condition {
+                Some(condition) => Item::Conditioned {
+                    condition: condition.clone(),
+                    kernel,
+                },
                 None => Item::Unitary(kernel),
             });
         }
@@ -295,8 +298,11 @@ impl Program {
                     continue;
                 }
             };
-            items.push(match step.condition {
-                Some(condition) => Item::Conditioned { condition, kernel },
+            items.push(match &step.condition {
+                Some(condition) => Item::Conditioned {
+                    condition: condition.clone(),
+                    kernel,
+                },
                 None => Item::Unitary(kernel),
             });
         }

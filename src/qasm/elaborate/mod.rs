@@ -427,7 +427,12 @@ impl<'l> Elaborator<'l> {
             } => {
                 let Some(index) = self.creg(creg) else { return };
                 let size = self.circuit.cregs[index].size;
-                if size < 64 && value.0 >= 1u64 << size {
+                if !value.0.fits(size) {
+                    let below = if size < 64 {
+                        format!("below {}", 1u64 << size)
+                    } else {
+                        format!("below 2^{size}")
+                    };
                     self.diags.push(
                         Diagnostic::error(
                             "condition-out-of-range",
@@ -437,7 +442,7 @@ impl<'l> Elaborator<'l> {
                                 creg.name, value.0
                             ),
                         )
-                        .hint(format!("the value must be below {}", 1u64 << size)),
+                        .hint(format!("the value must be {below}")),
                     );
                     return;
                 }
@@ -445,7 +450,7 @@ impl<'l> Elaborator<'l> {
                     op,
                     Some(Condition {
                         creg: index as u32,
-                        value: value.0,
+                        value: value.0.clone(),
                     }),
                 );
             }
@@ -1038,7 +1043,7 @@ impl<'l> Elaborator<'l> {
                 for k in 0..n as u32 {
                     let qubit = Qubit(q.at(k));
                     let clbit = Clbit(c.at(k));
-                    if !self.emit(Op::Measure { qubit, clbit }, cond, *span) {
+                    if !self.emit(Op::Measure { qubit, clbit }, cond.clone(), *span) {
                         return;
                     }
                 }
@@ -1052,7 +1057,7 @@ impl<'l> Elaborator<'l> {
                         Op::Reset {
                             qubit: Qubit(q.start + k),
                         },
-                        cond,
+                        cond.clone(),
                         *span,
                     ) {
                         return;
@@ -1124,7 +1129,7 @@ impl<'l> Elaborator<'l> {
                 self.repeated_qubit(qubits[i], call.span);
                 return;
             }
-            if !self.expand(&g, &params, &qubits, cond, call.span) {
+            if !self.expand(&g, &params, &qubits, cond.clone(), call.span) {
                 return;
             }
         }
@@ -1186,7 +1191,7 @@ impl<'l> Elaborator<'l> {
                             let mut qs: Qubits = args.iter().map(bind).collect();
                             qs.sort();
                             qs.dedup();
-                            if !self.emit(Op::Barrier { qubits: qs }, cond, at) {
+                            if !self.emit(Op::Barrier { qubits: qs }, cond.clone(), at) {
                                 return false;
                             }
                         }
@@ -1217,7 +1222,7 @@ impl<'l> Elaborator<'l> {
                                 values.push(v);
                             }
                             let inner: Qubits = args.iter().map(bind).collect();
-                            if !self.expand(gate, &values, &inner, cond, at) {
+                            if !self.expand(gate, &values, &inner, cond.clone(), at) {
                                 return false;
                             }
                         }

@@ -49,7 +49,7 @@ pub(super) fn segments(p: &Program) -> Vec<Seg> {
                 }
                 open_unitary(&mut out);
                 out.push(Seg::Conditioned {
-                    condition: *condition,
+                    condition: condition.clone(),
                     body: vec![kernel.clone()],
                 });
             }

@@ -558,15 +558,17 @@ pub fn read_json(name: &str, text: &str) -> SeqOutcome {
         let condition = match s.condition {
             None => None,
             Some(c) => match seq.cregs.iter().position(|r| r.name == c.register) {
-                Some(i) if !c.value.fits(seq.cregs[i].size) => return fail(
-                    sources,
-                    0,
-                    format!(
+                Some(i) if !c.value.fits(seq.cregs[i].size) => {
+                    return fail(
+                        sources,
+                        0,
+                        format!(
                         "step {k} compares register `{}` of {} bits with {}, which it cannot hold",
                         c.register, seq.cregs[i].size, c.value
                     ),
-                    "use a value below 2^size",
-                ),
+                        "use a value below 2^size",
+                    )
+                }
                 Some(i) => Some(Condition {
                     creg: i as u32,
                     value: c.value,

@@ -1,12 +1,12 @@
 //! Equivalence of two programs up to a global phase.
 //!
 //! Programs are cut into segments at measurements, resets and conditioned
-//! operations ([`cuts`]); the cuts must match exactly (qubit, bit and condition),
-//! except that a final run of measurements may come in another order. Each pair of
-//! unitary segments goes through exact pre-passes ([`prepass`]) and is compared by
-//! a distance against a tolerance in one of three modes ([`modes`]): stabilizer
-//! tableaux, full unitaries, or random states. Long sequences can also be verified
-//! window by window ([`windowed`]).
+//! operations (module `cuts`); the cuts must match exactly (qubit, bit and
+//! condition), except that a final run of measurements may come in another order.
+//! Each pair of unitary segments goes through exact pre-passes (module `prepass`)
+//! and is compared by a distance against a tolerance in one of three modes (module
+//! `modes`): stabilizer tableaux, full unitaries, or random states. Long sequences
+//! can also be verified window by window ([`check_windows`]).
 //!
 //! A program with fewer qubits is padded with idle qubits, so extra ions of a device
 //! must be left as they were. docs/checker.md states what each mode can and cannot
@@ -106,7 +106,7 @@ pub struct Verdict {
     /// The mode used; with several segments, the most expensive one used.
     pub mode: Mode,
     /// The distance of the segment pair closest to failing (largest distance over
-    /// tolerance), in the units of its mode (module [`modes`]). `None` when the
+    /// tolerance), in the units of its mode (docs/checker.md). `None` when the
     /// programs differ in a way no distance measures: cuts or wiring, tableaux,
     /// faults of a sequence.
     pub distance: Option<f64>,

@@ -188,3 +188,100 @@ fn every_output_format_reads_back_to_a_sequence_equal_to_the_circuit() {
         .collect();
     assert!(failures.is_empty(), "{}", failures.join("\n"));
 }
+
+// Bug: gate-by-gate verification started every block with every ion visible, so a
+// block that left an ion hidden was not seen. Windows now carry the hidden ions.
+#[test]
+fn windowed_verification_sees_an_ion_left_hidden_between_windows() {
+    use tutti::compile::compile_baseline_traced;
+    use tutti::native::NativeOp;
+    use tutti::sim::{check_windows, sync_points_from_origin};
+    let circuit = common::read_ok("circuits/ghz_5.qasm".as_ref());
+    // A device that entangles by hiding the other ions around a global MS pulse.
+    let mut profile = Profile::demo().with_ions(8);
+    profile.capabilities.pair_ms = false;
+    profile.capabilities.hiding = true;
+    let (seq, origin) = compile_baseline_traced(&circuit, &profile, Target::Addressed).unwrap();
+    let sync = sync_points_from_origin(&origin, circuit.instrs.len()).unwrap();
+    let cfg = CheckConfig::default();
+    assert!(
+        check_windows(&circuit, &seq, &sync, &cfg)
+            .unwrap()
+            .equivalent
+    );
+    let unhides: Vec<usize> = (0..seq.steps.len())
+        .filter(|&k| matches!(seq.steps[k].op, NativeOp::Unhide { .. }))
+        .collect();
+    assert!(unhides.len() > 8, "the compile hides ions");
+    // An unhide whose ion takes part in the next MS pulse (no hide of it before),
+    // so leaving it hidden changes a later window; and the last unhide of all, so
+    // the ion stays hidden to the end.
+    let feeds_next_pulse = |k: usize| {
+        let NativeOp::Unhide { ion } = seq.steps[k].op else {
+            return false;
+        };
+        for step in &seq.steps[k + 1..] {
+            match step.op {
+                NativeOp::Hide { ion: h } if h == ion => return false,
+                NativeOp::Ms { .. } => return true,
+                _ => {}
+            }
+        }
+        false
+    };
+    let mid = *unhides
+        .iter()
+        .find(|&&k| feeds_next_pulse(k))
+        .expect("an ion unhidden before a pulse it takes part in");
+    for (k, expect) in [(mid, "differ"), (*unhides.last().unwrap(), "still hidden")] {
+        let mut bad = seq.clone();
+        bad.steps.remove(k);
+        let mut origin = origin.clone();
+        origin.remove(k);
+        let sync = sync_points_from_origin(&origin, circuit.instrs.len()).unwrap();
+        let v = check_windows(&circuit, &bad, &sync, &cfg).unwrap();
+        assert!(
+            !v.equivalent && v.detail.contains(expect),
+            "step {k}: {v:?}"
+        );
+    }
+}
+
+// Windows may span several instructions (as an optimizer that merges pulses across
+// gates will need): sync points every few instructions prove the same, and a
+// corrupted pulse is still found, in the window that holds it.
+#[test]
+fn windows_spanning_several_instructions_verify_and_locate_a_fault() {
+    use tutti::compile::compile_baseline_traced;
+    use tutti::native::NativeOp;
+    use tutti::sim::{check_windows, sync_points_from_origin};
+    let circuit = common::read_ok("circuits/qft_8.qasm".as_ref());
+    let (seq, origin) =
+        compile_baseline_traced(&circuit, &Profile::demo(), Target::Collective).unwrap();
+    let every = sync_points_from_origin(&origin, circuit.instrs.len()).unwrap();
+    let coarse: Vec<_> = every
+        .iter()
+        .enumerate()
+        .filter(|(i, _)| i % 7 == 6 || *i + 1 == every.len())
+        .map(|(_, s)| *s)
+        .collect();
+    assert!(coarse.len() < every.len() / 5);
+    let cfg = CheckConfig::default();
+    let v = check_windows(&circuit, &seq, &coarse, &cfg).unwrap();
+    assert!(v.equivalent && v.windows == coarse.len(), "{v:?}");
+    let mut bad = seq.clone();
+    let k = (0..bad.steps.len())
+        .rev()
+        .find(|&k| matches!(bad.steps[k].op, NativeOp::Ms { .. }))
+        .unwrap();
+    if let NativeOp::Ms { theta, .. } = &mut bad.steps[k].op {
+        *theta *= 1.0 + 1e-9;
+    }
+    let v = check_windows(&circuit, &bad, &coarse, &cfg).unwrap();
+    assert!(!v.equivalent, "{v:?}");
+    assert!(v.detail.contains("instructions"), "{}", v.detail);
+    // Sync points out of order are refused.
+    let mut shuffled = coarse.clone();
+    shuffled.swap(0, 1);
+    assert!(check_windows(&circuit, &seq, &shuffled, &cfg).is_err());
+}

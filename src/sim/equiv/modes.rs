@@ -113,6 +113,16 @@ pub(super) fn compare(
         prepared.n,
         prepared.slack,
     );
+    let stray_reason = |distance: f64| {
+        prepared
+            .stray
+            .filter(|_| distance > tolerance)
+            .map(|(qubit, weight)| {
+                format!(
+                    "qubit {qubit} is coupled by one program only (stray coupling of total weight {weight:.3e}); distance {distance:.3e} is above the tolerance {tolerance:.3e}"
+                )
+            })
+    };
     let want_tableau = matches!(cfg.mode, Mode::Auto | Mode::Tableau) && diagonal.is_none();
     if want_tableau {
         match (tableau_of(p, n), tableau_of(q, n)) {
@@ -219,7 +229,7 @@ pub(super) fn compare(
             tolerance,
             fidelity: tr.norm_sqr(),
             phase: diagonal.is_none().then(|| tr.arg()),
-            reason: None,
+            reason: stray_reason(distance),
         });
     }
     let tolerance = cfg
@@ -264,7 +274,7 @@ pub(super) fn compare(
         tolerance,
         fidelity,
         phase: diagonal.is_none().then_some(phase).flatten(),
-        reason: None,
+        reason: stray_reason(distance),
     })
 }
 

@@ -14,6 +14,11 @@ use num_complex::Complex64 as C64;
 
 /// Couplings smaller than this are dropped (their total weight goes into the slack).
 const ZERO_COUPLING: f64 = 1e-12;
+/// A qubit coupled by one program only, by Ising terms of at most this total weight,
+/// has those terms dropped into the slack: a tiny stray coupling (an echo that does
+/// not quite cancel) then shows as a distance on the circuit's own qubits instead
+/// of making every ion of the device part of the comparison.
+const STRAY_COUPLING: f64 = 1e-6;
 
 /// Two segments ready to compare on `n` qubits.
 pub(super) struct Prepared {
@@ -22,6 +27,8 @@ pub(super) struct Prepared {
     pub n: usize,
     /// Operator-norm bound on what the rewrites changed.
     pub slack: f64,
+    /// The qubit with the most stray coupling dropped, and that coupling's weight.
+    pub stray: Option<(usize, f64)>,
 }
 
 /// A qubit that no interaction touches, but whose own operations differ.
@@ -64,7 +71,9 @@ pub(super) fn prepare(
     let (fq, sq) = fuse_xx_runs(q);
     let (fp, dp) = drop_zero_couplings(fp);
     let (fq, dq) = drop_zero_couplings(fq);
-    let slack = sp + sq + dp + dq;
+    let (fp, fq, stray) = drop_stray_couplings(fp, fq, n);
+    let slack = sp + sq + dp + dq + stray.map_or(0.0, |s| s.2);
+    let stray = stray.map(|s| (s.0, s.1));
     let (p, q, n) = if keep_all {
         (fp, fq, n)
     } else {
@@ -74,7 +83,104 @@ pub(super) fn prepare(
         merge_single_qubit_runs(&p, n),
         merge_single_qubit_runs(&q, n),
     );
-    Ok(Prepared { p, q, n, slack })
+    Ok(Prepared {
+        p,
+        q,
+        n,
+        slack,
+        stray,
+    })
+}
+
+/// The qubit with the most stray coupling, its weight, and the total dropped.
+type Stray = (usize, f64, f64);
+
+/// Drops the Ising terms on qubits that only one program couples, when every
+/// multi-qubit kernel touching such a qubit is an Ising kernel and its terms there
+/// weigh at most [`STRAY_COUPLING`] together. Returns the programs, and the qubit with
+/// the most dropped weight, that weight, and the total dropped (an operator-norm
+/// bound on the change).
+fn drop_stray_couplings(
+    p: Vec<Kernel>,
+    q: Vec<Kernel>,
+    n: usize,
+) -> (Vec<Kernel>, Vec<Kernel>, Option<Stray>) {
+    // Per qubit: coupled at all, coupled by a non-Ising kernel, Ising weight.
+    let survey = |ks: &[Kernel]| {
+        let mut coupled = vec![false; n];
+        let mut other = vec![false; n];
+        let mut weight = vec![0.0f64; n];
+        for k in ks.iter().filter(|k| is_multi(k)) {
+            match k {
+                Kernel::Ising { terms, .. } => {
+                    for &(a, b, w) in terms {
+                        for x in [a, b] {
+                            coupled[x] = true;
+                            weight[x] += w.abs();
+                        }
+                    }
+                }
+                _ => {
+                    for x in k.qubits() {
+                        coupled[x] = true;
+                        other[x] = true;
+                    }
+                }
+            }
+        }
+        (coupled, other, weight)
+    };
+    let (cp, op, wp) = survey(&p);
+    let (cq, oq, wq) = survey(&q);
+    let stray_in =
+        |coupled: &[bool], other: &[bool], weight: &[f64], coupled_elsewhere: &[bool]| {
+            (0..n)
+                .map(|x| {
+                    coupled[x] && !coupled_elsewhere[x] && !other[x] && weight[x] <= STRAY_COUPLING
+                })
+                .collect::<Vec<bool>>()
+        };
+    let (sp, sq) = (stray_in(&cp, &op, &wp, &cq), stray_in(&cq, &oq, &wq, &cp));
+    if !sp.iter().chain(&sq).any(|&s| s) {
+        return (p, q, None);
+    }
+    let mut worst: Option<(usize, f64)> = None;
+    for x in 0..n {
+        let w = if sp[x] {
+            wp[x]
+        } else if sq[x] {
+            wq[x]
+        } else {
+            0.0
+        };
+        if w > 0.0 && worst.map_or(true, |(_, v)| w > v) {
+            worst = Some((x, w));
+        }
+    }
+    let mut total = 0.0;
+    let mut strip = |ks: Vec<Kernel>, stray: &[bool]| -> Vec<Kernel> {
+        ks.into_iter()
+            .filter_map(|k| match k {
+                Kernel::Ising { axis, terms } => {
+                    let terms: Vec<_> = terms
+                        .into_iter()
+                        .filter(|&(a, b, w)| {
+                            let drop = stray[a] || stray[b];
+                            if drop {
+                                total += w.abs();
+                            }
+                            !drop
+                        })
+                        .collect();
+                    (!terms.is_empty()).then_some(Kernel::Ising { axis, terms })
+                }
+                other => Some(other),
+            })
+            .collect()
+    };
+    let p = strip(p, &sp);
+    let q = strip(q, &sq);
+    (p, q, worst.map(|(x, w)| (x, w, total)))
 }
 
 /// Removes couplings that cancelled to (nearly) zero, such as an echo's non-target

@@ -64,7 +64,7 @@ pub enum CompileError {
 }
 
 /// Most steps a compile may produce unless told otherwise (`--max-pulses`): about
-/// 640 MB of sequence and trace.
+/// 440 MB of sequence and trace (44 bytes a step).
 pub const DEFAULT_MAX_STEPS: usize = 10_000_000;
 
 /// Bytes one step of a compiled sequence takes, with its trace entry.
@@ -82,7 +82,7 @@ impl Emit {
     fn push(&mut self, op: NativeOp) {
         self.seq.steps.push(Step {
             op,
-            condition: self.condition.clone(),
+            condition: self.condition.clone().map(Box::new),
         });
     }
 

@@ -342,7 +342,7 @@ pub fn read_qasm_sequence(text: &str) -> Option<Sequence> {
         };
         seq.steps.push(Step {
             op: native,
-            condition,
+            condition: condition.map(Box::new),
         });
     }
     Some(seq)

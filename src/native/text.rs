@@ -415,7 +415,10 @@ fn parse_line(content: &str, seq: &mut Sequence, have_ions: &mut bool) -> Result
             "pulses are rotate, shift, ms, pair-ms, addressed, frame, hide, unhide, measure, reset",
         )),
     };
-    seq.steps.push(Step { op, condition });
+    seq.steps.push(Step {
+        op,
+        condition: condition.map(Box::new),
+    });
     Ok(())
 }
 
@@ -585,7 +588,7 @@ pub fn read_json(name: &str, text: &str) -> SeqOutcome {
         };
         seq.steps.push(Step {
             op: s.op,
-            condition,
+            condition: condition.map(Box::new),
         });
     }
     SeqOutcome {

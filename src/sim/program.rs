@@ -300,7 +300,7 @@ impl Program {
             };
             items.push(match &step.condition {
                 Some(condition) => Item::Conditioned {
-                    condition: condition.clone(),
+                    condition: (**condition).clone(),
                     kernel,
                 },
                 None => Item::Unitary(kernel),

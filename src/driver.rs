@@ -37,6 +37,42 @@ impl Format {
         }
     }
 
+    /// The format an extension names: `.pulses`, `.json`, `.qasm`.
+    pub fn from_extension(path: &Path) -> Option<Format> {
+        match path.extension().and_then(|e| e.to_str()) {
+            Some("json") => Some(Format::Json),
+            Some("pulses") => Some(Format::Pulses),
+            Some("qasm") => Some(Format::Qasm),
+            _ => None,
+        }
+    }
+
+    /// The format to write: the one asked for, else the one the output's extension
+    /// names, else the pulse list. Asking for one format while the extension names
+    /// another is an error.
+    pub fn for_output(asked: Option<Format>, output: Option<&Path>) -> Result<Format, String> {
+        let named = output.and_then(Format::from_extension);
+        match (asked, named) {
+            (Some(a), Some(n)) if a != n => Err(format!(
+                "error: --format {} contradicts the extension of {}; drop --format or change the extension\n",
+                a.name(),
+                output.map(|p| p.display().to_string()).unwrap_or_default()
+            )),
+            (Some(a), _) => Ok(a),
+            (None, Some(n)) => Ok(n),
+            (None, None) => Ok(Format::Pulses),
+        }
+    }
+
+    /// The name `--format` takes.
+    pub fn name(self) -> &'static str {
+        match self {
+            Format::Qasm => "qasm",
+            Format::Pulses => "pulses",
+            Format::Json => "json",
+        }
+    }
+
     /// Guesses the format of a file from its extension, then its first words.
     pub fn sniff(path: &Path, text: &str) -> Format {
         match path.extension().and_then(|e| e.to_str()) {
@@ -439,6 +475,18 @@ fn write_through(path: &Path, text: &str, kind: &std::fs::FileType) -> Result<()
         .open(path)
         .and_then(|mut f| f.write_all(text.as_bytes()))
         .map_err(|e| format!("error: cannot write {}: {e}\n", path.display()))
+}
+
+/// The budget of a sequence as it is written (a hand-built or compiled one), on
+/// `profile`. The sequence may use fewer ions than the device has, never more.
+pub fn budget_sequence(seq: &Sequence, profile: &Profile) -> Result<Budget, String> {
+    if seq.n_ions > profile.device.ions {
+        return Err(format!(
+            "error: the sequence is for {} ions, but the device `{}` has {}\n",
+            seq.n_ions, profile.device.name, profile.device.ions
+        ));
+    }
+    Ok(budget(seq, profile, seq.addressed_ion_count()))
 }
 
 /// Reads a device profile: `demo` is the embedded one, anything else a TOML file.

@@ -7,7 +7,7 @@ use std::path::{Path, PathBuf};
 use std::process::ExitCode;
 use tutti::compile::Target;
 use tutti::driver::{self, CompileConfig, Format};
-use tutti::qasm::{self, Limits};
+use tutti::qasm::Limits;
 use tutti::sim::{CheckConfig, Mode};
 
 #[derive(Parser)]
@@ -114,8 +114,11 @@ enum Command {
         device: String,
         #[arg(long, value_enum, default_value_t = Target::Collective)]
         target: Target,
-        #[arg(long, value_enum, default_value_t = Format::Pulses)]
-        format: Format,
+        /// Output format; by default the one `-o`'s extension names (.pulses, .json,
+        /// .qasm), else the pulse list. A format that contradicts the extension is an
+        /// error.
+        #[arg(long, value_enum)]
+        format: Option<Format>,
         /// Compile every two-qubit gate on its own (the reference compiler).
         #[arg(long)]
         baseline: bool,
@@ -217,37 +220,32 @@ impl From<String> for Failure {
     }
 }
 
-/// Reads a circuit, printing warnings to stderr; errors come back rendered.
-fn read(path: &Path, limits: &Limits) -> Result<tutti::circuit::Circuit, String> {
-    let outcome = qasm::read_file(path, limits);
-    let rendered = outcome.render();
-    match outcome.circuit {
-        Some(c) => {
-            eprint!("{rendered}");
-            Ok(c)
-        }
-        None => {
-            let n = outcome.errors().count();
-            Err(format!("{rendered}{n} error(s) in {}\n", path.display()))
-        }
-    }
-}
-
 fn run(cli: Cli) -> Result<ExitCode, Failure> {
     match cli.command {
         Command::Inspect { file, json, limits } => {
-            let circuit = read(&file, &limits.limits())?;
-            let summary = circuit.summary();
+            let (loaded, warnings) = driver::load(&file, &limits.limits())?;
+            eprint!("{warnings}");
+            let name = file.display().to_string();
+            let (text, value) = match loaded {
+                driver::Loaded::Circuit(c) => {
+                    let summary = c.summary();
+                    let text = tutti::report::inspect_table(&name, &summary);
+                    (text, serde_json::to_value(&summary))
+                }
+                driver::Loaded::Sequence(seq) => {
+                    let summary = seq.summary();
+                    let text = tutti::report::sequence_table(&name, &summary);
+                    (text, serde_json::to_value(&summary))
+                }
+            };
             if json {
+                let value = value.map_err(|e| e.to_string())?;
                 println!(
                     "{}",
-                    serde_json::to_string_pretty(&summary).map_err(|e| e.to_string())?
+                    serde_json::to_string_pretty(&value).map_err(|e| e.to_string())?
                 );
             } else {
-                print!(
-                    "{}",
-                    tutti::report::inspect_table(&file.display().to_string(), &summary)
-                );
+                print!("{text}");
             }
             Ok(ExitCode::SUCCESS)
         }
@@ -266,6 +264,7 @@ fn run(cli: Cli) -> Result<ExitCode, Failure> {
             let limits = limits.limits();
             let (_, compiled) =
                 compile_one(&file, &device, target, !no_verify, max_pulses, &limits)?;
+            let format = driver::Format::for_output(format, output.as_deref())?;
             let text = format.render(&compiled.sequence);
             match &output {
                 Some(path) => driver::write_output(path, &text, &file, force)?,
@@ -297,20 +296,28 @@ fn run(cli: Cli) -> Result<ExitCode, Failure> {
             limits,
         } => {
             let limits = limits.limits();
-            let (_, compiled) = compile_one(&file, &device, target, false, max_pulses, &limits)?;
-            let compiler = compiler_name(baseline);
+            let (budget, how) = match driver::load(&file, &limits)? {
+                (driver::Loaded::Sequence(seq), warnings) => {
+                    eprint!("{warnings}");
+                    let profile = driver::load_profile(&device)?;
+                    let budget = driver::budget_sequence(&seq, &profile)?;
+                    (budget, "the sequence as written".to_string())
+                }
+                (driver::Loaded::Circuit(_), _) => {
+                    let (_, compiled) =
+                        compile_one(&file, &device, target, false, max_pulses, &limits)?;
+                    let how = format!("{} target, {}", target.name(), compiler_name(baseline));
+                    (compiled.budget, how)
+                }
+            };
             if json {
                 println!(
                     "{}",
-                    serde_json::to_string_pretty(&compiled.budget).map_err(|e| e.to_string())?
+                    serde_json::to_string_pretty(&budget).map_err(|e| e.to_string())?
                 );
             } else {
-                println!(
-                    "{} on {device} ({} target, {compiler})",
-                    file.display(),
-                    target.name()
-                );
-                print!("{}", tutti::report::budget_table(&compiled.budget));
+                println!("{} on {device} ({how})", file.display());
+                print!("{}", tutti::report::budget_table(&budget));
             }
             Ok(ExitCode::SUCCESS)
         }
@@ -385,9 +392,20 @@ fn compile_one(
 ) -> Result<(tutti::circuit::Circuit, driver::Compiled), Failure> {
     let progress = Progress::start(file);
     progress.stage("reading");
-    // Warnings are printed while reading: the spinner steps aside meanwhile.
-    let circuit = progress.0.suspend(|| read(file, limits));
-    let circuit = circuit.map_err(|e| progress.cleared(e))?;
+    let circuit = match driver::load(file, limits).map_err(|e| progress.cleared(e))? {
+        (driver::Loaded::Circuit(c), warnings) => {
+            progress.0.suspend(|| eprint!("{warnings}"));
+            c
+        }
+        (driver::Loaded::Sequence(_), _) => {
+            progress.clear();
+            return Err(format!(
+                "error: {} is a pulse sequence already; compile takes an OpenQASM 2 circuit (budget, inspect and check take sequences too)\n",
+                file.display()
+            )
+            .into());
+        }
+    };
     let profile = driver::load_profile(device).map_err(|e| progress.cleared(e))?;
     let cfg = CompileConfig {
         target,

@@ -352,3 +352,148 @@ fn check_exits_1_for_swapped_measurement_bits_in_every_mode() {
         assert_eq!(code, 0, "{mode}");
     }
 }
+
+#[test]
+fn the_output_format_follows_the_extension_unless_told_and_never_contradicts_it() {
+    let json = scratch("by_extension.json");
+    let (code, _, err) = tutti(&[
+        "compile",
+        "circuits/ghz_5.qasm",
+        "-o",
+        json.to_str().unwrap(),
+        "--force",
+    ]);
+    assert_eq!(code, 0, "{err}");
+    let text = std::fs::read_to_string(&json).unwrap();
+    assert!(
+        serde_json::from_str::<serde_json::Value>(&text).is_ok(),
+        "-o x.json writes JSON"
+    );
+    let qasm = scratch("by_extension.qasm");
+    let (code, _, _) = tutti(&[
+        "compile",
+        "circuits/ghz_5.qasm",
+        "-o",
+        qasm.to_str().unwrap(),
+        "--force",
+    ]);
+    assert_eq!(code, 0);
+    assert!(std::fs::read_to_string(&qasm)
+        .unwrap()
+        .contains("OPENQASM 2.0;"));
+    let (code, _, err) = tutti(&[
+        "compile",
+        "circuits/ghz_5.qasm",
+        "-o",
+        json.to_str().unwrap(),
+        "--force",
+        "--format",
+        "pulses",
+    ]);
+    assert_eq!(code, 2);
+    assert!(err.contains("contradicts"), "{err}");
+    // An unknown extension takes the pulse list, or what --format says.
+    let other = scratch("by_extension.txt");
+    let (code, _, _) = tutti(&[
+        "compile",
+        "circuits/ghz_5.qasm",
+        "-o",
+        other.to_str().unwrap(),
+        "--force",
+    ]);
+    assert_eq!(code, 0);
+    assert!(std::fs::read_to_string(&other).unwrap().contains("ions 40"));
+}
+
+#[test]
+fn budget_and_inspect_describe_a_sequence_as_written() {
+    // A hand-written two-pulse list (example numbers): a fully entangling MS pulse
+    // on 3 ions, an echo of it, and light shifts around.
+    let list = scratch("two_pulses.pulses");
+    std::fs::write(
+        &list,
+        "ions 3\ncreg c[2]\nshift 0 pi/2\nms pi/2 0\nshift 1 pi\nms pi/2 0\nshift 1 -pi\nmeasure 0 -> c[0]\n",
+    )
+    .unwrap();
+    let path = list.to_str().unwrap();
+    let (code, out, err) = tutti(&["budget", path, "--json"]);
+    assert_eq!(code, 0, "{err}");
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    assert_eq!(v["ms_pulses"], 2);
+    assert_eq!(v["light_shifts"], 3);
+    assert_eq!(v["ms_area"], 2.0);
+    let (code, out, _) = tutti(&["inspect", path, "--json"]);
+    assert_eq!(code, 0);
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    assert_eq!(v["ions"], 3);
+    assert_eq!(v["steps"], 6);
+    assert_eq!(v["entangling_pulses"], 2);
+    assert_eq!(v["by_op"]["shift"], 3);
+    // tutti's own QASM output is a sequence too: its budget is the compile's count.
+    let qasm = scratch("ghz_out.qasm");
+    let (code, _, compile_err) = tutti(&[
+        "compile",
+        "circuits/ghz_5.qasm",
+        "-o",
+        qasm.to_str().unwrap(),
+        "--force",
+    ]);
+    assert_eq!(code, 0);
+    let (code, out, _) = tutti(&["budget", qasm.to_str().unwrap(), "--json"]);
+    assert_eq!(code, 0);
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    let compiled_ms = compile_err
+        .lines()
+        .find(|l| l.trim_start().starts_with("ms_pulses"))
+        .and_then(|l| l.split_whitespace().nth(1))
+        .unwrap()
+        .to_string();
+    assert_eq!(v["ms_pulses"].to_string(), compiled_ms);
+    // compile refuses a sequence, saying what it is.
+    let (code, _, err) = tutti(&["compile", path]);
+    assert_eq!(code, 2);
+    assert!(err.contains("pulse sequence already"), "{err}");
+}
+
+#[test]
+fn check_says_which_side_was_padded_with_idle_qubits() {
+    let small = scratch("one_qubit.qasm");
+    let big = scratch("three_qubits.qasm");
+    std::fs::write(
+        &small,
+        "OPENQASM 2.0;\ninclude \"qelib1.inc\";\nqreg q[1];\nh q[0];\n",
+    )
+    .unwrap();
+    std::fs::write(
+        &big,
+        "OPENQASM 2.0;\ninclude \"qelib1.inc\";\nqreg q[3];\nh q[0];\n",
+    )
+    .unwrap();
+    let (code, out, _) = tutti(&[
+        "check",
+        small.to_str().unwrap(),
+        big.to_str().unwrap(),
+        "--json",
+    ]);
+    assert_eq!(code, 0);
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    assert_eq!(v["qubits_a"], 1);
+    assert_eq!(v["qubits_b"], 3);
+    assert!(
+        v["padding"].as_str().unwrap().contains("2 idle qubit(s)"),
+        "{v}"
+    );
+    let (_, out, _) = tutti(&["check", small.to_str().unwrap(), big.to_str().unwrap()]);
+    assert!(
+        out.contains("1 and 3") && out.contains("2 idle qubit(s) were added"),
+        "{out}"
+    );
+    let (_, out, _) = tutti(&[
+        "check",
+        big.to_str().unwrap(),
+        big.to_str().unwrap(),
+        "--json",
+    ]);
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    assert!(v["padding"].is_null());
+}

@@ -66,6 +66,37 @@ pub enum NativeOp {
 }
 
 impl NativeOp {
+    /// The operation's name as the pulse list writes it.
+    pub fn name(&self) -> &'static str {
+        match self {
+            NativeOp::Collective { .. } => "rotate",
+            NativeOp::LightShift { .. } => "shift",
+            NativeOp::Ms { .. } => "ms",
+            NativeOp::PairMs { .. } => "pair-ms",
+            NativeOp::Addressed { .. } => "addressed",
+            NativeOp::VirtualZ { .. } => "frame",
+            NativeOp::Hide { .. } => "hide",
+            NativeOp::Unhide { .. } => "unhide",
+            NativeOp::Measure { .. } => "measure",
+            NativeOp::Reset { .. } => "reset",
+        }
+    }
+
+    /// The single ion this operation addresses, if it addresses one or two (the
+    /// lower for a pair).
+    pub fn addressed_ions(&self) -> Option<(u32, Option<u32>)> {
+        match *self {
+            NativeOp::LightShift { ion, .. }
+            | NativeOp::Addressed { ion, .. }
+            | NativeOp::Hide { ion }
+            | NativeOp::Unhide { ion }
+            | NativeOp::Measure { ion, .. }
+            | NativeOp::Reset { ion } => Some((ion, None)),
+            NativeOp::PairMs { a, b, .. } => Some((a, Some(b))),
+            NativeOp::Collective { .. } | NativeOp::Ms { .. } | NativeOp::VirtualZ { .. } => None,
+        }
+    }
+
     /// True for the entangling pulses (global and pair MS).
     pub fn is_entangling(&self) -> bool {
         matches!(self, NativeOp::Ms { .. } | NativeOp::PairMs { .. })
@@ -108,6 +139,48 @@ impl Sequence {
     pub fn n_clbits(&self) -> u32 {
         self.cregs.iter().map(|r| r.size).sum()
     }
+
+    /// One more than the highest ion any step addresses by number (0 when none
+    /// does): the ions a hand-written or compiled program uses on purpose.
+    pub fn addressed_ion_count(&self) -> u32 {
+        self.steps
+            .iter()
+            .filter_map(|s| s.op.addressed_ions())
+            .map(|(a, b)| a.max(b.unwrap_or(0)) + 1)
+            .max()
+            .unwrap_or(0)
+    }
+
+    /// What `tutti inspect` shows of a sequence.
+    pub fn summary(&self) -> SequenceSummary {
+        let mut by_op = std::collections::BTreeMap::new();
+        for s in &self.steps {
+            *by_op.entry(s.op.name().to_string()).or_insert(0) += 1;
+        }
+        SequenceSummary {
+            ions: self.n_ions,
+            addressed_ions: self.addressed_ion_count(),
+            bits: self.n_clbits(),
+            steps: self.steps.len(),
+            entangling_pulses: self.steps.iter().filter(|s| s.op.is_entangling()).count(),
+            conditioned: self.steps.iter().filter(|s| s.condition.is_some()).count(),
+            by_op,
+        }
+    }
+}
+
+/// The figures `tutti inspect` prints for a pulse sequence.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct SequenceSummary {
+    pub ions: u32,
+    /// One more than the highest ion addressed by number.
+    pub addressed_ions: u32,
+    pub bits: u32,
+    pub steps: usize,
+    pub entangling_pulses: usize,
+    pub conditioned: usize,
+    /// Steps by operation name (the pulse list's names).
+    pub by_op: std::collections::BTreeMap<String, usize>,
 }
 
 #[cfg(test)]

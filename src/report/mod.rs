@@ -27,6 +27,24 @@ pub fn inspect_table(name: &str, s: &Summary) -> String {
     out
 }
 
+/// The table `tutti inspect` prints for a pulse sequence.
+pub fn sequence_table(name: &str, s: &crate::native::SequenceSummary) -> String {
+    let mut out = String::new();
+    let _ = writeln!(out, "{name} (a pulse sequence)");
+    let _ = writeln!(out, "  ions             {}", s.ions);
+    let _ = writeln!(out, "  addressed ions   {}", s.addressed_ions);
+    let _ = writeln!(out, "  classical bits   {}", s.bits);
+    let _ = writeln!(out, "  steps            {}", s.steps);
+    let _ = writeln!(out, "  entangling       {}", s.entangling_pulses);
+    let _ = writeln!(out, "  conditioned      {}", s.conditioned);
+    let _ = writeln!(out, "  by operation:");
+    let width = s.by_op.keys().map(|k| k.len()).max().unwrap_or(0);
+    for (name, count) in &s.by_op {
+        let _ = writeln!(out, "    {name:<width$}  {count}");
+    }
+    out
+}
+
 /// The text `tutti check` prints.
 pub fn verdict_text(v: &Verdict) -> String {
     let mut out = String::new();
@@ -37,11 +55,18 @@ pub fn verdict_text(v: &Verdict) -> String {
     };
     let _ = writeln!(
         out,
-        "{word} (mode {}, {} qubits, {} segment(s))",
+        "{word} (mode {}, {} segment(s))",
         v.mode.name(),
-        v.qubits,
         v.segments
     );
+    let _ = writeln!(
+        out,
+        "  qubits        {} and {} (compared in a space of {}; at most {} in one comparison after idle ones were split off)",
+        v.qubits_a, v.qubits_b, v.qubits, v.compared_qubits
+    );
+    if let Some(note) = &v.padding {
+        let _ = writeln!(out, "  note          {note}");
+    }
     let _ = writeln!(
         out,
         "  distance      {}  (tolerance {:.3e}; docs/checker.md)",

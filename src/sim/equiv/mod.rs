@@ -120,7 +120,14 @@ pub struct Verdict {
     /// the mode measures it.
     pub global_phase: Option<f64>,
     pub segments: usize,
+    /// The larger of the two programs' qubit (or ion) counts: the space compared.
     pub qubits: usize,
+    /// Each program's own qubit (or ion) count.
+    pub qubits_a: usize,
+    pub qubits_b: usize,
+    /// Set when one program had fewer qubits and was padded with idle ones, which
+    /// the other must then leave as they were.
+    pub padding: Option<String>,
     /// The most qubits one segment comparison needed after untouched qubits were
     /// split off.
     pub compared_qubits: usize,
@@ -129,7 +136,15 @@ pub struct Verdict {
 }
 
 impl Verdict {
-    fn start(n: usize, segments: usize) -> Verdict {
+    fn start(a: usize, b: usize, segments: usize) -> Verdict {
+        let n = a.max(b);
+        let padding = (a != b).then(|| {
+            let (which, fewer) = if a < b { ("first", a) } else { ("second", b) };
+            format!(
+                "the {which} program has {fewer} qubit(s); {} idle qubit(s) were added to it, and the other program must leave them as they were",
+                n - fewer
+            )
+        });
         Verdict {
             equivalent: true,
             mode: Mode::Tableau,
@@ -139,6 +154,9 @@ impl Verdict {
             global_phase: None,
             segments,
             qubits: n,
+            qubits_a: a,
+            qubits_b: b,
+            padding,
             compared_qubits: 0,
             detail: String::new(),
         }
@@ -182,7 +200,7 @@ pub enum CheckError {
 pub fn check(a: &Program, b: &Program, cfg: &CheckConfig) -> Result<Verdict, CheckError> {
     let n = a.n_qubits.max(b.n_qubits);
     let (sa, sb) = (segments(a), segments(b));
-    let mut verdict = Verdict::start(n, sa.len().div_ceil(2));
+    let mut verdict = Verdict::start(a.n_qubits, b.n_qubits, sa.len().div_ceil(2));
     for (which, p) in [("first", a), ("second", b)] {
         if let Some(f) = p.faults.first() {
             return Ok(verdict.differ(format!("the {which} program is faulty: {f}")));

@@ -112,6 +112,9 @@ enum Command {
         /// Device profile: `demo` (embedded, invented example numbers) or a TOML file.
         #[arg(long, default_value = "demo")]
         device: String,
+        /// Native operations to use: collective (collective rotations, light shifts,
+        /// global MS pulses) or addressed (also pair MS pulses, addressed rotations and
+        /// hiding, where the device has them).
         #[arg(long, value_enum, default_value_t = Target::Collective)]
         target: Target,
         /// Output format; by default the one `-o`'s extension names (.pulses, .json,
@@ -142,6 +145,9 @@ enum Command {
         /// Device profile: `demo` (embedded, invented example numbers) or a TOML file.
         #[arg(long, default_value = "demo")]
         device: String,
+        /// Native operations to use: collective (collective rotations, light shifts,
+        /// global MS pulses) or addressed (also pair MS pulses, addressed rotations and
+        /// hiding, where the device has them).
         #[arg(long, value_enum, default_value_t = Target::Collective)]
         target: Target,
         /// Budget what the reference compiler makes (every two-qubit gate on its own).

@@ -497,3 +497,76 @@ fn check_says_which_side_was_padded_with_idle_qubits() {
     let v: serde_json::Value = serde_json::from_str(&out).unwrap();
     assert!(v["padding"].is_null());
 }
+
+/// The long options a subcommand's `--help` lists.
+fn help_options(command: &str) -> Vec<String> {
+    let (code, out, _) = tutti(&[command, "--help"]);
+    assert_eq!(code, 0);
+    let mut opts: Vec<String> = out
+        .lines()
+        .filter_map(|l| {
+            let l = l.trim_start();
+            let l = l.strip_prefix("-o, ").unwrap_or(l);
+            l.strip_prefix("--").map(|rest| {
+                let name: String = rest
+                    .chars()
+                    .take_while(|c| c.is_ascii_lowercase() || *c == '-')
+                    .collect();
+                format!("--{name}")
+            })
+        })
+        .filter(|o| o != "--help")
+        .collect();
+    opts.sort();
+    opts.dedup();
+    opts
+}
+
+/// Whether `text` names `opt` as a whole option (not as the prefix of a longer one).
+fn names_option(text: &str, opt: &str) -> bool {
+    text.match_indices(opt).any(|(i, _)| {
+        !text[i + opt.len()..]
+            .chars()
+            .next()
+            .is_some_and(|c| c.is_ascii_lowercase() || c == '-')
+    })
+}
+
+#[test]
+fn the_readme_and_help_name_the_same_options() {
+    let readme = std::fs::read_to_string("README.md").unwrap();
+    let table: Vec<&str> = readme
+        .lines()
+        .filter(|l| l.starts_with("| `tutti "))
+        .collect();
+    for command in ["inspect", "compile", "budget", "check"] {
+        let row = table
+            .iter()
+            .find(|l| l.starts_with(&format!("| `tutti {command} ")))
+            .unwrap_or_else(|| panic!("no README row for {command}"));
+        let opts = help_options(command);
+        assert!(opts.len() >= 3, "{command}: {opts:?}");
+        for opt in &opts {
+            // Reading limits are shared by every command and listed once in prose.
+            let shared =
+                opt.starts_with("--max-") && opt != "--max-pulses" || opt == "--read-threads";
+            let place = if shared { readme.as_str() } else { *row };
+            assert!(
+                names_option(place, opt),
+                "README does not name {command} {opt}"
+            );
+        }
+        // And nothing in the row that the command does not take.
+        for (i, _) in row.match_indices("--") {
+            let name: String = row[i + 2..]
+                .chars()
+                .take_while(|c| c.is_ascii_lowercase() || *c == '-')
+                .collect();
+            let opt = format!("--{name}");
+            assert!(
+                opts.contains(&opt),
+                "README row of {command} names {opt}, which it does not take"
+            );
+        }
+    }
+}

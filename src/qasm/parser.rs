@@ -420,7 +420,7 @@ impl<'a> Parser<'a> {
                             span,
                             format!("{what} `{text}` is too large"),
                         )
-                        .hint("integers must fit in 64 bits"),
+                        .hint("write a smaller number: register sizes and indices are bounded by --max-qubits (65,536 by default), parameters are real numbers"),
                     );
                     Err(())
                 }
@@ -849,7 +849,7 @@ impl<'a> Parser<'a> {
             self.error_here(
                 "expression-too-long",
                 format!("expression has more than {MAX_EXPR_OPS} operators"),
-                "simplify the expression",
+                "simplify the expression: the nesting bound is fixed, to keep the reader's stack safe on any input",
             );
             return Err(());
         }
@@ -984,7 +984,7 @@ impl<'a> Parser<'a> {
             self.error_here(
                 "expression-too-deep",
                 format!("expression nested more than {MAX_EXPR_DEPTH} levels deep"),
-                "simplify the expression",
+                "simplify the expression: the nesting bound is fixed, to keep the reader's stack safe on any input",
             );
             return Err(());
         }

@@ -99,20 +99,109 @@ pub enum Loaded {
     Sequence(Sequence),
 }
 
+/// One error as data, for `--json` output: a diagnostic's code, message, place and
+/// hint, or a plain error with only a code and a message.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct ErrorRecord {
+    pub code: String,
+    pub message: String,
+    pub file: Option<String>,
+    pub line: Option<usize>,
+    pub column: Option<usize>,
+    pub hint: Option<String>,
+}
+
+impl ErrorRecord {
+    /// An error without a place in a source.
+    pub fn plain(code: &str, message: impl Into<String>) -> ErrorRecord {
+        ErrorRecord {
+            code: code.into(),
+            message: message.into(),
+            file: None,
+            line: None,
+            column: None,
+            hint: None,
+        }
+    }
+
+    /// The errors among `diags`, with their places.
+    pub fn from_diagnostics(
+        diags: &[crate::qasm::diag::Diagnostic],
+        sources: &crate::qasm::diag::SourceMap,
+    ) -> Vec<ErrorRecord> {
+        diags
+            .iter()
+            .filter(|d| d.is_error())
+            .map(|d| {
+                let (line, column) = sources.line_col(d.span.file, d.span.start);
+                ErrorRecord {
+                    code: d.code.into(),
+                    message: d.message.clone(),
+                    file: Some(sources.name(d.span.file).to_string()),
+                    line: Some(line),
+                    column: Some(column),
+                    hint: (!d.hint.is_empty()).then(|| d.hint.clone()),
+                }
+            })
+            .collect()
+    }
+}
+
+/// A file that could not be read: the rendered text for a terminal and the same
+/// errors as data.
+#[derive(Debug, Clone)]
+pub struct LoadFailure {
+    pub rendered: String,
+    pub errors: Vec<ErrorRecord>,
+}
+
+impl LoadFailure {
+    fn plain(path: &Path, code: &str, message: String, hint: Option<&str>) -> LoadFailure {
+        let mut record = ErrorRecord::plain(code, message.clone());
+        record.file = Some(path.display().to_string());
+        record.hint = hint.map(str::to_string);
+        let rendered = match hint {
+            Some(h) => format!("error: {}: {message}\n  hint: {h}\n", path.display()),
+            None => format!("error: {}: {message}\n", path.display()),
+        };
+        LoadFailure {
+            rendered,
+            errors: vec![record],
+        }
+    }
+}
+
+impl std::fmt::Display for LoadFailure {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(&self.rendered)
+    }
+}
+
 /// Reads a circuit or a sequence in any format tutti writes. Errors come rendered,
-/// with file, line and column.
-pub fn load(path: &Path, limits: &Limits) -> Result<(Loaded, String), String> {
+/// with file, line and column, and as data.
+pub fn load(path: &Path, limits: &Limits) -> Result<(Loaded, String), LoadFailure> {
     let text = match std::fs::read(path) {
         Ok(b) if b.len() > limits.max_file_bytes => {
-            return Err(format!(
-                "error: {} is {} bytes, more than the limit {}\n",
-                path.display(),
-                b.len(),
-                limits.max_file_bytes
+            return Err(LoadFailure::plain(
+                path,
+                "file-too-large",
+                format!(
+                    "the file is {} bytes, more than the limit of {}",
+                    b.len(),
+                    limits.max_file_bytes
+                ),
+                Some("raise the input size limit (--max-file-bytes) if the file is meant to be this large"),
             ))
         }
         Ok(b) => String::from_utf8_lossy(&b).into_owned(),
-        Err(e) => return Err(format!("error: cannot read {}: {e}\n", path.display())),
+        Err(e) => {
+            return Err(LoadFailure::plain(
+                path,
+                "cannot-read",
+                format!("cannot read the file: {e}"),
+                Some("check the path and the file's permissions"),
+            ))
+        }
     };
     let name = path.display().to_string();
     match Format::sniff(path, &text) {
@@ -128,10 +217,10 @@ pub fn load(path: &Path, limits: &Limits) -> Result<(Loaded, String), String> {
             let rendered = out.render();
             match out.circuit {
                 Some(c) => Ok((Loaded::Circuit(c), rendered)),
-                None => Err(format!(
-                    "{rendered}{} error(s) in {name}\n",
-                    out.errors().count()
-                )),
+                None => Err(LoadFailure {
+                    rendered: format!("{rendered}{} error(s) in {name}\n", out.errors().count()),
+                    errors: ErrorRecord::from_diagnostics(&out.diagnostics, &out.sources),
+                }),
             }
         }
         f => {
@@ -143,10 +232,10 @@ pub fn load(path: &Path, limits: &Limits) -> Result<(Loaded, String), String> {
             let rendered = out.render();
             match out.sequence {
                 Some(s) => Ok((Loaded::Sequence(s), rendered)),
-                None => Err(format!(
-                    "{rendered}{} error(s) in {name}\n",
-                    out.diagnostics.len()
-                )),
+                None => Err(LoadFailure {
+                    rendered: format!("{rendered}{} error(s) in {name}\n", out.diagnostics.len()),
+                    errors: ErrorRecord::from_diagnostics(&out.diagnostics, &out.sources),
+                }),
             }
         }
     }
@@ -159,22 +248,23 @@ pub fn load_program(
     path: &Path,
     limits: &Limits,
     memory_budget: usize,
-) -> Result<(Program, String), String> {
+) -> Result<(Program, String), LoadFailure> {
     let (loaded, warnings) = load(path, limits)?;
     let needed = match &loaded {
         Loaded::Circuit(c) => circuit_check_bytes(c.instrs.len()),
         Loaded::Sequence(s) => sequence_check_bytes(s.steps.len(), s.n_ions as usize),
     };
     if needed > memory_budget {
-        return Err(format!(
-            "error: {}: comparing this program whole needs about {needed} bytes, more than the memory budget of {memory_budget} bytes; raise --memory (MiB) if the machine has it\n",
-            path.display()
+        return Err(LoadFailure::plain(
+            path,
+            "out-of-memory",
+            format!("comparing this program whole needs about {needed} bytes, more than the memory budget of {memory_budget} bytes"),
+            Some("raise --memory (MiB) if the machine has it"),
         ));
     }
     let p = match loaded {
-        Loaded::Circuit(c) => {
-            Program::from_circuit(&c).map_err(|e| format!("error: {}: {e}\n", path.display()))?
-        }
+        Loaded::Circuit(c) => Program::from_circuit(&c)
+            .map_err(|e| LoadFailure::plain(path, "opaque-gate", e.to_string(), None))?,
         Loaded::Sequence(s) => Program::from_sequence(&s),
     };
     Ok((p, warnings))

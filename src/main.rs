@@ -201,9 +201,20 @@ enum Command {
 
 fn main() -> ExitCode {
     let cli = Cli::parse();
+    let json = matches!(
+        cli.command,
+        Command::Inspect { json: true, .. }
+            | Command::Budget { json: true, .. }
+            | Command::Check { json: true, .. }
+    );
     match run(cli) {
         Ok(code) => code,
-        Err(Failure { message, code }) => {
+        Err(failure) if json => {
+            // With --json, errors are JSON on standard output too.
+            println!("{}", failure.to_json());
+            ExitCode::from(failure.code)
+        }
+        Err(Failure { message, code, .. }) => {
             eprint!("{message}");
             if !message.ends_with('\n') {
                 eprintln!();
@@ -213,16 +224,52 @@ fn main() -> ExitCode {
     }
 }
 
-/// A rendered error and the exit code it calls for.
+/// A rendered error, the same as data where it has a place, and the exit code it
+/// calls for.
 struct Failure {
     message: String,
     code: u8,
+    errors: Vec<driver::ErrorRecord>,
+}
+
+impl Failure {
+    /// `{"error": true, "exit_code": .., "errors": [{code, message, file, line,
+    /// column, hint}, ..]}`.
+    fn to_json(&self) -> String {
+        let errors = if self.errors.is_empty() {
+            let message = self.message.trim_end();
+            let message = message.strip_prefix("error: ").unwrap_or(message);
+            vec![driver::ErrorRecord::plain("error", message)]
+        } else {
+            self.errors.clone()
+        };
+        let value = serde_json::json!({
+            "error": true,
+            "exit_code": self.code,
+            "errors": errors,
+        });
+        serde_json::to_string_pretty(&value).unwrap_or_else(|_| "{\"error\": true}".into())
+    }
 }
 
 impl From<String> for Failure {
     /// Plain errors are usage or input errors: exit code 2.
     fn from(message: String) -> Failure {
-        Failure { message, code: 2 }
+        Failure {
+            message,
+            code: 2,
+            errors: Vec::new(),
+        }
+    }
+}
+
+impl From<driver::LoadFailure> for Failure {
+    fn from(f: driver::LoadFailure) -> Failure {
+        Failure {
+            message: f.rendered,
+            code: 2,
+            errors: f.errors,
+        }
     }
 }
 
@@ -426,6 +473,7 @@ fn compile_one(
     let compiled = compiled.map_err(|e| Failure {
         message: format!("error: {}: {e}\n", file.display()),
         code: e.exit_code(),
+        errors: Vec::new(),
     })?;
     Ok((circuit, compiled))
 }

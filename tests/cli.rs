@@ -570,3 +570,56 @@ fn the_readme_and_help_name_the_same_options() {
         }
     }
 }
+
+#[test]
+fn with_json_errors_are_json_on_standard_output_too() {
+    let bad = scratch("json_error.qasm");
+    std::fs::write(
+        &bad,
+        "OPENQASM 2.0;\ninclude \"qelib1.inc\";\nqreg q[2];\nfoo q[0];\n",
+    )
+    .unwrap();
+    for args in [
+        vec!["inspect", bad.to_str().unwrap(), "--json"],
+        vec!["budget", bad.to_str().unwrap(), "--json"],
+        vec![
+            "check",
+            bad.to_str().unwrap(),
+            "circuits/ghz_5.qasm",
+            "--json",
+        ],
+    ] {
+        let (code, out, _) = tutti(&args);
+        assert_eq!(code, 2, "{args:?}");
+        let v: serde_json::Value =
+            serde_json::from_str(&out).unwrap_or_else(|e| panic!("{args:?}: {e}\n{out}"));
+        assert_eq!(v["error"], true);
+        assert_eq!(v["exit_code"], 2);
+        let e = &v["errors"][0];
+        assert_eq!(e["code"], "undefined-gate");
+        assert_eq!(e["line"], 4);
+        assert_eq!(e["column"], 1);
+        assert!(e["hint"].as_str().unwrap().contains("define it"));
+    }
+    // A missing file and a missing profile are JSON errors as well.
+    let (code, out, _) = tutti(&["budget", "no/such/file.qasm", "--json"]);
+    assert_eq!(code, 2);
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    assert_eq!(v["errors"][0]["code"], "cannot-read");
+    let (code, out, _) = tutti(&[
+        "budget",
+        "circuits/ghz_5.qasm",
+        "--device",
+        "no/such.toml",
+        "--json",
+    ]);
+    assert_eq!(code, 2);
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    assert!(
+        v["errors"][0]["message"]
+            .as_str()
+            .unwrap()
+            .contains("no/such.toml"),
+        "{v}"
+    );
+}

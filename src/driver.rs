@@ -579,6 +579,20 @@ pub fn budget_sequence(seq: &Sequence, profile: &Profile) -> Result<Budget, Stri
     Ok(budget(seq, profile, seq.addressed_ion_count()))
 }
 
+/// The profile with `ions` of its ions loaded (`None`: all of them); more than the
+/// profile has is an error.
+pub fn loaded_ions(profile: Profile, ions: Option<u32>) -> Result<Profile, String> {
+    match ions {
+        None => Ok(profile),
+        Some(0) => Err("error: --ions must be at least 1\n".into()),
+        Some(n) if n > profile.device.ions => Err(format!(
+            "error: --ions {n} is more than the {} ions of the device `{}`\n",
+            profile.device.ions, profile.device.name
+        )),
+        Some(n) => Ok(profile.with_ions(n)),
+    }
+}
+
 /// Reads a device profile: `demo` is the embedded one, anything else a TOML file.
 pub fn load_profile(spec: &str) -> Result<Profile, String> {
     if spec == "demo" {

@@ -135,6 +135,10 @@ enum Command {
         /// a larger one stops the compile with an error instead of exhausting memory.
         #[arg(long, default_value_t = tutti::compile::DEFAULT_MAX_STEPS)]
         max_pulses: usize,
+        /// Ions loaded for this run, at most the profile's count (default: all of
+        /// them): a 5-qubit circuit on a 5-ion chain of a 40-ion machine.
+        #[arg(long)]
+        ions: Option<u32>,
         #[command(flatten)]
         limits: LimitArgs,
     },
@@ -160,6 +164,10 @@ enum Command {
         /// a larger one stops the compile with an error instead of exhausting memory.
         #[arg(long, default_value_t = tutti::compile::DEFAULT_MAX_STEPS)]
         max_pulses: usize,
+        /// Ions loaded for this run, at most the profile's count (default: all of
+        /// them): a 5-qubit circuit on a 5-ion chain of a 40-ion machine.
+        #[arg(long)]
+        ions: Option<u32>,
         #[command(flatten)]
         limits: LimitArgs,
     },
@@ -312,11 +320,13 @@ fn run(cli: Cli) -> Result<ExitCode, Failure> {
             no_verify,
             force,
             max_pulses,
+            ions,
             limits,
         } => {
             let limits = limits.limits();
-            let (_, compiled) =
-                compile_one(&file, &device, target, !no_verify, max_pulses, &limits)?;
+            let (_, compiled) = compile_one(
+                &file, &device, ions, target, !no_verify, max_pulses, &limits,
+            )?;
             let format = driver::Format::for_output(format, output.as_deref())?;
             let text = format.render(&compiled.sequence);
             match &output {
@@ -346,19 +356,28 @@ fn run(cli: Cli) -> Result<ExitCode, Failure> {
             baseline,
             json,
             max_pulses,
+            ions,
             limits,
         } => {
             let limits = limits.limits();
             let (budget, how) = match driver::load(&file, &limits)? {
                 (driver::Loaded::Sequence(seq), warnings) => {
                     eprint!("{warnings}");
-                    let profile = driver::load_profile(&device)?;
+                    let profile = driver::loaded_ions(driver::load_profile(&device)?, ions)?;
+                    if ions.is_some_and(|n| n != seq.n_ions) {
+                        return Err(format!(
+                            "error: {} is a sequence for {} ions; --ions must match it or be left out\n",
+                            file.display(),
+                            seq.n_ions
+                        )
+                        .into());
+                    }
                     let budget = driver::budget_sequence(&seq, &profile)?;
                     (budget, "the sequence as written".to_string())
                 }
                 (driver::Loaded::Circuit(_), _) => {
                     let (_, compiled) =
-                        compile_one(&file, &device, target, false, max_pulses, &limits)?;
+                        compile_one(&file, &device, ions, target, false, max_pulses, &limits)?;
                     let how = format!("{} target, {}", target.name(), compiler_name(baseline));
                     (compiled.budget, how)
                 }
@@ -438,6 +457,7 @@ fn compiler_name(baseline: bool) -> &'static str {
 fn compile_one(
     file: &Path,
     device: &str,
+    ions: Option<u32>,
     target: Target,
     verify: bool,
     max_steps: usize,
@@ -459,7 +479,9 @@ fn compile_one(
             .into());
         }
     };
-    let profile = driver::load_profile(device).map_err(|e| progress.cleared(e))?;
+    let profile = driver::load_profile(device)
+        .and_then(|p| driver::loaded_ions(p, ions))
+        .map_err(|e| progress.cleared(e))?;
     let cfg = CompileConfig {
         target,
         verify,

@@ -27,7 +27,7 @@ fn inspect_json_has_the_documented_keys() {
     assert_eq!(code, 0);
     let v: serde_json::Value = serde_json::from_str(&out).unwrap();
     assert_eq!(v["qubits"], 5);
-    assert_eq!(v["clbits"], 5);
+    assert_eq!(v["bits"], 5);
     assert_eq!(v["ops"], 10);
     assert_eq!(v["two_qubit_ops"], 4);
 }
@@ -412,7 +412,7 @@ fn budget_and_inspect_describe_a_sequence_as_written() {
     let list = scratch("two_pulses.pulses");
     std::fs::write(
         &list,
-        "ions 3\ncreg c[2]\nshift 0 pi/2\nms pi/2 0\nshift 1 pi\nms pi/2 0\nshift 1 -pi\nmeasure 0 -> c[0]\n",
+        "ions 3\ncreg c[2]\nlight_shift 0 pi/2\nchain_ms pi/2 0\nlight_shift 1 pi\nchain_ms pi/2 0\nlight_shift 1 -pi\nmeasure 0 -> c[0]\n",
     )
     .unwrap();
     let path = list.to_str().unwrap();
@@ -428,7 +428,7 @@ fn budget_and_inspect_describe_a_sequence_as_written() {
     assert_eq!(v["ions"], 3);
     assert_eq!(v["steps"], 6);
     assert_eq!(v["entangling_pulses"], 2);
-    assert_eq!(v["by_op"]["shift"], 3);
+    assert_eq!(v["by_op"]["light_shift"], 3);
     // tutti's own QASM output is a sequence too: its budget is the compile's count.
     let qasm = scratch("ghz_out.qasm");
     let (code, _, compile_err) = tutti(&[

@@ -190,7 +190,7 @@ fn a_compiler_bug_that_disturbs_an_extra_ion_is_caught() {
 
 #[test]
 fn the_pulse_list_reader_locates_its_errors() {
-    let text = "# a hand-written list\nions 3\ncreg c[1]\nrotate pi/2 0\nshift 5 pi\nms pi/4\nwobble 1\nmeasure 0 -> d[0]\npair-ms 1 1 pi 0\n";
+    let text = "# a hand-written list\nions 3\ncreg c[1]\nchain_rotate pi/2 0\nlight_shift 5 pi\nchain_ms pi/4\nwobble 1\nmeasure 0 -> d[0]\npair_ms 1 1 pi 0\n";
     let out = read_pulses("hand.pulses", text);
     assert!(out.sequence.is_none());
     let lines: Vec<usize> = out
@@ -204,18 +204,18 @@ fn the_pulse_list_reader_locates_its_errors() {
         rendered.contains("hand.pulses:5:1") && rendered.contains("ion 5 does not exist"),
         "{rendered}"
     );
-    let no_ions = read_pulses("x.pulses", "shift 0 pi\n");
+    let no_ions = read_pulses("x.pulses", "light_shift 0 pi\n");
     assert!(no_ions.sequence.is_none());
 }
 
 #[test]
 fn the_json_reader_rejects_malformed_input_with_a_location() {
-    let out = read_json("x.json", "{\"format\": \"tutti-sequence\", \"version\": 1, \"ions\": 2, \"steps\": [ {\"op\": \"ms\", \"theta\": 1.0 ]}");
+    let out = read_json("x.json", "{\"tutti_sequence\": 2, \"ions\": 2, \"program\": [ {\"op\": \"chain_ms\", \"theta\": 1.0 ]}");
     assert!(out.sequence.is_none());
     assert!(out.render().contains("x.json:1:"));
     let out = read_json(
         "y.json",
-        "{\"format\": \"tutti-sequence\", \"version\": 1, \"ions\": 2, \"steps\": [{\"op\": \"light_shift\", \"ion\": 9, \"theta\": 1.0}]}",
+        "{\"tutti_sequence\": 2, \"ions\": 2, \"program\": [{\"op\": \"light_shift\", \"ion\": 9, \"theta\": 1.0}]}",
     );
     assert!(out.sequence.is_none() && out.render().contains("beyond the 2 ions"));
 }
@@ -230,11 +230,11 @@ fn device_profiles_are_validated_with_clear_errors() {
         ),
         (
             demo.replace("fixed = 30.0", "fixed = -30.0"),
-            "durations_us.ms.fixed is -30",
+            "durations_us.chain_ms.fixed is -30",
         ),
         (
-            demo.replace("ms = { fixed = 30.0, per_rad = 150.0 }", ""),
-            "missing field `ms`",
+            demo.replace("chain_ms = { fixed = 30.0, per_rad = 150.0 }", ""),
+            "missing field `chain_ms`",
         ),
         (
             demo.replace("nearest = 0.008", "matrix = [[0.0, 0.1], [0.1, 0.0]]"),
@@ -358,7 +358,7 @@ fn an_edited_qasm_header_is_read_as_a_circuit() {
     // an ion outside the register, a chain gate the header does not define.
     let extra = format!("{text}gate extra a {{ x a; }}\n");
     let outside = text.replacen("light_shift(", "light_shift(0) q[9];\nlight_shift(", 1);
-    let undefined = text.replacen("chain_rot_4(", "chain_rot_5(", 1);
+    let undefined = text.replacen("chain_rotate_4(", "chain_rotate_5(", 1);
     for (what, t) in [
         ("extra gate", extra),
         ("ion outside", outside),
@@ -368,6 +368,121 @@ fn an_edited_qasm_header_is_read_as_a_circuit() {
         assert!(
             tutti::native::qasm_out::read_qasm_sequence(&t).is_none(),
             "{what} read as tutti's sequence"
+        );
+    }
+}
+
+// One name per operation: every name of `names::ALL` is what each writer puts down
+// for its operation, each reader takes it back, and docs/formats.md lists it.
+#[test]
+fn each_operation_has_one_name_in_every_format_and_the_docs() {
+    use tutti::native::{names, Step};
+    let ops = [
+        NativeOp::Collective {
+            theta: 0.1,
+            phi: 0.2,
+        },
+        NativeOp::LightShift { ion: 0, theta: 0.3 },
+        NativeOp::Ms {
+            theta: 0.4,
+            phi: 0.0,
+        },
+        NativeOp::PairMs {
+            a: 0,
+            b: 1,
+            theta: 0.5,
+            phi: 0.0,
+        },
+        NativeOp::Addressed {
+            ion: 1,
+            theta: 0.6,
+            phi: 0.7,
+        },
+        NativeOp::VirtualZ { theta: 0.8 },
+        NativeOp::Hide { ion: 2 },
+        NativeOp::Unhide { ion: 2 },
+        NativeOp::Measure { ion: 0, clbit: 0 },
+        NativeOp::Reset { ion: 0 },
+    ];
+    let docs = std::fs::read_to_string("docs/formats.md").unwrap();
+    let profile_docs = std::fs::read_to_string("docs/device-profile.md").unwrap();
+    let demo = tutti::native::profile::DEMO_TOML;
+    for (op, name) in ops.iter().zip(names::ALL) {
+        assert_eq!(op.name(), name);
+        let mut seq = Sequence::new(3, vec![]);
+        seq.cregs.push(tutti::circuit::Register {
+            name: "c".into(),
+            offset: 0,
+            size: 1,
+        });
+        seq.steps.push(Step {
+            op: *op,
+            condition: None,
+        });
+        let pulses = write_pulses(&seq);
+        assert!(
+            pulses.lines().any(|l| l.starts_with(&format!("{name} "))),
+            "pulse list: {name}\n{pulses}"
+        );
+        let json = write_json(&seq);
+        assert!(
+            json.contains(&format!("\"op\": \"{name}\"")),
+            "JSON: {name}"
+        );
+        let qasm = tutti::native::qasm_out::write_qasm(&seq);
+        if !matches!(op, NativeOp::Measure { .. } | NativeOp::Reset { .. }) {
+            assert!(
+                qasm.lines().any(|l| l.starts_with(&format!("gate {name}"))),
+                "QASM header: {name}"
+            );
+        }
+        assert_eq!(
+            read_pulses("x", &pulses).sequence.as_ref(),
+            Some(&seq),
+            "{name}"
+        );
+        assert_eq!(
+            read_json("x", &json).sequence.as_ref(),
+            Some(&seq),
+            "{name}"
+        );
+        assert_eq!(
+            tutti::native::qasm_out::read_qasm_sequence(&qasm).as_ref(),
+            Some(&seq),
+            "{name}"
+        );
+        assert!(
+            docs.contains(&format!("| `{name}`")) || docs.contains(&format!("`{name}` /")),
+            "docs/formats.md: {name}"
+        );
+        // Operations with a cost have it under the same name in the profile.
+        if !matches!(op, NativeOp::VirtualZ { .. }) {
+            assert!(
+                demo.contains(&format!("\n{name} = {{")),
+                "profile key: {name}"
+            );
+            assert!(
+                profile_docs.contains(&format!("`{name}`")),
+                "docs/device-profile.md: {name}"
+            );
+        }
+    }
+    // No second name for an interaction in the QASM header.
+    let c = common::read_ok("circuits/ghz_5.qasm".as_ref());
+    let seq = compile_baseline(&c, &Profile::demo(), Target::Collective).unwrap();
+    let qasm = tutti::native::qasm_out::write_qasm(&seq);
+    let gates: Vec<&str> = qasm
+        .lines()
+        .filter_map(|l| l.strip_prefix("gate "))
+        .map(|l| l.split(['(', ' ']).next().unwrap())
+        .collect();
+    for g in gates {
+        let base = g
+            .trim_end_matches(|c: char| c.is_ascii_digit())
+            .trim_end_matches('_');
+        assert!(
+            names::ALL.contains(&base),
+            "QASM header gate `{g}` is not one of the names"
         );
     }
 }

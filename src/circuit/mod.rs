@@ -189,7 +189,8 @@ pub struct Circuit {
 #[derive(Debug, Clone, PartialEq, Eq, serde::Serialize)]
 pub struct Summary {
     pub qubits: u32,
-    pub clbits: u32,
+    /// Classical bits, in all registers together.
+    pub bits: u32,
     /// Operations after expansion, barriers excluded.
     pub ops: usize,
     pub two_qubit_ops: usize,
@@ -246,7 +247,7 @@ impl Circuit {
         let mut by_name = BTreeMap::new();
         let mut s = Summary {
             qubits: self.n_qubits(),
-            clbits: self.n_clbits(),
+            bits: self.n_clbits(),
             ops: 0,
             two_qubit_ops: 0,
             multi_qubit_ops: 0,

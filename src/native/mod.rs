@@ -20,9 +20,37 @@ pub mod text;
 
 use crate::circuit::{Condition, Register};
 
+/// The one name of each native operation. Every format (pulse list, JSON, the QASM
+/// header), the device profile's capability and cost keys, the budget and the docs
+/// use these and no other (docs/formats.md has the table with the unitaries).
+pub mod names {
+    pub const CHAIN_ROTATE: &str = "chain_rotate";
+    pub const LIGHT_SHIFT: &str = "light_shift";
+    pub const CHAIN_MS: &str = "chain_ms";
+    pub const PAIR_MS: &str = "pair_ms";
+    pub const ION_ROTATE: &str = "ion_rotate";
+    pub const FRAME_Z: &str = "frame_z";
+    pub const HIDE: &str = "hide";
+    pub const UNHIDE: &str = "unhide";
+    pub const MEASURE: &str = "measure";
+    pub const RESET: &str = "reset";
+    /// All of them, in the order of [`super::NativeOp`]'s variants.
+    pub const ALL: [&str; 10] = [
+        CHAIN_ROTATE,
+        LIGHT_SHIFT,
+        CHAIN_MS,
+        PAIR_MS,
+        ION_ROTATE,
+        FRAME_Z,
+        HIDE,
+        UNHIDE,
+        MEASURE,
+        RESET,
+    ];
+}
+
 /// One native operation.
-#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize, serde::Deserialize)]
-#[serde(tag = "op", rename_all = "snake_case")]
+#[derive(Debug, Clone, Copy, PartialEq)]
 pub enum NativeOp {
     Collective {
         theta: f64,
@@ -66,19 +94,19 @@ pub enum NativeOp {
 }
 
 impl NativeOp {
-    /// The operation's name as the pulse list writes it.
+    /// The operation's one name ([`names`]).
     pub fn name(&self) -> &'static str {
         match self {
-            NativeOp::Collective { .. } => "rotate",
-            NativeOp::LightShift { .. } => "shift",
-            NativeOp::Ms { .. } => "ms",
-            NativeOp::PairMs { .. } => "pair-ms",
-            NativeOp::Addressed { .. } => "addressed",
-            NativeOp::VirtualZ { .. } => "frame",
-            NativeOp::Hide { .. } => "hide",
-            NativeOp::Unhide { .. } => "unhide",
-            NativeOp::Measure { .. } => "measure",
-            NativeOp::Reset { .. } => "reset",
+            NativeOp::Collective { .. } => names::CHAIN_ROTATE,
+            NativeOp::LightShift { .. } => names::LIGHT_SHIFT,
+            NativeOp::Ms { .. } => names::CHAIN_MS,
+            NativeOp::PairMs { .. } => names::PAIR_MS,
+            NativeOp::Addressed { .. } => names::ION_ROTATE,
+            NativeOp::VirtualZ { .. } => names::FRAME_Z,
+            NativeOp::Hide { .. } => names::HIDE,
+            NativeOp::Unhide { .. } => names::UNHIDE,
+            NativeOp::Measure { .. } => names::MEASURE,
+            NativeOp::Reset { .. } => names::RESET,
         }
     }
 

@@ -36,9 +36,11 @@ pub struct Device {
 pub struct Capabilities {
     #[serde(default)]
     pub pair_ms: bool,
-    #[serde(default)]
+    /// Key `ion_rotate`: addressed resonant rotations of one ion.
+    #[serde(default, rename = "ion_rotate")]
     pub addressed_rotation: bool,
-    #[serde(default)]
+    /// Key `hide`: hiding (and unhiding) ions.
+    #[serde(default, rename = "hide")]
     pub hiding: bool,
     #[serde(default)]
     pub parallel_light_shifts: bool,
@@ -48,12 +50,14 @@ pub struct Capabilities {
 #[derive(Debug, Clone, Copy, PartialEq, Deserialize, serde::Serialize)]
 #[serde(deny_unknown_fields)]
 pub struct PerOp {
+    #[serde(rename = "chain_rotate")]
     pub collective: Cost,
     pub light_shift: Cost,
+    #[serde(rename = "chain_ms")]
     pub ms: Cost,
     #[serde(default)]
     pub pair_ms: Option<Cost>,
-    #[serde(default)]
+    #[serde(default, rename = "ion_rotate")]
     pub addressed: Option<Cost>,
     #[serde(default)]
     pub hide: Option<Cost>,
@@ -137,11 +141,11 @@ impl Profile {
             ("errors", &self.errors),
         ] {
             let entries = [
-                ("collective", Some(per.collective)),
+                ("chain_rotate", Some(per.collective)),
                 ("light_shift", Some(per.light_shift)),
-                ("ms", Some(per.ms)),
+                ("chain_ms", Some(per.ms)),
                 ("pair_ms", per.pair_ms),
-                ("addressed", per.addressed),
+                ("ion_rotate", per.addressed),
                 ("hide", per.hide),
                 ("unhide", per.unhide),
                 ("measure", Some(per.measure)),
@@ -174,7 +178,7 @@ impl Profile {
             ),
             (
                 caps.addressed_rotation,
-                "addressed",
+                "ion_rotate",
                 self.durations_us.addressed.zip(self.errors.addressed),
             ),
             (

@@ -4,10 +4,12 @@
 //! library only, so any reader of the standard can simulate the file (global phases
 //! are dropped). Each kind of operation has its own gate name, so tutti recovers the
 //! sequence exactly from the calls ([`read_qasm_sequence`]):
-//! `chain_rot_K` / `chain_ms_K` (a collective rotation / global MS on the K ions
-//! not hidden, listed as arguments), `addr_rot`, `light_shift`, `pair_ms`,
-//! `frame_z` (on the whole register), `hide_ion` / `unhide_ion` (empty bodies:
-//! hiding is not a unitary; the ions listed in later chain calls show it).
+//! the one names of [`super::names`]: `chain_rotate_K` / `chain_ms_K` (a collective
+//! rotation / global MS on the K ions not hidden, listed as arguments; K is the
+//! arity, which an OpenQASM gate must fix), `ion_rotate`, `light_shift`, `pair_ms`,
+//! `frame_z` (on the whole register), `hide` / `unhide` (empty bodies: hiding is not
+//! a unitary; the ions listed in later chain calls show it). No other gate is
+//! defined: the global MS is written as `pair_ms` on every pair.
 
 use super::{NativeOp, Sequence, Step};
 use crate::circuit::{format_real, Condition, Register};
@@ -22,19 +24,18 @@ pub const MARKER: &str = "// tutti native sequence";
 
 const HEADER: &str = "\
 // Each native operation is a gate below, defined from the 2017 standard library.
-// addr_rot(theta,phi) = exp(-i theta/2 (cos(phi) X + sin(phi) Y)), up to global phase.
-gate addr_rot(theta,phi) a { u3(theta,phi-pi/2,pi/2-phi) a; }
+// ion_rotate(theta,phi) = exp(-i theta/2 (cos(phi) X + sin(phi) Y)), up to global phase.
+gate ion_rotate(theta,phi) a { u3(theta,phi-pi/2,pi/2-phi) a; }
 // light_shift(theta) = exp(-i theta/2 Z).
 gate light_shift(theta) a { rz(theta) a; }
 // frame_z(theta): exp(-i theta/2 Z) on every ion, a change of phase reference.
 gate frame_z(theta) a { rz(theta) a; }
-// ion_xx(theta,phi) = exp(-i theta/2 s_a s_b) with s = cos(phi) X + sin(phi) Y.
-gate ion_xx(theta,phi) a,b { rz(-phi) a; rz(-phi) b; h a; h b; cx a,b; rz(theta) b; cx a,b; h a; h b; rz(phi) a; rz(phi) b; }
-// pair_ms(theta,phi) = exp(-i theta/4 (s_a + s_b)^2), up to global phase.
-gate pair_ms(theta,phi) a,b { ion_xx(theta,phi) a,b; }
-// hide_ion / unhide_ion: the ion takes no part in chain operations in between.
-gate hide_ion a { }
-gate unhide_ion a { }
+// pair_ms(theta,phi) = exp(-i theta/4 (s_a + s_b)^2) with s = cos(phi) X + sin(phi) Y,
+// which is exp(-i theta/2 s_a s_b) up to global phase.
+gate pair_ms(theta,phi) a,b { rz(-phi) a; rz(-phi) b; h a; h b; cx a,b; rz(theta) b; cx a,b; h a; h b; rz(phi) a; rz(phi) b; }
+// hide / unhide: the ion takes no part in chain operations in between.
+gate hide a { }
+gate unhide a { }
 ";
 
 /// Everything [`write_qasm`] writes before the `qreg` line, for `n` ions and the
@@ -47,12 +48,15 @@ fn header(n: u32, rot_sizes: &BTreeSet<usize>, ms_sizes: &BTreeSet<usize>) -> St
         let args: Vec<String> = (0..k).map(|i| format!("i{i}")).collect();
         let body: String = args
             .iter()
-            .map(|a| format!(" addr_rot(theta,phi) {a};"))
+            .map(|a| format!(" ion_rotate(theta,phi) {a};"))
             .collect();
-        let _ = writeln!(out, "// chain_rot_{k}: exp(-i theta/2 S_phi) on {k} ions.");
         let _ = writeln!(
             out,
-            "gate chain_rot_{k}(theta,phi) {} {{{body} }}",
+            "// chain_rotate_{k}: exp(-i theta/2 S_phi) on {k} ions."
+        );
+        let _ = writeln!(
+            out,
+            "gate chain_rotate_{k}(theta,phi) {} {{{body} }}",
             args.join(",")
         );
     }
@@ -61,7 +65,7 @@ fn header(n: u32, rot_sizes: &BTreeSet<usize>, ms_sizes: &BTreeSet<usize>) -> St
         let mut body = String::new();
         for a in 0..k {
             for b in a + 1..k {
-                let _ = write!(body, " ion_xx(theta,phi) i{a},i{b};");
+                let _ = write!(body, " pair_ms(theta,phi) i{a},i{b};");
             }
         }
         let _ = writeln!(
@@ -117,7 +121,7 @@ pub fn write_qasm(seq: &Sequence) -> String {
             NativeOp::Collective { theta, phi } => {
                 writeln!(
                     out,
-                    "chain_rot_{k}({},{}) {};",
+                    "chain_rotate_{k}({},{}) {};",
                     r(theta),
                     r(phi),
                     visible.join(",")
@@ -138,15 +142,15 @@ pub fn write_qasm(seq: &Sequence) -> String {
                 writeln!(out, "pair_ms({},{}) q[{a}],q[{b}];", r(theta), r(phi))
             }
             NativeOp::Addressed { ion, theta, phi } => {
-                writeln!(out, "addr_rot({},{}) q[{ion}];", r(theta), r(phi))
+                writeln!(out, "ion_rotate({},{}) q[{ion}];", r(theta), r(phi))
             }
             NativeOp::Hide { ion } => {
                 hidden[ion as usize] = true;
-                writeln!(out, "hide_ion q[{ion}];")
+                writeln!(out, "hide q[{ion}];")
             }
             NativeOp::Unhide { ion } => {
                 hidden[ion as usize] = false;
-                writeln!(out, "unhide_ion q[{ion}];")
+                writeln!(out, "unhide q[{ion}];")
             }
             NativeOp::Measure { ion, clbit } => {
                 let reg = seq
@@ -189,7 +193,7 @@ pub fn read_qasm_sequence(text: &str) -> Option<Sequence> {
             Stmt::Gate(g) => {
                 gates += 1;
                 let name = g.name.name;
-                if let Some(k) = name.strip_prefix("chain_rot_") {
+                if let Some(k) = name.strip_prefix("chain_rotate_") {
                     rot_sizes.insert(k.parse::<usize>().ok()?);
                 } else if let Some(k) = name.strip_prefix("chain_ms_") {
                     ms_sizes.insert(k.parse::<usize>().ok()?);
@@ -202,7 +206,7 @@ pub fn read_qasm_sequence(text: &str) -> Option<Sequence> {
     }
     let n = u32::try_from(n_ions?).ok()?;
     let expected = header(n, &rot_sizes, &ms_sizes);
-    const FIXED_GATES: usize = 7;
+    const FIXED_GATES: usize = 6;
     if gates != FIXED_GATES + rot_sizes.len() + ms_sizes.len()
         || !text.starts_with(&expected)
         || !text[expected.len()..].starts_with(&format!("qreg q[{n}];"))
@@ -285,7 +289,7 @@ pub fn read_qasm_sequence(text: &str) -> Option<Sequence> {
                     name.strip_prefix(prefix)
                         .and_then(|k| k.parse::<usize>().ok())
                 };
-                let (rot, ms) = (chain_size("chain_rot_"), chain_size("chain_ms_"));
+                let (rot, ms) = (chain_size("chain_rotate_"), chain_size("chain_ms_"));
                 let defined = rot.is_some_and(|k| rot_sizes.contains(&k))
                     || ms.is_some_and(|k| ms_sizes.contains(&k));
                 if let Some(k) = rot.or(ms) {
@@ -294,7 +298,7 @@ pub fn read_qasm_sequence(text: &str) -> Option<Sequence> {
                     if !defined || args? != visible || p.len() != 2 || k != visible.len() {
                         return None;
                     }
-                    if name.starts_with("chain_rot_") {
+                    if name.starts_with("chain_rotate_") {
                         NativeOp::Collective {
                             theta: p[0],
                             phi: p[1],
@@ -314,7 +318,7 @@ pub fn read_qasm_sequence(text: &str) -> Option<Sequence> {
                             ion: ion(a)?,
                             theta: *t,
                         },
-                        ("addr_rot", [t, f], [a]) => NativeOp::Addressed {
+                        ("ion_rotate", [t, f], [a]) => NativeOp::Addressed {
                             ion: ion(a)?,
                             theta: *t,
                             phi: *f,
@@ -325,12 +329,12 @@ pub fn read_qasm_sequence(text: &str) -> Option<Sequence> {
                             theta: *t,
                             phi: *f,
                         },
-                        ("hide_ion", [], [a]) => {
+                        ("hide", [], [a]) => {
                             let i = ion(a)?;
                             hidden[i as usize] = true;
                             NativeOp::Hide { ion: i }
                         }
-                        ("unhide_ion", [], [a]) => {
+                        ("unhide", [], [a]) => {
                             let i = ion(a)?;
                             hidden[i as usize] = false;
                             NativeOp::Unhide { ion: i }

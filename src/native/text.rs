@@ -5,7 +5,7 @@
 //! Invariant: `read_pulses(&write_pulses(s))` equals `s` up to angle rounding of at
 //! most one unit in the last place; JSON round-trips exactly.
 
-use super::{NativeOp, Sequence, Step};
+use super::{names, NativeOp, Sequence, Step};
 use crate::circuit::{format_real, Condition, Register};
 use crate::qasm::diag::{Diagnostic, SourceMap, Span};
 use std::f64::consts::PI;
@@ -84,25 +84,31 @@ pub fn write_pulses(seq: &Sequence) -> String {
         }
         let a = format_angle;
         let line = match step.op {
-            NativeOp::Collective { theta, phi } => format!("rotate {} {}", a(theta), a(phi)),
-            NativeOp::LightShift { ion, theta } => format!("shift {ion} {}", a(theta)),
-            NativeOp::Ms { theta, phi } => format!("ms {} {}", a(theta), a(phi)),
+            NativeOp::Collective { theta, phi } => {
+                format!("{} {} {}", step.op.name(), a(theta), a(phi))
+            }
+            NativeOp::LightShift { ion, theta } => format!("{} {ion} {}", step.op.name(), a(theta)),
+            NativeOp::Ms { theta, phi } => format!("{} {} {}", step.op.name(), a(theta), a(phi)),
             NativeOp::PairMs {
                 a: i,
                 b,
                 theta,
                 phi,
-            } => format!("pair-ms {i} {b} {} {}", a(theta), a(phi)),
+            } => format!("{} {i} {b} {} {}", step.op.name(), a(theta), a(phi)),
             NativeOp::Addressed { ion, theta, phi } => {
-                format!("addressed {ion} {} {}", a(theta), a(phi))
+                format!("{} {ion} {} {}", step.op.name(), a(theta), a(phi))
             }
-            NativeOp::VirtualZ { theta } => format!("frame {}", a(theta)),
-            NativeOp::Hide { ion } => format!("hide {ion}"),
-            NativeOp::Unhide { ion } => format!("unhide {ion}"),
+            NativeOp::VirtualZ { theta } => format!("{} {}", step.op.name(), a(theta)),
+            NativeOp::Hide { ion } => format!("{} {ion}", step.op.name()),
+            NativeOp::Unhide { ion } => format!("{} {ion}", step.op.name()),
             NativeOp::Measure { ion, clbit } => {
-                format!("measure {ion} -> {}", clbit_name(&seq.cregs, clbit))
+                format!(
+                    "{} {ion} -> {}",
+                    step.op.name(),
+                    clbit_name(&seq.cregs, clbit)
+                )
             }
-            NativeOp::Reset { ion } => format!("reset {ion}"),
+            NativeOp::Reset { ion } => format!("{} {ion}", step.op.name()),
         };
         let _ = writeln!(out, "{line}");
     }
@@ -179,11 +185,11 @@ fn parse_line(content: &str, seq: &mut Sequence, have_ions: &mut bool) -> Result
     if words[0] == "if" {
         let cond = words.get(1).ok_or((
             "`if` needs a condition".to_string(),
-            "write `if c==1 shift 0 pi`",
+            "write `if c==1 light_shift 0 pi`",
         ))?;
         let (reg, value) = cond.split_once("==").ok_or((
             "expected `register==value`".to_string(),
-            "write `if c==1 shift 0 pi`",
+            "write `if c==1 light_shift 0 pi`",
         ))?;
         let creg = seq.cregs.iter().position(|r| r.name == reg).ok_or((
             format!("classical register `{reg}` is not declared"),
@@ -206,7 +212,7 @@ fn parse_line(content: &str, seq: &mut Sequence, have_ions: &mut bool) -> Result
         if words.is_empty() {
             return Err((
                 "`if` needs an operation".into(),
-                "write `if c==1 shift 0 pi`",
+                "write `if c==1 light_shift 0 pi`",
             ));
         }
     }
@@ -307,34 +313,34 @@ fn parse_line(content: &str, seq: &mut Sequence, have_ions: &mut bool) -> Result
             });
             return Ok(());
         }
-        "rotate" => {
+        names::CHAIN_ROTATE => {
             arity(2)?;
             NativeOp::Collective {
                 theta: angle(words.get(1))?,
                 phi: angle(words.get(2))?,
             }
         }
-        "shift" => {
+        names::LIGHT_SHIFT => {
             arity(2)?;
             NativeOp::LightShift {
                 ion: ion(words.get(1))?,
                 theta: angle(words.get(2))?,
             }
         }
-        "ms" => {
+        names::CHAIN_MS => {
             arity(2)?;
             NativeOp::Ms {
                 theta: angle(words.get(1))?,
                 phi: angle(words.get(2))?,
             }
         }
-        "pair-ms" => {
+        names::PAIR_MS => {
             arity(4)?;
             let (a, b) = (ion(words.get(1))?, ion(words.get(2))?);
             if a == b {
                 return Err((
                     "a pair MS needs two different ions".into(),
-                    "write `pair-ms 0 1 pi/2 0`",
+                    "write `pair_ms 0 1 pi/2 0`",
                 ));
             }
             NativeOp::PairMs {
@@ -344,7 +350,7 @@ fn parse_line(content: &str, seq: &mut Sequence, have_ions: &mut bool) -> Result
                 phi: angle(words.get(4))?,
             }
         }
-        "addressed" => {
+        names::ION_ROTATE => {
             arity(3)?;
             NativeOp::Addressed {
                 ion: ion(words.get(1))?,
@@ -352,31 +358,31 @@ fn parse_line(content: &str, seq: &mut Sequence, have_ions: &mut bool) -> Result
                 phi: angle(words.get(3))?,
             }
         }
-        "frame" => {
+        names::FRAME_Z => {
             arity(1)?;
             NativeOp::VirtualZ {
                 theta: angle(words.get(1))?,
             }
         }
-        "hide" => {
+        names::HIDE => {
             arity(1)?;
             NativeOp::Hide {
                 ion: ion(words.get(1))?,
             }
         }
-        "unhide" => {
+        names::UNHIDE => {
             arity(1)?;
             NativeOp::Unhide {
                 ion: ion(words.get(1))?,
             }
         }
-        "reset" => {
+        names::RESET => {
             arity(1)?;
             NativeOp::Reset {
                 ion: ion(words.get(1))?,
             }
         }
-        "measure" => {
+        names::MEASURE => {
             arity(3)?;
             if words[2] != "->" {
                 return Err(("expected `->`".into(), "write `measure 0 -> c[0]`"));
@@ -412,7 +418,7 @@ fn parse_line(content: &str, seq: &mut Sequence, have_ions: &mut bool) -> Result
         }
         other => return Err((
             format!("unknown pulse `{other}`"),
-            "pulses are rotate, shift, ms, pair-ms, addressed, frame, hide, unhide, measure, reset",
+            "operations are chain_rotate, light_shift, chain_ms, pair_ms, ion_rotate, frame_z, hide, unhide, measure, reset (docs/formats.md)",
         )),
     };
     seq.steps.push(Step {
@@ -422,63 +428,143 @@ fn parse_line(content: &str, seq: &mut Sequence, have_ions: &mut bool) -> Result
     Ok(())
 }
 
+/// `"when": {"register": "c", "equals": 1}` on a conditioned step.
 #[derive(serde::Serialize, serde::Deserialize)]
-struct JsonCondition {
+#[serde(deny_unknown_fields)]
+struct JsonWhen {
     register: String,
     /// A number, or a decimal string when it does not fit 64 bits.
-    value: crate::circuit::RegValue,
+    equals: crate::circuit::RegValue,
 }
 
+/// One step of the `program` list: the operation's one name under `op` (the
+/// names of [`names`]; `rename` keeps each tag equal to its constant, checked by
+/// `json_tags_are_the_one_names`), its ions, angles and bit.
+#[derive(serde::Serialize, serde::Deserialize)]
+#[serde(tag = "op")]
+enum JsonOp {
+    #[serde(rename = "chain_rotate")]
+    ChainRotate { theta: f64, phi: f64 },
+    #[serde(rename = "light_shift")]
+    LightShift { ion: u32, theta: f64 },
+    #[serde(rename = "chain_ms")]
+    ChainMs { theta: f64, phi: f64 },
+    #[serde(rename = "pair_ms")]
+    PairMs {
+        ions: [u32; 2],
+        theta: f64,
+        phi: f64,
+    },
+    #[serde(rename = "ion_rotate")]
+    IonRotate { ion: u32, theta: f64, phi: f64 },
+    #[serde(rename = "frame_z")]
+    FrameZ { theta: f64 },
+    #[serde(rename = "hide")]
+    Hide { ion: u32 },
+    #[serde(rename = "unhide")]
+    Unhide { ion: u32 },
+    #[serde(rename = "measure")]
+    Measure { ion: u32, bit: u32 },
+    #[serde(rename = "reset")]
+    Reset { ion: u32 },
+}
+
+impl From<NativeOp> for JsonOp {
+    fn from(op: NativeOp) -> JsonOp {
+        match op {
+            NativeOp::Collective { theta, phi } => JsonOp::ChainRotate { theta, phi },
+            NativeOp::LightShift { ion, theta } => JsonOp::LightShift { ion, theta },
+            NativeOp::Ms { theta, phi } => JsonOp::ChainMs { theta, phi },
+            NativeOp::PairMs { a, b, theta, phi } => JsonOp::PairMs {
+                ions: [a, b],
+                theta,
+                phi,
+            },
+            NativeOp::Addressed { ion, theta, phi } => JsonOp::IonRotate { ion, theta, phi },
+            NativeOp::VirtualZ { theta } => JsonOp::FrameZ { theta },
+            NativeOp::Hide { ion } => JsonOp::Hide { ion },
+            NativeOp::Unhide { ion } => JsonOp::Unhide { ion },
+            NativeOp::Measure { ion, clbit } => JsonOp::Measure { ion, bit: clbit },
+            NativeOp::Reset { ion } => JsonOp::Reset { ion },
+        }
+    }
+}
+
+impl From<JsonOp> for NativeOp {
+    fn from(op: JsonOp) -> NativeOp {
+        match op {
+            JsonOp::ChainRotate { theta, phi } => NativeOp::Collective { theta, phi },
+            JsonOp::LightShift { ion, theta } => NativeOp::LightShift { ion, theta },
+            JsonOp::ChainMs { theta, phi } => NativeOp::Ms { theta, phi },
+            JsonOp::PairMs {
+                ions: [a, b],
+                theta,
+                phi,
+            } => NativeOp::PairMs { a, b, theta, phi },
+            JsonOp::IonRotate { ion, theta, phi } => NativeOp::Addressed { ion, theta, phi },
+            JsonOp::FrameZ { theta } => NativeOp::VirtualZ { theta },
+            JsonOp::Hide { ion } => NativeOp::Hide { ion },
+            JsonOp::Unhide { ion } => NativeOp::Unhide { ion },
+            JsonOp::Measure { ion, bit } => NativeOp::Measure { ion, clbit: bit },
+            JsonOp::Reset { ion } => NativeOp::Reset { ion },
+        }
+    }
+}
+
+/// A step. Its keys beyond the operation's and `when` are ignored (serde cannot
+/// refuse them through `flatten`); the top level refuses unknown keys.
 #[derive(serde::Serialize, serde::Deserialize)]
 struct JsonStep {
     #[serde(flatten)]
-    op: NativeOp,
+    op: JsonOp,
     #[serde(default, skip_serializing_if = "Option::is_none")]
-    condition: Option<JsonCondition>,
+    when: Option<JsonWhen>,
 }
 
+/// A classical register: `bits` lists them in order, and bit `k` of the program
+/// counts across them.
 #[derive(serde::Serialize, serde::Deserialize)]
-struct JsonRegister {
-    name: String,
+#[serde(deny_unknown_fields)]
+struct JsonBits {
+    register: String,
     size: u32,
 }
 
 #[derive(serde::Serialize, serde::Deserialize)]
 #[serde(deny_unknown_fields)]
 struct JsonSequence {
-    format: String,
-    version: u32,
+    /// The version of this shape; its presence marks a tutti sequence.
+    tutti_sequence: u32,
     ions: u32,
     #[serde(default)]
-    registers: Vec<JsonRegister>,
-    steps: Vec<JsonStep>,
+    bits: Vec<JsonBits>,
+    program: Vec<JsonStep>,
 }
 
-/// The identifier in the `format` field of tutti's JSON sequences.
-pub const JSON_FORMAT: &str = "tutti-sequence";
+/// The version of the JSON shape this tutti writes and reads.
+pub const JSON_VERSION: u32 = 2;
 
 /// The JSON form of a sequence (docs/formats.md).
 pub fn write_json(seq: &Sequence) -> String {
     let j = JsonSequence {
-        format: JSON_FORMAT.into(),
-        version: 1,
+        tutti_sequence: JSON_VERSION,
         ions: seq.n_ions,
-        registers: seq
+        bits: seq
             .cregs
             .iter()
-            .map(|r| JsonRegister {
-                name: r.name.clone(),
+            .map(|r| JsonBits {
+                register: r.name.clone(),
                 size: r.size,
             })
             .collect(),
-        steps: seq
+        program: seq
             .steps
             .iter()
             .map(|s| JsonStep {
-                op: s.op,
-                condition: s.condition.as_ref().map(|c| JsonCondition {
+                op: s.op.into(),
+                when: s.condition.as_ref().map(|c| JsonWhen {
                     register: seq.cregs[c.creg as usize].name.clone(),
-                    value: c.value.clone(),
+                    equals: c.value.clone(),
                 }),
             })
             .collect(),
@@ -509,28 +595,29 @@ pub fn read_json(name: &str, text: &str) -> SeqOutcome {
             );
         }
     };
-    if j.format != JSON_FORMAT || j.version != 1 {
+    if j.tutti_sequence != JSON_VERSION {
         return fail(
             sources,
             0,
             format!(
-                "format `{}` version {} is not `{JSON_FORMAT}` version 1",
-                j.format, j.version
+                "this is a tutti sequence of version {}; this tutti reads version {JSON_VERSION}",
+                j.tutti_sequence
             ),
             "see docs/formats.md",
         );
     }
     let mut seq = Sequence::new(j.ions, vec![]);
-    for r in j.registers {
+    for r in j.bits {
         let offset = seq.n_clbits();
         seq.cregs.push(Register {
-            name: r.name,
+            name: r.register,
             offset,
             size: r.size,
         });
     }
-    for (k, s) in j.steps.into_iter().enumerate() {
-        let ions: Vec<u32> = match s.op {
+    for (k, step) in j.program.into_iter().enumerate() {
+        let op: NativeOp = step.op.into();
+        let ions: Vec<u32> = match op {
             NativeOp::LightShift { ion, .. }
             | NativeOp::Addressed { ion, .. }
             | NativeOp::Hide { ion }
@@ -548,7 +635,17 @@ pub fn read_json(name: &str, text: &str) -> SeqOutcome {
                 "ions are numbered from 0",
             );
         }
-        if let NativeOp::Measure { clbit, .. } = s.op {
+        if let NativeOp::PairMs { a, b, .. } = op {
+            if a == b {
+                return fail(
+                    sources,
+                    0,
+                    format!("step {k} is a pair MS on ion {a} twice"),
+                    "a pair MS needs two different ions",
+                );
+            }
+        }
+        if let NativeOp::Measure { clbit, .. } = op {
             if clbit >= seq.n_clbits() {
                 return fail(
                     sources,
@@ -558,23 +655,23 @@ pub fn read_json(name: &str, text: &str) -> SeqOutcome {
                 );
             }
         }
-        let condition = match s.condition {
+        let condition = match step.when {
             None => None,
             Some(c) => match seq.cregs.iter().position(|r| r.name == c.register) {
-                Some(i) if !c.value.fits(seq.cregs[i].size) => {
+                Some(i) if !c.equals.fits(seq.cregs[i].size) => {
                     return fail(
                         sources,
                         0,
                         format!(
                         "step {k} compares register `{}` of {} bits with {}, which it cannot hold",
-                        c.register, seq.cregs[i].size, c.value
+                        c.register, seq.cregs[i].size, c.equals
                     ),
                         "use a value below 2^size",
                     )
                 }
                 Some(i) => Some(Condition {
                     creg: i as u32,
-                    value: c.value,
+                    value: c.equals,
                 }),
                 None => {
                     return fail(
@@ -587,7 +684,7 @@ pub fn read_json(name: &str, text: &str) -> SeqOutcome {
             },
         };
         seq.steps.push(Step {
-            op: s.op,
+            op,
             condition: condition.map(Box::new),
         });
     }
@@ -605,4 +702,47 @@ fn line_offset(text: &str, line: usize, column: usize) -> usize {
         .map(str::len)
         .sum();
     (start + column.saturating_sub(1)).min(text.len().saturating_sub(1))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// Each JSON tag is the operation's one name: a sequence with every operation,
+    /// written, carries each name of [`names::ALL`] as an `op` value.
+    #[test]
+    fn json_tags_are_the_one_names() {
+        let ops = [
+            NativeOp::Collective {
+                theta: 0.1,
+                phi: 0.2,
+            },
+            NativeOp::LightShift { ion: 0, theta: 0.3 },
+            NativeOp::Ms {
+                theta: 0.4,
+                phi: 0.0,
+            },
+            NativeOp::PairMs {
+                a: 0,
+                b: 1,
+                theta: 0.5,
+                phi: 0.0,
+            },
+            NativeOp::Addressed {
+                ion: 1,
+                theta: 0.6,
+                phi: 0.7,
+            },
+            NativeOp::VirtualZ { theta: 0.8 },
+            NativeOp::Hide { ion: 1 },
+            NativeOp::Unhide { ion: 1 },
+            NativeOp::Measure { ion: 0, clbit: 0 },
+            NativeOp::Reset { ion: 0 },
+        ];
+        for (op, name) in ops.iter().zip(names::ALL) {
+            assert_eq!(op.name(), name);
+            let v = serde_json::to_value(JsonOp::from(*op)).unwrap();
+            assert_eq!(v["op"], name);
+        }
+    }
 }

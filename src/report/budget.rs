@@ -21,13 +21,19 @@ pub struct Budget {
     pub ms_pulses: usize,
     /// Sum of |theta| over MS pulses, in units of pi/2.
     pub ms_area: f64,
+    /// `chain_rotate` pulses (MS pulses act on the whole chain too, but are counted
+    /// in `ms_pulses`, not here).
     pub collective_pulses: usize,
+    /// `light_shift` pulses.
     pub light_shifts: usize,
     pub duration_us: f64,
     pub est_error: f64,
     /// The longest chain of entangling pulses through any one ion.
     pub entangling_depth: usize,
+    /// `ion_rotate` pulses.
+    #[serde(rename = "ion_rotations")]
     pub addressed_rotations: usize,
+    /// `hide` and `unhide` operations.
     pub hide_operations: usize,
     pub measurements: usize,
     /// Idle time of each ion the circuit uses, in microseconds.

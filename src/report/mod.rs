@@ -11,7 +11,7 @@ pub fn inspect_table(name: &str, s: &Summary) -> String {
     let mut out = String::new();
     let _ = writeln!(out, "{name}");
     let _ = writeln!(out, "  qubits          {}", s.qubits);
-    let _ = writeln!(out, "  classical bits  {}", s.clbits);
+    let _ = writeln!(out, "  classical bits  {}", s.bits);
     let _ = writeln!(out, "  operations      {}", s.ops);
     let _ = writeln!(out, "  two-qubit gates {}", s.two_qubit_ops);
     let _ = writeln!(out, "  wider gates     {}", s.multi_qubit_ops);
@@ -101,7 +101,9 @@ pub fn budget_table(b: &budget::Budget) -> String {
     let _ = writeln!(out, "  entangling_depth   {}", b.entangling_depth);
     let _ = writeln!(out, "  collective_pulses  {}", b.collective_pulses);
     let _ = writeln!(out, "  light_shifts       {}", b.light_shifts);
-    let _ = writeln!(out, "  addressed          {}", b.addressed_rotations);
+    let _ = writeln!(out, "  ion_rotations      {}", b.addressed_rotations);
+    let _ = writeln!(out, "  hide_operations    {}", b.hide_operations);
+    let _ = writeln!(out, "  measurements       {}", b.measurements);
     let _ = writeln!(out, "  duration_us        {:.1}", b.duration_us);
     let _ = writeln!(
         out,

@@ -593,6 +593,54 @@ pub fn loaded_ions(profile: Profile, ions: Option<u32>) -> Result<Profile, Strin
     }
 }
 
+/// The SHA-256 of `bytes`, in hex.
+pub fn sha256_hex(bytes: &[u8]) -> String {
+    use sha2::Digest;
+    sha2::Sha256::digest(bytes)
+        .iter()
+        .map(|b| format!("{b:02x}"))
+        .collect()
+}
+
+/// Where a compiled sequence came from: the source file (name and hash of its
+/// bytes), the device profile (name and hash of its TOML text), target, compiler,
+/// tool version and how it was verified.
+pub fn provenance(
+    source: &Path,
+    device_spec: &str,
+    target: Target,
+    verification: Option<&Verification>,
+) -> crate::native::Provenance {
+    let hash_of = |bytes: std::io::Result<Vec<u8>>| {
+        bytes.map_or_else(|e| format!("unreadable ({e})"), |b| sha256_hex(&b))
+    };
+    let (device, device_sha256) = if device_spec == "demo" {
+        (
+            Profile::demo().device.name,
+            sha256_hex(crate::native::profile::DEMO_TOML.as_bytes()),
+        )
+    } else {
+        let name = load_profile(device_spec)
+            .map(|p| p.device.name)
+            .unwrap_or_else(|_| device_spec.to_string());
+        (name, hash_of(std::fs::read(device_spec)))
+    };
+    crate::native::Provenance {
+        source: source.display().to_string(),
+        source_sha256: hash_of(std::fs::read(source)),
+        device,
+        device_sha256,
+        target: target.name().into(),
+        compiler: "baseline".into(),
+        tool: format!("tutti {}", env!("CARGO_PKG_VERSION")),
+        verified: match verification {
+            Some(Verification::Whole(_)) => "whole".into(),
+            Some(Verification::Windowed(_)) => "window by window".into(),
+            None => "no".into(),
+        },
+    }
+}
+
 /// Reads a device profile: `demo` is the embedded one, anything else a TOML file.
 pub fn load_profile(spec: &str) -> Result<Profile, String> {
     if spec == "demo" {

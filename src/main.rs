@@ -324,10 +324,16 @@ fn run(cli: Cli) -> Result<ExitCode, Failure> {
             limits,
         } => {
             let limits = limits.limits();
-            let (_, compiled) = compile_one(
+            let (_, mut compiled) = compile_one(
                 &file, &device, ions, target, !no_verify, max_pulses, &limits,
             )?;
             let format = driver::Format::for_output(format, output.as_deref())?;
+            compiled.sequence.provenance = Some(driver::provenance(
+                &file,
+                &device,
+                target,
+                compiled.verification.as_ref(),
+            ));
             let text = format.render(&compiled.sequence);
             match &output {
                 Some(path) => driver::write_output(path, &text, &file, force)?,

@@ -651,3 +651,59 @@ fn ions_loads_part_of_the_chain_and_never_more_than_the_device_has() {
     let (code, _, err) = tutti(&["budget", "circuits/ghz_5.qasm", "--ions", "4"]);
     assert_eq!(code, 2, "a 5-qubit circuit does not fit 4 ions: {err}");
 }
+
+#[test]
+fn provenance_is_in_every_format_round_trips_and_never_changes_a_verdict() {
+    // SHA-256 of "abc": the FIPS 180-4 example (ba7816bf...15ad).
+    assert_eq!(
+        tutti::driver::sha256_hex(b"abc"),
+        "ba7816bf8f01cfea414140de5dae2223b00361a396177a9cb410ff61f20015ad"
+    );
+    let source = std::fs::read("circuits/ghz_5.qasm").unwrap();
+    let want_hash = tutti::driver::sha256_hex(&source);
+    for ext in ["pulses", "json", "qasm"] {
+        let out = scratch(&format!("provenance.{ext}"));
+        let (code, _, err) = tutti(&[
+            "compile",
+            "circuits/ghz_5.qasm",
+            "-o",
+            out.to_str().unwrap(),
+            "--force",
+        ]);
+        assert_eq!(code, 0, "{err}");
+        let (loaded, _) = tutti::driver::load(&out, &tutti::qasm::Limits::default()).unwrap();
+        let tutti::driver::Loaded::Sequence(seq) = loaded else {
+            panic!("{ext}: not a sequence")
+        };
+        let p = seq
+            .provenance
+            .clone()
+            .unwrap_or_else(|| panic!("{ext}: no provenance"));
+        assert_eq!(p.source, "circuits/ghz_5.qasm");
+        assert_eq!(p.source_sha256, want_hash, "{ext}");
+        assert_eq!(p.target, "collective");
+        assert_eq!(p.verified, "whole");
+        assert!(p.tool.starts_with("tutti "));
+        assert_eq!(
+            p.device_sha256,
+            tutti::driver::sha256_hex(tutti::native::profile::DEMO_TOML.as_bytes())
+        );
+        // Written again, it reads back the same.
+        let again = tutti::driver::Format::from_extension(&out)
+            .unwrap()
+            .render(&seq);
+        let copy = scratch(&format!("provenance_copy.{ext}"));
+        std::fs::write(&copy, &again).unwrap();
+        let (loaded, _) = tutti::driver::load(&copy, &tutti::qasm::Limits::default()).unwrap();
+        let tutti::driver::Loaded::Sequence(back) = loaded else {
+            panic!()
+        };
+        assert_eq!(back.provenance, seq.provenance, "{ext}");
+        // An edited provenance changes no verdict.
+        let edited = again.replace(&want_hash, &"0".repeat(64));
+        assert_ne!(edited, again);
+        std::fs::write(&copy, &edited).unwrap();
+        let (code, out, _) = tutti(&["check", "circuits/ghz_5.qasm", copy.to_str().unwrap()]);
+        assert_eq!(code, 0, "{ext}: {out}");
+    }
+}

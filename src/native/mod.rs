@@ -146,6 +146,76 @@ pub struct Sequence {
     /// Classical registers, kept from the source circuit for measurements and conditions.
     pub cregs: Vec<Register>,
     pub steps: Vec<Step>,
+    /// Where the sequence came from, when tutti compiled it. Written into every
+    /// format and read back, never part of equivalence (the checker ignores it).
+    pub provenance: Option<Provenance>,
+}
+
+/// Where a compiled sequence came from: written as comments in the pulse list and
+/// the QASM output and as a field in JSON.
+#[derive(Debug, Clone, PartialEq, Eq, Default, serde::Serialize, serde::Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Provenance {
+    /// The circuit file as named on the command line, and the SHA-256 of its bytes.
+    pub source: String,
+    pub source_sha256: String,
+    /// The device profile's name, and the SHA-256 of its TOML text.
+    pub device: String,
+    pub device_sha256: String,
+    pub target: String,
+    /// Which compiler made it (and, once there is a choice, what it minimised).
+    pub compiler: String,
+    /// `tutti` and its version.
+    pub tool: String,
+    /// How it was verified: `whole`, `window by window`, or `no`.
+    pub verified: String,
+}
+
+impl Provenance {
+    /// The fields as (key, value) pairs, in a fixed order, for the text formats.
+    pub fn fields(&self) -> [(&'static str, &str); 8] {
+        [
+            ("source", &self.source),
+            ("source_sha256", &self.source_sha256),
+            ("device", &self.device),
+            ("device_sha256", &self.device_sha256),
+            ("target", &self.target),
+            ("compiler", &self.compiler),
+            ("tool", &self.tool),
+            ("verified", &self.verified),
+        ]
+    }
+
+    /// Sets a field read back from a text format; unknown keys are ignored.
+    pub fn set(&mut self, key: &str, value: &str) {
+        let slot = match key {
+            "source" => &mut self.source,
+            "source_sha256" => &mut self.source_sha256,
+            "device" => &mut self.device,
+            "device_sha256" => &mut self.device_sha256,
+            "target" => &mut self.target,
+            "compiler" => &mut self.compiler,
+            "tool" => &mut self.tool,
+            "verified" => &mut self.verified,
+            _ => return,
+        };
+        *slot = value.to_string();
+    }
+
+    /// Reads `PREFIX key: value` lines (comment lines of a text format).
+    pub fn from_comment_lines(text: &str, prefix: &str) -> Option<Provenance> {
+        let mut p = Provenance::default();
+        let mut any = false;
+        for line in text.lines() {
+            if let Some(rest) = line.strip_prefix(prefix) {
+                if let Some((k, v)) = rest.split_once(": ") {
+                    p.set(k.trim(), v.trim_end());
+                    any = true;
+                }
+            }
+        }
+        any.then_some(p)
+    }
 }
 
 impl Sequence {
@@ -154,6 +224,7 @@ impl Sequence {
             n_ions,
             cregs,
             steps: Vec::new(),
+            provenance: None,
         }
     }
 

@@ -165,8 +165,20 @@ pub fn write_qasm(seq: &Sequence) -> String {
             NativeOp::Reset { ion } => writeln!(out, "reset q[{ion}];"),
         };
     }
+    if let Some(p) = &seq.provenance {
+        for (key, value) in p.fields() {
+            let _ = writeln!(
+                out,
+                "{PROVENANCE_PREFIX}{key}: {}",
+                super::text::one_line(value)
+            );
+        }
+    }
     out
 }
+
+/// Provenance lines of the QASM output start with this (comments to any reader).
+pub const PROVENANCE_PREFIX: &str = "// provenance ";
 
 /// Recovers the sequence from a file [`write_qasm`] wrote, without expanding any
 /// gate. Returns `None` when the text is not exactly such a file: the header (every
@@ -215,6 +227,7 @@ pub fn read_qasm_sequence(text: &str) -> Option<Sequence> {
     }
     let mut seq = Sequence {
         n_ions: n,
+        provenance: super::Provenance::from_comment_lines(text, PROVENANCE_PREFIX),
         ..Sequence::default()
     };
     let mut hidden = vec![false; n as usize];

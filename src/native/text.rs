@@ -67,6 +67,14 @@ fn condition_text(seq: &Sequence, c: &Condition) -> String {
     format!("if {}=={} ", seq.cregs[c.creg as usize].name, c.value)
 }
 
+/// Provenance lines of the pulse list start with this (comments to any reader).
+pub const PROVENANCE_PREFIX: &str = "# provenance ";
+
+/// A value on one line: line breaks become spaces.
+pub fn one_line(value: &str) -> String {
+    value.replace(['\n', '\r'], " ")
+}
+
 /// The pulse list of a sequence.
 pub fn write_pulses(seq: &Sequence) -> String {
     let mut out = String::new();
@@ -74,6 +82,11 @@ pub fn write_pulses(seq: &Sequence) -> String {
         out,
         "# tutti pulse list: one native operation per line, angles in radians"
     );
+    if let Some(p) = &seq.provenance {
+        for (key, value) in p.fields() {
+            let _ = writeln!(out, "{PROVENANCE_PREFIX}{key}: {}", one_line(value));
+        }
+    }
     let _ = writeln!(out, "ions {}", seq.n_ions);
     for r in &seq.cregs {
         let _ = writeln!(out, "creg {}[{}]", r.name, r.size);
@@ -170,6 +183,7 @@ pub fn read_pulses(name: &str, text: &str) -> SeqOutcome {
         );
     }
     let ok = diags.is_empty();
+    seq.provenance = super::Provenance::from_comment_lines(text, PROVENANCE_PREFIX);
     SeqOutcome {
         sequence: ok.then_some(seq),
         diagnostics: diags,
@@ -535,6 +549,9 @@ struct JsonBits {
 struct JsonSequence {
     /// The version of this shape; its presence marks a tutti sequence.
     tutti_sequence: u32,
+    /// Where the sequence came from (docs/formats.md); ignored by every check.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    provenance: Option<super::Provenance>,
     ions: u32,
     #[serde(default)]
     bits: Vec<JsonBits>,
@@ -548,6 +565,7 @@ pub const JSON_VERSION: u32 = 2;
 pub fn write_json(seq: &Sequence) -> String {
     let j = JsonSequence {
         tutti_sequence: JSON_VERSION,
+        provenance: seq.provenance.clone(),
         ions: seq.n_ions,
         bits: seq
             .cregs
@@ -607,6 +625,7 @@ pub fn read_json(name: &str, text: &str) -> SeqOutcome {
         );
     }
     let mut seq = Sequence::new(j.ions, vec![]);
+    seq.provenance = j.provenance;
     for r in j.bits {
         let offset = seq.n_clbits();
         seq.cregs.push(Register {

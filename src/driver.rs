@@ -12,8 +12,8 @@ use crate::qasm::{self, Limits};
 use crate::report::budget::{budget, Budget};
 use crate::sim::program::{circuit_check_bytes, sequence_check_bytes};
 use crate::sim::{
-    check, check_windows, sync_points_from_origin, CheckConfig, CheckError, Program, Verdict,
-    WindowVerdict,
+    check, check_windows_counted, sync_points_from_origin, CheckConfig, CheckError, Program,
+    Verdict, WindowVerdict, WorkCounter,
 };
 use std::path::Path;
 
@@ -411,6 +411,18 @@ pub fn compile_with(
     cfg: &CompileConfig,
     on_stage: &mut dyn FnMut(Stage),
 ) -> Result<Compiled, DriverError> {
+    compile_counted(c, profile, cfg, on_stage, &WorkCounter::default())
+}
+
+/// [`compile_with`], also counting the windows of a window-by-window verification
+/// in `counter` (which another thread may read to show progress).
+pub fn compile_counted(
+    c: &Circuit,
+    profile: &Profile,
+    cfg: &CompileConfig,
+    on_stage: &mut dyn FnMut(Stage),
+    counter: &WorkCounter,
+) -> Result<Compiled, DriverError> {
     on_stage(Stage::Compile);
     let (sequence, origin) = compile_baseline_bounded(c, profile, cfg.target, cfg.max_steps)?;
     let verification = if cfg.verify {
@@ -443,7 +455,7 @@ pub fn compile_with(
             Err(CheckError::TooLarge { .. } | CheckError::TooSlow { .. }) => {
                 on_stage(Stage::VerifyWindows);
                 let sync = sync_points_from_origin(&origin, c.instrs.len())?;
-                let b = check_windows(c, &sequence, &sync, &cfg.check)?;
+                let b = check_windows_counted(c, &sequence, &sync, &cfg.check, counter)?;
                 if !b.equivalent {
                     return Err(DriverError::NotEquivalent(b.detail));
                 }

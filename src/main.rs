@@ -494,8 +494,19 @@ fn compile_one(
         max_steps,
         ..CompileConfig::default()
     };
-    let compiled = driver::compile_with(&circuit, &profile, &cfg, &mut |stage| {
-        progress.stage(stage.describe())
+    let counter = tutti::sim::WorkCounter::default();
+    let finished = std::sync::atomic::AtomicBool::new(false);
+    let compiled = std::thread::scope(|scope| {
+        scope.spawn(|| progress.follow(&counter, &finished));
+        let compiled = driver::compile_counted(
+            &circuit,
+            &profile,
+            &cfg,
+            &mut |stage| progress.stage(stage.describe()),
+            &counter,
+        );
+        finished.store(true, std::sync::atomic::Ordering::Relaxed);
+        compiled
     });
     progress.clear();
     let compiled = compiled.map_err(|e| Failure {
@@ -524,6 +535,31 @@ impl Progress {
 
     fn stage(&self, what: &str) {
         self.0.set_message(what.to_string());
+    }
+
+    /// Until `finished`, shows the windows `counter` reports done as a bar with the
+    /// fraction and the time left (once there are windows to count).
+    fn follow(&self, counter: &tutti::sim::WorkCounter, finished: &std::sync::atomic::AtomicBool) {
+        use std::sync::atomic::Ordering;
+        let mut shown_total = 0;
+        while !finished.load(Ordering::Relaxed) {
+            std::thread::sleep(std::time::Duration::from_millis(100));
+            let total = counter.total.load(Ordering::Relaxed);
+            if total == 0 {
+                continue;
+            }
+            if total != shown_total {
+                let style = indicatif::ProgressStyle::with_template(
+                    "{prefix}: {msg} [{bar:30}] {pos}/{len} windows, {percent}%, {eta} left",
+                )
+                .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar());
+                self.0.set_style(style);
+                self.0.set_length(total as u64);
+                shown_total = total;
+            }
+            self.0
+                .set_position(counter.done.load(Ordering::Relaxed) as u64);
+        }
     }
 
     fn clear(&self) {

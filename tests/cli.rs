@@ -707,3 +707,25 @@ fn provenance_is_in_every_format_round_trips_and_never_changes_a_verdict() {
         assert_eq!(code, 0, "{ext}: {out}");
     }
 }
+
+// Progress is drawn only on a terminal: through a pipe, a long window-by-window
+// verification prints its verdict and no bar.
+#[test]
+fn no_progress_bar_on_a_pipe() {
+    let out = scratch("adder28.pulses");
+    let (code, _, err) = tutti(&[
+        "compile",
+        "tests/data/qasmbench/large/adder_n28/adder_n28.qasm",
+        "--target",
+        "addressed",
+        "-o",
+        out.to_str().unwrap(),
+        "--force",
+    ]);
+    assert_eq!(code, 0, "{err}");
+    assert!(err.contains("window by window"), "{err}");
+    assert!(
+        !err.contains('%') && !err.contains('\r') && !err.contains('\u{1b}'),
+        "{err}"
+    );
+}

@@ -22,7 +22,10 @@ mod prepass;
 mod windowed;
 
 pub use modes::{derived_tolerance, random_tolerance, ROUNDING_PER_TOUCH, TOLERANCE_FLOOR};
-pub use windowed::{check_windows, sync_points_from_origin, SyncPoint, WindowVerdict};
+pub use windowed::{
+    check_windows, check_windows_counted, sync_points_from_origin, SyncPoint, WindowVerdict,
+    WorkCounter,
+};
 
 use crate::sim::program::{LowerError, Program};
 use cuts::{match_cuts, segments};

@@ -78,6 +78,14 @@ pub fn sync_points_from_origin(
     Ok(out)
 }
 
+/// How far a long verification has got, for a progress display: windows done of
+/// windows in all. Shared between threads; `total` is set when the work starts.
+#[derive(Debug, Default)]
+pub struct WorkCounter {
+    pub done: std::sync::atomic::AtomicUsize,
+    pub total: std::sync::atomic::AtomicUsize,
+}
+
 /// One window's result, small enough to keep a million of.
 struct Outcome {
     equivalent: bool,
@@ -98,6 +106,18 @@ pub fn check_windows(
     sync: &[SyncPoint],
     cfg: &CheckConfig,
 ) -> Result<WindowVerdict, CheckError> {
+    check_windows_counted(circuit, seq, sync, cfg, &WorkCounter::default())
+}
+
+/// [`check_windows`], counting the windows done in `counter`.
+pub fn check_windows_counted(
+    circuit: &Circuit,
+    seq: &Sequence,
+    sync: &[SyncPoint],
+    cfg: &CheckConfig,
+    counter: &WorkCounter,
+) -> Result<WindowVerdict, CheckError> {
+    use std::sync::atomic::Ordering;
     let last = sync.last().copied().unwrap_or(SyncPoint {
         instrs: 0,
         steps: 0,
@@ -142,6 +162,8 @@ pub fn check_windows(
         }
     }
     let n_windows = bounds.len() - 1;
+    counter.done.store(0, Ordering::Relaxed);
+    counter.total.store(n_windows, Ordering::Relaxed);
     let outcomes: Vec<Result<Outcome, CheckError>> = (0..n_windows)
         .into_par_iter()
         .with_min_len(64)
@@ -158,6 +180,7 @@ pub fn check_windows(
                 b.faults.extend(still_hidden(&hidden));
             }
             let v = check(&a, &b, cfg)?;
+            counter.done.fetch_add(1, Ordering::Relaxed);
             let place = if to.instrs == from.instrs + 1 {
                 format!("instruction {}", to.instrs)
             } else {

@@ -34,13 +34,13 @@ fn main() {
                 Ok(c) => {
                     let b = c.budget;
                     println!(
-                        "| {} | {} | {} | {} | {} | {:.2} | {} | {} | {:.0} | {:.3} |",
+                        "| {} | {} | {} | {} | {} | {} | {} | {} | {:.0} | {:.3} |",
                         path.file_stem().unwrap().to_string_lossy(),
                         s.qubits,
                         s.two_qubit_ops + s.multi_qubit_ops,
                         target.name(),
                         b.ms_pulses,
-                        b.ms_area,
+                        tutti::report::fixed(b.ms_area, 2),
                         b.collective_pulses,
                         b.light_shifts,
                         b.duration_us,

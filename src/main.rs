@@ -431,7 +431,14 @@ fn run(cli: Cli) -> Result<ExitCode, Failure> {
                 ..defaults
             };
             progress.stage("comparing");
-            let verdict = tutti::sim::check(&pa, &pb, &cfg);
+            let counter = tutti::sim::WorkCounter::default();
+            let finished = std::sync::atomic::AtomicBool::new(false);
+            let verdict = std::thread::scope(|scope| {
+                scope.spawn(|| progress.follow(&counter, &finished, "operations"));
+                let verdict = tutti::sim::check_counted(&pa, &pb, &cfg, &counter);
+                finished.store(true, std::sync::atomic::Ordering::Relaxed);
+                verdict
+            });
             progress.clear();
             let verdict = verdict.map_err(|e| format!("error: {e}"))?;
             if json {
@@ -497,7 +504,7 @@ fn compile_one(
     let counter = tutti::sim::WorkCounter::default();
     let finished = std::sync::atomic::AtomicBool::new(false);
     let compiled = std::thread::scope(|scope| {
-        scope.spawn(|| progress.follow(&counter, &finished));
+        scope.spawn(|| progress.follow(&counter, &finished, "windows"));
         let compiled = driver::compile_counted(
             &circuit,
             &profile,
@@ -537,9 +544,14 @@ impl Progress {
         self.0.set_message(what.to_string());
     }
 
-    /// Until `finished`, shows the windows `counter` reports done as a bar with the
-    /// fraction and the time left (once there are windows to count).
-    fn follow(&self, counter: &tutti::sim::WorkCounter, finished: &std::sync::atomic::AtomicBool) {
+    /// Until `finished`, shows the work `counter` reports done (in `unit`s) as a bar
+    /// with the fraction and the time left, once there is work to count.
+    fn follow(
+        &self,
+        counter: &tutti::sim::WorkCounter,
+        finished: &std::sync::atomic::AtomicBool,
+        unit: &str,
+    ) {
         use std::sync::atomic::Ordering;
         let mut shown_total = 0;
         while !finished.load(Ordering::Relaxed) {
@@ -549,10 +561,11 @@ impl Progress {
                 continue;
             }
             if total != shown_total {
-                let style = indicatif::ProgressStyle::with_template(
-                    "{prefix}: {msg} [{bar:30}] {pos}/{len} windows, {percent}%, {eta} left",
-                )
-                .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar());
+                let template = format!(
+                    "{{prefix}}: {{msg}} [{{bar:30}}] {{pos}}/{{len}} {unit}, {{percent}}%, {{eta}} left"
+                );
+                let style = indicatif::ProgressStyle::with_template(&template)
+                    .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar());
                 self.0.set_style(style);
                 self.0.set_length(total as u64);
                 shown_total = total;

@@ -72,3 +72,14 @@ fn the_demo_numbers_are_plausible_against_facts_of_the_trade() {
     // (Kreuter et al., PRA 71, 032504, 2005; value from memory).
     assert!(p.coherence.t1_us <= 1.17e6);
 }
+
+// Bug: ms_area printed 9.063 on one target and 9.062 on the other for the same
+// 9.0625 (two float sums of the same areas).
+#[test]
+fn one_value_prints_the_same_whatever_sum_produced_it() {
+    let a = 9.0625 + 1e-13;
+    let b = 9.0625 - 1e-13;
+    assert_ne!(format!("{a:.3}"), format!("{b:.3}"));
+    assert_eq!(tutti::report::fixed(a, 3), tutti::report::fixed(b, 3));
+    assert_eq!(tutti::report::fixed(0.1 + 0.2, 2), "0.30");
+}

@@ -45,6 +45,14 @@ pub fn sequence_table(name: &str, s: &crate::native::SequenceSummary) -> String 
     out
 }
 
+/// `x` with `places` decimals, after rounding away the last bits of f64 noise, so
+/// that one value computed by two different sums prints the same (9.0625 was 9.063
+/// on one target and 9.062 on the other).
+pub fn fixed(x: f64, places: usize) -> String {
+    let cleaned = (x * 1e9).round() / 1e9;
+    format!("{cleaned:.places$}")
+}
+
 /// The text `tutti check` prints.
 pub fn verdict_text(v: &Verdict) -> String {
     let mut out = String::new();
@@ -95,8 +103,8 @@ pub fn budget_table(b: &budget::Budget) -> String {
     let _ = writeln!(out, "  ms_pulses          {}", b.ms_pulses);
     let _ = writeln!(
         out,
-        "  ms_area            {:.3}  (units of pi/2)",
-        b.ms_area
+        "  ms_area            {}  (units of pi/2)",
+        fixed(b.ms_area, 3)
     );
     let _ = writeln!(out, "  entangling_depth   {}", b.entangling_depth);
     let _ = writeln!(out, "  collective_pulses  {}", b.collective_pulses);

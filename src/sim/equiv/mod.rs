@@ -201,6 +201,17 @@ pub enum CheckError {
 
 /// Compares two programs. See the module documentation for the modes.
 pub fn check(a: &Program, b: &Program, cfg: &CheckConfig) -> Result<Verdict, CheckError> {
+    check_counted(a, b, cfg, &WorkCounter::default())
+}
+
+/// [`check`], counting in `counter` the operations simulated (state and unitary
+/// comparisons; `total` grows as each segment starts), for a progress display.
+pub fn check_counted(
+    a: &Program,
+    b: &Program,
+    cfg: &CheckConfig,
+    counter: &WorkCounter,
+) -> Result<Verdict, CheckError> {
     let n = a.n_qubits.max(b.n_qubits);
     let (sa, sb) = (segments(a), segments(b));
     let mut verdict = Verdict::start(a.n_qubits, b.n_qubits, sa.len().div_ceil(2));
@@ -219,7 +230,7 @@ pub fn check(a: &Program, b: &Program, cfg: &CheckConfig) -> Result<Verdict, Che
     for (k, &(cut, p, q)) in matched.bodies.iter().enumerate() {
         let diagonal = (cfg.up_to_final_diagonal && matched.before_final == Some(k))
             .then_some(matched.measured.as_slice());
-        let r = compare(p, q, n, cfg, diagonal)?;
+        let r = compare(p, q, n, cfg, diagonal, counter)?;
         any |= !p.is_empty() || !q.is_empty();
         if r.mode.rank() >= rank {
             rank = r.mode.rank();

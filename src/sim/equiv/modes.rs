@@ -86,7 +86,9 @@ pub(super) fn compare(
     n: usize,
     cfg: &CheckConfig,
     diagonal: Option<&[usize]>,
+    counter: &super::WorkCounter,
 ) -> Result<SegResult, CheckError> {
+    use std::sync::atomic::Ordering;
     let touched = p.iter().chain(q).map(touches).sum::<usize>() + 2 * n;
     let tolerance = cfg.tolerance.unwrap_or_else(|| derived_tolerance(touched));
     let prepared = match prepare(p, q, n, diagonal.is_some(), tolerance) {
@@ -202,8 +204,13 @@ pub(super) fn compare(
     let oom = |_| too_large(n, needed, cfg.memory_budget);
     if use_unitary {
         let dim = 1usize << n;
+        counter
+            .total
+            .fetch_add(p.len() + q.len(), Ordering::Relaxed);
         let ua = try_unitary(p, n).map_err(oom)?;
+        counter.done.fetch_add(p.len(), Ordering::Relaxed);
         let ub = try_unitary(q, n).map_err(oom)?;
+        counter.done.fetch_add(q.len(), Ordering::Relaxed);
         let mask: usize = diagonal.map_or(0, |m| m.iter().map(|q| 1usize << q).sum());
         // Column-major: entry (i, j) at j * dim + i; the phase is aligned per pattern
         // of the measured bits of the row (one pattern without a diagonal).
@@ -241,11 +248,21 @@ pub(super) fn compare(
     let mut worst: f64 = 0.0;
     let mut fidelity: f64 = 1.0;
     let mut phase = None;
+    counter
+        .total
+        .fetch_add((p.len() + q.len()) * cfg.trials.max(1), Ordering::Relaxed);
+    // Kernels run in chunks, each counted when done, for a progress display.
+    let run_counted = |ks: &[Kernel], s: &mut StateVector| {
+        for chunk in ks.chunks(64) {
+            run_kernels(chunk, s);
+            counter.done.fetch_add(chunk.len(), Ordering::Relaxed);
+        }
+    };
     for _ in 0..cfg.trials.max(1) {
         let mut sa = StateVector::try_haar_random(n, &mut rng).map_err(oom)?;
         let mut sb = sa.try_clone().map_err(oom)?;
-        run_kernels(p, &mut sa);
-        run_kernels(q, &mut sb);
+        run_counted(p, &mut sa);
+        run_counted(q, &mut sb);
         let phases = pattern_phases(&sa.amps, &sb.amps, sa.amps.len(), mask);
         let d = sa
             .amps

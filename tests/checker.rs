@@ -3,20 +3,11 @@
 
 mod common;
 
+use common::{program, qasm};
 use rand::{Rng, SeedableRng};
 use std::f64::consts::PI;
 use tutti::native::{NativeOp, Sequence};
 use tutti::sim::{check, CheckConfig, CheckError, Mode, Program};
-
-fn program(text: &str) -> Program {
-    let out = tutti::qasm::read_str("test.qasm", text);
-    let rendered = out.render();
-    Program::from_circuit(&out.circuit.unwrap_or_else(|| panic!("{rendered}"))).unwrap()
-}
-
-fn qasm(n: usize, body: &str) -> String {
-    format!("OPENQASM 2.0;\ninclude \"qelib1.inc\";\nqreg q[{n}];\ncreg c[{n}];\n{body}")
-}
 
 fn verdict(a: &str, b: &str, mode: Mode) -> Result<bool, CheckError> {
     let cfg = CheckConfig {

@@ -4,20 +4,13 @@
 //! (Cross, Bishop, Smolin, Gambetta, arXiv:1707.03429); a phase `delta` on one basis
 //! state moves one entry of the unitary by `|e^{i delta} - 1|`, about `delta`.
 
+mod common;
+
+use common::{program, qasm};
 use num_complex::Complex64 as C64;
 use std::f64::consts::PI;
 use tutti::native::{NativeOp, Sequence, Step};
 use tutti::sim::{check, CheckConfig, CheckError, Item, Kernel, Mode, Program};
-
-fn program(text: &str) -> Program {
-    let out = tutti::qasm::read_str("test.qasm", text);
-    let rendered = out.render();
-    Program::from_circuit(&out.circuit.unwrap_or_else(|| panic!("{rendered}"))).unwrap()
-}
-
-fn qasm(n: usize, body: &str) -> String {
-    format!("OPENQASM 2.0;\ninclude \"qelib1.inc\";\nqreg q[{n}];\ncreg c[{n}];\n{body}")
-}
 
 fn cfg(mode: Mode) -> CheckConfig {
     CheckConfig {

@@ -92,3 +92,15 @@ pub fn limits_for(text: &str) -> tutti::qasm::Limits {
     }
     limits
 }
+
+/// The checker's program of an OpenQASM 2 text that must read without error.
+pub fn program(text: &str) -> tutti::sim::Program {
+    let out = tutti::qasm::read_str("test.qasm", text);
+    let rendered = out.render();
+    tutti::sim::Program::from_circuit(&out.circuit.unwrap_or_else(|| panic!("{rendered}"))).unwrap()
+}
+
+/// A program text on `n` qubits and `n` bits with the standard library included.
+pub fn qasm(n: usize, body: &str) -> String {
+    format!("OPENQASM 2.0;\ninclude \"qelib1.inc\";\nqreg q[{n}];\ncreg c[{n}];\n{body}")
+}

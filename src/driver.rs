@@ -75,11 +75,11 @@ impl Format {
 
     /// Guesses the format of a file from its extension, then its first words.
     pub fn sniff(path: &Path, text: &str) -> Format {
-        match path.extension().and_then(|e| e.to_str()) {
-            Some("json") => return Format::Json,
-            Some("pulses") => return Format::Pulses,
-            Some("qasm") | Some("inc") => return Format::Qasm,
-            _ => {}
+        if let Some(f) = Format::from_extension(path) {
+            return f;
+        }
+        if path.extension().is_some_and(|e| e == "inc") {
+            return Format::Qasm;
         }
         let first = text
             .lines()

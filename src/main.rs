@@ -41,8 +41,8 @@ struct LimitArgs {
           value_parser = clap::value_parser!(u64).range(1..=tutti::qasm::elaborate::MAX_GATE_NESTING as u64))]
     max_gate_nesting: u64,
     /// Most diagnostics printed; the rest are counted in one line.
-    #[arg(long, default_value_t = Limits::default().max_errors)]
-    max_errors: usize,
+    #[arg(long, default_value_t = Limits::default().errors_shown)]
+    errors_shown: usize,
     /// Threads that read one large file together (0: one per core). The result is
     /// the same with any number.
     #[arg(long, default_value_t = Limits::default().max_threads)]
@@ -59,7 +59,7 @@ impl LimitArgs {
             max_file_bytes: self.max_file_bytes,
             max_include_depth: self.max_include_depth,
             max_gate_nesting: self.max_gate_nesting as usize,
-            max_errors: self.max_errors,
+            errors_shown: self.errors_shown,
             max_threads: self.read_threads,
             ..Limits::default()
         }

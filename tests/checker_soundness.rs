@@ -285,3 +285,20 @@ fn the_verdict_reports_distance_and_tolerance() {
     let v = check(&a, &b, &loose).unwrap();
     assert!(v.equivalent && v.tolerance == 1e-5, "{v:?}");
 }
+
+// The idle-qubit path: qubits that no interaction touches are split off and
+// compared one by one (and a shorter program is padded with idle qubits). A
+// rotation of 1e-10 on a padded, idle qubit is just above the rounding floor and
+// must be caught; none at all must pass.
+#[test]
+fn a_tiny_rotation_on_an_idle_padded_qubit_is_caught() {
+    let body = "h q[0]; cx q[0],q[1]; t q[1];";
+    let a = program(&qasm(2, body));
+    for mode in MODES {
+        let b = program(&qasm(4, &format!("{body} rz(1e-10) q[3];")));
+        let v = check(&a, &b, &cfg(mode)).unwrap();
+        assert!(!v.equivalent && v.padding.is_some(), "{mode:?}: {v:?}");
+        let same = program(&qasm(4, &format!("{body} rz(0) q[3];")));
+        assert!(equal(&a, &same, mode), "{mode:?}");
+    }
+}

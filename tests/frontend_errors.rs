@@ -52,7 +52,7 @@ fn printed_errors_are_capped_with_a_count_of_the_rest() {
         text.push_str(&format!("cx q[0],q[{}];\n", 2 + i));
     }
     let limits = Limits {
-        max_errors: 7,
+        errors_shown: 7,
         ..Limits::default()
     };
     let out = read(&text, &limits);

@@ -452,8 +452,8 @@ struct JsonWhen {
 }
 
 /// One step of the `program` list: the operation's one name under `op` (the
-/// names of [`names`]; `rename` keeps each tag equal to its constant, checked by
-/// `json_tags_are_the_one_names`), its ions, angles and bit.
+/// names of [`names`]; each `rename` must equal its constant, which
+/// tests/native_formats.rs checks on the written JSON), its ions, angles and bit.
 #[derive(serde::Serialize, serde::Deserialize)]
 #[serde(tag = "op")]
 enum JsonOp {
@@ -721,47 +721,4 @@ fn line_offset(text: &str, line: usize, column: usize) -> usize {
         .map(str::len)
         .sum();
     (start + column.saturating_sub(1)).min(text.len().saturating_sub(1))
-}
-
-#[cfg(test)]
-mod tests {
-    use super::*;
-
-    /// Each JSON tag is the operation's one name: a sequence with every operation,
-    /// written, carries each name of [`names::ALL`] as an `op` value.
-    #[test]
-    fn json_tags_are_the_one_names() {
-        let ops = [
-            NativeOp::Collective {
-                theta: 0.1,
-                phi: 0.2,
-            },
-            NativeOp::LightShift { ion: 0, theta: 0.3 },
-            NativeOp::Ms {
-                theta: 0.4,
-                phi: 0.0,
-            },
-            NativeOp::PairMs {
-                a: 0,
-                b: 1,
-                theta: 0.5,
-                phi: 0.0,
-            },
-            NativeOp::Addressed {
-                ion: 1,
-                theta: 0.6,
-                phi: 0.7,
-            },
-            NativeOp::VirtualZ { theta: 0.8 },
-            NativeOp::Hide { ion: 1 },
-            NativeOp::Unhide { ion: 1 },
-            NativeOp::Measure { ion: 0, clbit: 0 },
-            NativeOp::Reset { ion: 0 },
-        ];
-        for (op, name) in ops.iter().zip(names::ALL) {
-            assert_eq!(op.name(), name);
-            let v = serde_json::to_value(JsonOp::from(*op)).unwrap();
-            assert_eq!(v["op"], name);
-        }
-    }
 }

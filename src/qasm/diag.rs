@@ -229,7 +229,7 @@ pub fn render_limited(diags: &[Diagnostic], sources: &SourceMap, max_shown: usiz
         let errors = rest.iter().filter(|d| d.is_error()).count();
         let warnings = rest.len() - errors;
         out.push_str(&format!(
-            "... and {errors} more error(s) and {warnings} more warning(s) not shown (--max-errors sets how many are shown)\n"
+            "... and {errors} more error(s) and {warnings} more warning(s) not shown (--errors-shown sets how many are shown)\n"
         ));
     }
     out

@@ -39,7 +39,7 @@ pub fn read_file(path: &Path, limits: &Limits) -> ReadOutcome {
                 diagnostics: vec![d],
                 sources,
                 chunks_ahead: 0,
-                max_shown: limits.max_errors,
+                max_shown: limits.errors_shown,
             };
         }
         _ => {}
@@ -63,7 +63,7 @@ pub fn read_file(path: &Path, limits: &Limits) -> ReadOutcome {
                 diagnostics: vec![d],
                 sources,
                 chunks_ahead: 0,
-                max_shown: limits.max_errors,
+                max_shown: limits.errors_shown,
             }
         }
     }

@@ -31,7 +31,7 @@ fn mask_of(qubits: &[usize]) -> usize {
 /// Panics when the kernel names a qubit the state does not have (the state's
 /// kernels check their own arguments; this covers the masks built here).
 pub fn apply_kernel(s: &mut StateVector, k: &Kernel) {
-    if let Some(q) = k.qubits().into_iter().find(|&q| q >= s.n) {
+    if let Some(q) = k.max_qubit().filter(|&q| q >= s.n) {
         panic!("{k} names qubit {q}, but the state has {} qubits", s.n);
     }
     match k {

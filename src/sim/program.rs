@@ -147,6 +147,22 @@ impl Kernel {
         }
     }
 
+    /// The highest qubit this kernel touches, without allocating (`None` for an
+    /// empty list): the check that runs before every kernel is applied.
+    pub fn max_qubit(&self) -> Option<usize> {
+        match self {
+            Kernel::One { q, .. } => Some(*q),
+            Kernel::Controlled {
+                controls, target, ..
+            } => controls.iter().copied().chain([*target]).max(),
+            Kernel::Swap { a, b } => Some(*a.max(b)),
+            Kernel::Ising { terms, .. } => terms.iter().map(|t| t.0.max(t.1)).max(),
+            Kernel::Ms { qubits, .. }
+            | Kernel::Collective { qubits, .. }
+            | Kernel::Dense { qubits, .. } => qubits.iter().copied().max(),
+        }
+    }
+
     /// The qubits this kernel touches.
     pub fn qubits(&self) -> Vec<usize> {
         match self {

@@ -276,9 +276,12 @@ impl StateVector {
 
     /// A 2x2 on `target` where every qubit of `controls` is 1. One pass.
     pub fn apply_controlled(&mut self, controls: &[usize], target: usize, m: &Mat2) {
-        let mut all = controls.to_vec();
-        all.push(target);
-        self.check_qubits("apply_controlled", &all);
+        self.check_qubits("apply_controlled", controls);
+        self.check_qubits("apply_controlled", &[target]);
+        assert!(
+            !controls.contains(&target),
+            "apply_controlled: qubit {target} is both a control and the target"
+        );
         let cmask: usize = controls.iter().map(|c| 1usize << c).sum();
         let half = 1usize << target;
         let apply = |base: usize, lo: &mut [C64], hi: &mut [C64]| {

@@ -33,7 +33,7 @@ pub struct Limits {
     pub max_file_bytes: usize,
     pub max_gate_nesting: usize,
     /// Most diagnostics shown; the rest are counted.
-    pub max_errors: usize,
+    pub errors_shown: usize,
     /// Threads that read one large file together; 0 means one per core.
     pub max_threads: usize,
     /// A file is cut into chunks read in parallel only when each chunk gets at least
@@ -51,7 +51,7 @@ impl Default for Limits {
             max_clbits: 1 << 16,
             max_file_bytes: 256 << 20,
             max_gate_nesting: 64,
-            max_errors: 20,
+            errors_shown: 20,
             max_threads: 0,
             min_chunk_bytes: 2 << 20,
         }
@@ -106,7 +106,7 @@ pub struct ReadOutcome {
     /// Chunks of the main file that were read ahead on other threads and used (see
     /// [`Limits::max_threads`]); 0 when it was read on one thread.
     pub chunks_ahead: usize,
-    /// Most diagnostics [`ReadOutcome::render`] shows ([`Limits::max_errors`]).
+    /// Most diagnostics [`ReadOutcome::render`] shows ([`Limits::errors_shown`]).
     pub max_shown: usize,
 }
 
@@ -170,7 +170,7 @@ pub fn read_with(name: &str, text: &str, limits: &Limits, loader: &dyn Loader) -
         diagnostics,
         sources,
         chunks_ahead: e.chunks_ahead,
-        max_shown: limits.max_errors,
+        max_shown: limits.errors_shown,
     }
 }
 

@@ -88,10 +88,10 @@ impl From<ModeArg> for Mode {
 
 #[derive(Subcommand)]
 enum Command {
-    /// Read an OpenQASM 2 file and show what it contains: qubits, bits, operations by
-    /// gate, two-qubit gates and depth.
+    /// Show what a file holds: a circuit's qubits, bits, operations by gate,
+    /// two-qubit gates and depth, or a sequence's ions, bits and steps by operation.
     Inspect {
-        /// The OpenQASM 2 file to read.
+        /// An OpenQASM 2 circuit, or a sequence tutti wrote (pulse list, JSON, QASM).
         file: PathBuf,
         /// Print one JSON object instead of a table.
         #[arg(long)]
@@ -142,9 +142,10 @@ enum Command {
         #[command(flatten)]
         limits: LimitArgs,
     },
-    /// Print what a circuit will cost on a device, without running anything.
+    /// Print what a circuit (as compiled) or a sequence (as written) will cost on a
+    /// device, without running anything.
     Budget {
-        /// The OpenQASM 2 circuit to budget.
+        /// An OpenQASM 2 circuit, or a sequence tutti wrote (pulse list, JSON, QASM).
         file: PathBuf,
         /// Device profile: `demo` (embedded, invented example numbers) or a TOML file.
         #[arg(long, default_value = "demo")]

@@ -2,6 +2,7 @@
 //! then per-target synthesis.
 
 pub mod baseline;
+pub mod couple;
 pub mod hadamard;
 pub mod lower;
 

@@ -3,6 +3,8 @@
 //! touches the file system.
 
 use crate::circuit::Circuit;
+use crate::sim::SyncPoint;
+use crate::compile::optimize::{compile_optimized, BlockReport, Objective, OptConfig};
 use crate::compile::{compile_baseline_bounded, CompileError, Target, DEFAULT_MAX_STEPS};
 use crate::native::profile::Profile;
 use crate::native::qasm_out::{read_qasm_sequence, write_qasm};
@@ -274,8 +276,10 @@ pub fn load_program(
 #[derive(Debug, Clone, Copy)]
 pub struct CompileConfig {
     pub target: Target,
-    /// Use the baseline compiler (today the only one).
+    /// Use the baseline compiler instead of the optimizer.
     pub baseline: bool,
+    /// What the optimizer minimises.
+    pub objective: Objective,
     /// Check the output against the input.
     pub verify: bool,
     pub check: CheckConfig,
@@ -293,7 +297,8 @@ impl Default for CompileConfig {
     fn default() -> CompileConfig {
         CompileConfig {
             target: Target::Collective,
-            baseline: true,
+            baseline: false,
+            objective: Objective::default(),
             verify: true,
             max_steps: DEFAULT_MAX_STEPS,
             check: CheckConfig {
@@ -345,6 +350,8 @@ pub fn fmt_distance(d: Option<f64>) -> String {
 
 pub struct Compiled {
     pub sequence: Sequence,
+    /// What each block of the optimizer cost (empty for the baseline).
+    pub blocks: Vec<BlockReport>,
     pub budget: Budget,
     /// `None` when verification was switched off.
     pub verification: Option<Verification>,
@@ -394,6 +401,48 @@ impl Stage {
     }
 }
 
+/// Most qubits one range of the optimizer may touch when the output is to be
+/// verified window by window (each window is then compared on at most this many
+/// qubits of the circuit).
+pub const WINDOW_QUBITS: usize = 8;
+
+/// The compiler a configuration runs, as provenance and messages name it:
+/// `baseline`, or `optimizer (objective NAME)`.
+pub fn compiler_name(cfg: &CompileConfig) -> String {
+    if cfg.baseline {
+        "baseline".into()
+    } else {
+        format!("optimizer (objective {})", cfg.objective.name())
+    }
+}
+
+/// One compile with the chosen compiler: the sequence, its sync points, and the
+/// optimizer's block reports.
+fn compile_one(
+    c: &Circuit,
+    profile: &Profile,
+    cfg: &CompileConfig,
+    window_qubits: Option<usize>,
+) -> Result<(Sequence, Vec<SyncPoint>, Vec<BlockReport>), DriverError> {
+    if cfg.baseline {
+        let (sequence, origin) = compile_baseline_bounded(c, profile, cfg.target, cfg.max_steps)?;
+        let sync = sync_points_from_origin(&origin, c.instrs.len())?;
+        return Ok((sequence, sync, Vec::new()));
+    }
+    let o = compile_optimized(
+        c,
+        profile,
+        &OptConfig {
+            target: cfg.target,
+            objective: cfg.objective,
+            max_steps: cfg.max_steps,
+            window_qubits,
+            ..OptConfig::default()
+        },
+    )?;
+    Ok((o.sequence, o.sync, o.blocks))
+}
+
 /// Compiles, verifies (unless switched off) and budgets one circuit. A failed
 /// verification is an error, never a silent success.
 pub fn compile(
@@ -424,7 +473,7 @@ pub fn compile_counted(
     counter: &WorkCounter,
 ) -> Result<Compiled, DriverError> {
     on_stage(Stage::Compile);
-    let (sequence, origin) = compile_baseline_bounded(c, profile, cfg.target, cfg.max_steps)?;
+    let (mut sequence, mut sync, mut blocks) = compile_one(c, profile, cfg, None)?;
     let verification = if cfg.verify {
         let whole_bytes = sequence_check_bytes(sequence.steps.len(), sequence.n_ions as usize)
             .saturating_add(circuit_check_bytes(c.instrs.len()));
@@ -453,8 +502,12 @@ pub fn compile_counted(
                 )))
             }
             Err(CheckError::TooLarge { .. } | CheckError::TooSlow { .. }) => {
+                if !cfg.baseline {
+                    // Recompile in ranges of few qubits, so that every window is small.
+                    on_stage(Stage::Compile);
+                    (sequence, sync, blocks) = compile_one(c, profile, cfg, Some(WINDOW_QUBITS))?;
+                }
                 on_stage(Stage::VerifyWindows);
-                let sync = sync_points_from_origin(&origin, c.instrs.len())?;
                 let b = check_windows_counted(c, &sequence, &sync, &cfg.check, counter)?;
                 if !b.equivalent {
                     return Err(DriverError::NotEquivalent(b.detail));
@@ -472,6 +525,7 @@ pub fn compile_counted(
         sequence,
         budget,
         verification,
+        blocks,
     })
 }
 
@@ -621,6 +675,7 @@ pub fn provenance(
     source: &Path,
     device_spec: &str,
     target: Target,
+    compiler: &str,
     verification: Option<&Verification>,
 ) -> crate::native::Provenance {
     let hash_of = |bytes: std::io::Result<Vec<u8>>| {
@@ -643,7 +698,7 @@ pub fn provenance(
         device,
         device_sha256,
         target: target.name().into(),
-        compiler: "baseline".into(),
+        compiler: compiler.into(),
         tool: format!("tutti {}", env!("CARGO_PKG_VERSION")),
         verified: match verification {
             Some(Verification::Whole(_)) => "whole".into(),

@@ -2,9 +2,10 @@
 //! with 0 on success, 1 when a check finds programs not equivalent (or some files
 //! failed), 2 on usage or input errors.
 
-use clap::{Args, Parser, Subcommand};
+use clap::{Args, Parser, Subcommand, ValueEnum};
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
+use tutti::compile::optimize::Objective;
 use tutti::compile::Target;
 use tutti::driver::{self, CompileConfig, Format};
 use tutti::qasm::Limits;
@@ -125,6 +126,10 @@ enum Command {
         /// Compile every two-qubit gate on its own (the reference compiler).
         #[arg(long)]
         baseline: bool,
+        /// What the optimizer minimises when it chooses how to make each block:
+        /// MS pulses, MS area, duration or expected error (from the profile).
+        #[arg(long, value_enum, default_value_t = ObjectiveArg::Duration)]
+        objective: ObjectiveArg,
         /// Skip the check of the output against the input.
         #[arg(long)]
         no_verify: bool,
@@ -158,6 +163,10 @@ enum Command {
         /// Budget what the reference compiler makes (every two-qubit gate on its own).
         #[arg(long)]
         baseline: bool,
+        /// What the optimizer minimises when it chooses how to make each block:
+        /// MS pulses, MS area, duration or expected error (from the profile).
+        #[arg(long, value_enum, default_value_t = ObjectiveArg::Duration)]
+        objective: ObjectiveArg,
         /// Print one JSON object.
         #[arg(long)]
         json: bool,
@@ -318,6 +327,7 @@ fn run(cli: Cli) -> Result<ExitCode, Failure> {
             target,
             format,
             baseline,
+            objective,
             no_verify,
             force,
             max_pulses,
@@ -325,14 +335,21 @@ fn run(cli: Cli) -> Result<ExitCode, Failure> {
             limits,
         } => {
             let limits = limits.limits();
-            let (_, mut compiled) = compile_one(
-                &file, &device, ions, target, !no_verify, max_pulses, &limits,
-            )?;
+            let cfg = CompileConfig {
+                target,
+                baseline,
+                objective: objective.into(),
+                verify: !no_verify,
+                max_steps: max_pulses,
+                ..CompileConfig::default()
+            };
+            let (_, mut compiled) = compile_one(&file, &device, ions, &cfg, &limits)?;
             let format = driver::Format::for_output(format, output.as_deref())?;
             compiled.sequence.provenance = Some(driver::provenance(
                 &file,
                 &device,
                 target,
+                &driver::compiler_name(&cfg),
                 compiled.verification.as_ref(),
             ));
             let text = format.render(&compiled.sequence);
@@ -340,7 +357,7 @@ fn run(cli: Cli) -> Result<ExitCode, Failure> {
                 Some(path) => driver::write_output(path, &text, &file, force)?,
                 None => print!("{text}"),
             }
-            let compiler = compiler_name(baseline);
+            let compiler = driver::compiler_name(&cfg);
             eprintln!(
                 "compiled {} for {device} ({} target, {compiler})",
                 file.display(),
@@ -361,6 +378,7 @@ fn run(cli: Cli) -> Result<ExitCode, Failure> {
             device,
             target,
             baseline,
+            objective,
             json,
             max_pulses,
             ions,
@@ -383,9 +401,16 @@ fn run(cli: Cli) -> Result<ExitCode, Failure> {
                     (budget, "the sequence as written".to_string())
                 }
                 (driver::Loaded::Circuit(_), _) => {
-                    let (_, compiled) =
-                        compile_one(&file, &device, ions, target, false, max_pulses, &limits)?;
-                    let how = format!("{} target, {}", target.name(), compiler_name(baseline));
+                    let cfg = CompileConfig {
+                        target,
+                        baseline,
+                        objective: objective.into(),
+                        verify: false,
+                        max_steps: max_pulses,
+                        ..CompileConfig::default()
+                    };
+                    let (_, compiled) = compile_one(&file, &device, ions, &cfg, &limits)?;
+                    let how = format!("{} target, {}", target.name(), driver::compiler_name(&cfg));
                     (compiled.budget, how)
                 }
             };
@@ -459,12 +484,28 @@ fn run(cli: Cli) -> Result<ExitCode, Failure> {
     }
 }
 
-/// Which compiler ran: today always the baseline, which `--baseline` asks for.
-fn compiler_name(baseline: bool) -> &'static str {
-    if baseline {
-        "baseline"
-    } else {
-        "baseline (the optimizer is not built yet)"
+/// What the optimizer minimises (the CLI's own names for the library's
+/// [`Objective`]).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+enum ObjectiveArg {
+    /// MS pulses, then MS area.
+    Pulses,
+    /// MS area, then MS pulses.
+    Area,
+    /// Duration from the profile's timings.
+    Duration,
+    /// The budget's expected error.
+    Error,
+}
+
+impl From<ObjectiveArg> for Objective {
+    fn from(o: ObjectiveArg) -> Objective {
+        match o {
+            ObjectiveArg::Pulses => Objective::Pulses,
+            ObjectiveArg::Area => Objective::Area,
+            ObjectiveArg::Duration => Objective::Duration,
+            ObjectiveArg::Error => Objective::Error,
+        }
     }
 }
 
@@ -472,9 +513,7 @@ fn compile_one(
     file: &Path,
     device: &str,
     ions: Option<u32>,
-    target: Target,
-    verify: bool,
-    max_steps: usize,
+    cfg: &CompileConfig,
     limits: &Limits,
 ) -> Result<(tutti::circuit::Circuit, driver::Compiled), Failure> {
     let progress = Progress::start(file);
@@ -496,12 +535,6 @@ fn compile_one(
     let profile = driver::load_profile(device)
         .and_then(|p| driver::loaded_ions(p, ions))
         .map_err(|e| progress.cleared(e))?;
-    let cfg = CompileConfig {
-        target,
-        verify,
-        max_steps,
-        ..CompileConfig::default()
-    };
     let counter = tutti::sim::WorkCounter::default();
     let finished = std::sync::atomic::AtomicBool::new(false);
     let compiled = std::thread::scope(|scope| {
@@ -509,7 +542,7 @@ fn compile_one(
         let compiled = driver::compile_counted(
             &circuit,
             &profile,
-            &cfg,
+            cfg,
             &mut |stage| progress.stage(stage.describe()),
             &counter,
         );

@@ -718,8 +718,8 @@ fn columns(c: &Coupling, deadline: Instant) -> Option<Synthesis> {
             let (v, s) = price_exact(n, &y);
             (v, vec![s])
         } else {
-            let mut starts: Vec<Vec<i8>> = cols.iter().rev().take(4).cloned().collect();
-            for _ in 0..8 {
+            let mut starts: Vec<Vec<i8>> = cols.iter().rev().take(8).cloned().collect();
+            for _ in 0..24 {
                 starts.push((0..n).map(|_| if rng.gen_bool(0.5) { 1 } else { -1 }).collect());
             }
             let mut found = price_local(n, &y, &starts);
@@ -731,7 +731,7 @@ fn columns(c: &Coupling, deadline: Instant) -> Option<Synthesis> {
                     .into_iter()
                     .filter(|f| f.0 > 1.0 + 1e-9)
                     .map(|f| f.1)
-                    .take(4)
+                    .take(16)
                     .collect(),
             )
         };
@@ -744,10 +744,11 @@ fn columns(c: &Coupling, deadline: Instant) -> Option<Synthesis> {
         if g > 0.0 {
             lower_bound = lower_bound.max(dual_value / g.max(1.0));
         }
-        let fresh: Vec<Vec<i8>> = new_cols
+        let mut fresh: Vec<Vec<i8>> = new_cols
             .into_iter()
             .filter(|s| !cols.contains(s))
             .collect();
+        fresh.dedup();
         if best <= 1.0 + 1e-9 || fresh.is_empty() {
             // No improving column: the restricted optimum is the optimum (exactly
             // so with exact pricing). Artificial columns left in use mean failure.

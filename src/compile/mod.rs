@@ -5,6 +5,7 @@ pub mod baseline;
 pub mod couple;
 pub mod hadamard;
 pub mod lower;
+pub mod optimize;
 
 pub use baseline::{
     compile_baseline, compile_baseline_bounded, compile_baseline_traced, CompileError, Target,

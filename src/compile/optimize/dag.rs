@@ -1,0 +1,171 @@
+//! The canonical form of one segment as a DAG (petgraph): a node per single-qubit
+//! unitary or ZZ interaction, an edge per qubit wire from an operation to the next
+//! one on that wire. Passes are plain functions over it.
+//!
+//! Invariant: node indices increase along every edge (nodes are added in program
+//! order and passes only remove nodes or rewire around removed ones), so walking the
+//! live nodes by index is a topological order; and the product of the nodes in that
+//! order is the segment's unitary up to global phase, after every pass.
+
+use crate::circuit::Mat2;
+use crate::compile::lower::Canon;
+use num_complex::Complex64 as C64;
+use petgraph::stable_graph::{NodeIndex, StableDiGraph};
+use petgraph::Direction;
+
+/// Entries this close to zero count as zero when classifying a 2x2 unitary.
+pub const ZERO: f64 = 1e-13;
+
+/// One segment's canonical operations (no measurement, reset or condition).
+pub struct Dag {
+    pub graph: StableDiGraph<Canon, u32>,
+}
+
+impl Dag {
+    /// Builds the DAG of `ops` (each a `Local` or `Zz`).
+    pub fn new(ops: impl IntoIterator<Item = Canon>) -> Dag {
+        let mut graph = StableDiGraph::new();
+        let mut last: rustc_hash::FxHashMap<u32, NodeIndex> = Default::default();
+        for op in ops {
+            let node = graph.add_node(op);
+            for q in qubits(&op) {
+                if let Some(prev) = last.insert(q, node) {
+                    graph.add_edge(prev, node, q);
+                }
+            }
+        }
+        Dag { graph }
+    }
+
+    /// The operations in a topological order (by node index).
+    pub fn ops(&self) -> Vec<Canon> {
+        let mut idx: Vec<NodeIndex> = self.graph.node_indices().collect();
+        idx.sort_unstable();
+        idx.into_iter().map(|i| self.graph[i]).collect()
+    }
+
+    /// The next node on wire `q` after `node`.
+    fn next_on(&self, node: NodeIndex, q: u32) -> Option<NodeIndex> {
+        self.graph
+            .edges_directed(node, Direction::Outgoing)
+            .find(|e| *e.weight() == q)
+            .map(|e| petgraph::visit::EdgeRef::target(&e))
+    }
+
+    fn prev_on(&self, node: NodeIndex, q: u32) -> Option<NodeIndex> {
+        self.graph
+            .edges_directed(node, Direction::Incoming)
+            .find(|e| *e.weight() == q)
+            .map(|e| petgraph::visit::EdgeRef::source(&e))
+    }
+
+    /// Removes `node`, joining its predecessor and successor on each wire.
+    fn remove(&mut self, node: NodeIndex) {
+        let op = self.graph[node];
+        for q in qubits(&op) {
+            if let (Some(p), Some(n)) = (self.prev_on(node, q), self.next_on(node, q)) {
+                self.graph.add_edge(p, n, q);
+            }
+        }
+        self.graph.remove_node(node);
+    }
+}
+
+pub fn qubits(op: &Canon) -> smallvec::SmallVec<[u32; 2]> {
+    match *op {
+        Canon::Local { q, .. } => smallvec::smallvec![q],
+        Canon::Zz { a, b, .. } => smallvec::smallvec![a, b],
+        Canon::Measure { q, .. } | Canon::Reset { q } => smallvec::smallvec![q],
+    }
+}
+
+/// `a b` (apply `b` first).
+pub fn mul(a: &Mat2, b: &Mat2) -> Mat2 {
+    let mut o = [[C64::new(0.0, 0.0); 2]; 2];
+    for i in 0..2 {
+        for j in 0..2 {
+            o[i][j] = a[i][0] * b[0][j] + a[i][1] * b[1][j];
+        }
+    }
+    o
+}
+
+pub fn is_diagonal(m: &Mat2) -> bool {
+    m[0][1].norm() <= ZERO && m[1][0].norm() <= ZERO
+}
+
+pub fn is_antidiagonal(m: &Mat2) -> bool {
+    m[0][0].norm() <= ZERO && m[1][1].norm() <= ZERO
+}
+
+/// A multiple of the identity (a global phase), within [`ZERO`].
+pub fn is_identity(m: &Mat2) -> bool {
+    is_diagonal(m) && (m[0][0] - m[1][1]).norm() <= ZERO
+}
+
+/// Pass: each run of single-qubit unitaries on a wire becomes one, and a product
+/// that is the identity (up to phase) disappears.
+pub fn fuse_locals(dag: &mut Dag) {
+    let mut idx: Vec<NodeIndex> = dag.graph.node_indices().collect();
+    idx.sort_unstable();
+    for node in idx {
+        let Canon::Local { q, m } = dag.graph[node] else {
+            continue;
+        };
+        let next = dag.next_on(node, q);
+        match next.map(|n| dag.graph[n]) {
+            Some(Canon::Local { q: q2, m: m2 }) => {
+                debug_assert_eq!(q, q2);
+                let n = next.expect("matched");
+                dag.graph[n] = Canon::Local {
+                    q,
+                    m: mul(&m2, &m),
+                };
+                dag.remove(node);
+            }
+            _ if is_identity(&m) => dag.remove(node),
+            _ => {}
+        }
+    }
+}
+
+/// Pass: ZZ interactions of angle zero (mod 2 pi, a global phase) disappear, and one
+/// that directly follows another on the same pair (on both wires) joins it.
+pub fn merge_interactions(dag: &mut Dag) {
+    use std::f64::consts::TAU;
+    let mut idx: Vec<NodeIndex> = dag.graph.node_indices().collect();
+    idx.sort_unstable();
+    for node in idx {
+        let Canon::Zz { a, b, theta } = dag.graph[node] else {
+            continue;
+        };
+        let wrapped = theta - TAU * (theta / TAU).round();
+        if wrapped.abs() <= ZERO {
+            dag.remove(node);
+            continue;
+        }
+        let (na, nb) = (dag.next_on(node, a), dag.next_on(node, b));
+        if let (Some(x), Some(y)) = (na, nb) {
+            if x == y {
+                if let Canon::Zz { a: a2, b: b2, theta: t2 } = dag.graph[x] {
+                    dag.graph[x] = Canon::Zz {
+                        a: a2,
+                        b: b2,
+                        theta: t2 + theta,
+                    };
+                    dag.remove(node);
+                }
+            }
+        }
+    }
+}
+
+/// A pass over the DAG.
+pub type Pass = fn(&mut Dag);
+
+/// Every pass, in the order the optimizer runs them (the one list to extend).
+pub const PASSES: &[(&str, Pass)] = &[
+    ("fuse_locals", fuse_locals),
+    ("merge_interactions", merge_interactions),
+    ("fuse_locals_again", fuse_locals),
+];

@@ -1,0 +1,524 @@
+//! Per-target synthesis of a schedule into native operations, and the peephole
+//! rewrites that follow (DESIGN section 3).
+//!
+//! - Local layers: each qubit's unitary as ZYZ Euler angles `Rz(b) Ry(g) Rz(d)`; the
+//!   first Z is a light shift, the Y parts of all qubits share one collective
+//!   sandwich `R(pi/2, 0) L(g) R(-pi/2, 0)` (DESIGN fact 4), or addressed rotations
+//!   where the profile makes those cheaper; the last Z commutes with the following
+//!   ZZ blocks and is carried into the qubit's next layer.
+//! - Blocks: Z to X by collective `R(pi/2, pi/2)` and back; the coupling by sign
+//!   vectors (module `couple`), with idle ions decoupled by DESIGN fact 9, or by
+//!   the layer construction of fact 7; on the addressed target also by pair MS
+//!   pulses, or by hiding the idle ions around global pulses. The candidate the
+//!   objective prefers, costed by the budget model, is taken.
+//! - Peephole: adjacent collective rotations become one (with a free frame change),
+//!   and each run of light shifts and frame changes is rewritten with the common
+//!   frame phase that leaves the fewest light shifts.
+//!
+//! Invariant: the emitted operations equal the schedule's product up to global
+//! phase, with every ion the schedule does not use left as it was.
+
+use super::schedule::Schedule;
+use super::Objective;
+use crate::circuit::{Condition, Mat2};
+use crate::compile::couple::{
+    hadamard_each, matching, order_pulses, pad_idle, synthesize, Budget as SynthBudget,
+    Coupling, Method, Pulse, Synthesis,
+};
+use crate::compile::lower::zyz;
+use crate::compile::Target;
+use crate::native::profile::Profile;
+use crate::native::{NativeOp, Sequence, Step};
+use crate::report::budget::budget;
+use rustc_hash::FxHashMap;
+use std::f64::consts::{FRAC_PI_2, PI, TAU};
+use std::sync::Arc;
+
+/// Angles this close to zero (mod 2 pi where that is a global phase) are left out.
+const EPS: f64 = 1e-14;
+
+/// Wraps into (-pi, pi].
+pub fn wrap(theta: f64) -> f64 {
+    let t = theta - TAU * (theta / TAU).round();
+    if t <= -PI {
+        t + TAU
+    } else {
+        t
+    }
+}
+
+/// What one block cost, for the compile report.
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
+pub struct BlockReport {
+    /// Ions the block couples.
+    pub ions: usize,
+    pub couplings: usize,
+    /// The area the chosen pulses spend, in units of pi/2.
+    pub area: f64,
+    /// The smallest area the coupling program allows (its certified lower bound), in
+    /// units of pi/2; 0 when unknown.
+    pub lower_bound: f64,
+    pub method: Method,
+    pub pulses: usize,
+}
+
+/// Settings and caches shared by every segment of one compile.
+pub struct Emitter<'a> {
+    pub profile: &'a Profile,
+    pub target: Target,
+    pub objective: Objective,
+    pub synth: SynthBudget,
+    cache: FxHashMap<Vec<u64>, Arc<Synthesis>>,
+    pub reports: Vec<BlockReport>,
+}
+
+impl<'a> Emitter<'a> {
+    pub fn new(profile: &'a Profile, target: Target, objective: Objective) -> Emitter<'a> {
+        Emitter {
+            profile,
+            target,
+            objective,
+            synth: SynthBudget::default(),
+            cache: FxHashMap::default(),
+            reports: Vec::new(),
+        }
+    }
+
+    fn n(&self) -> u32 {
+        self.profile.device.ions
+    }
+
+    /// The native operations of one segment's schedule, with `condition` on each.
+    pub fn segment(&mut self, s: &Schedule, condition: Option<&Condition>) -> Vec<Step> {
+        let mut ops = Vec::new();
+        let mut carry: FxHashMap<u32, f64> = FxHashMap::default();
+        for (k, layer) in s.layers.iter().enumerate() {
+            self.layer(layer, &mut carry, &mut ops);
+            if let Some(block) = s.blocks.get(k) {
+                self.block(block, &mut carry, &mut ops);
+            }
+        }
+        let mut rest: Vec<(u32, f64)> = carry.into_iter().collect();
+        rest.sort_by_key(|(q, _)| *q);
+        for (q, t) in rest {
+            push_shift(&mut ops, q, t);
+        }
+        let ops = peephole(ops, self.n());
+        ops.into_iter()
+            .map(|op| Step {
+                op,
+                condition: condition.map(|c| Box::new(c.clone())),
+            })
+            .collect()
+    }
+
+    fn layer(&self, layer: &[(u32, Mat2)], carry: &mut FxHashMap<u32, f64>, ops: &mut Vec<NativeOp>) {
+        let mut ys: Vec<(u32, f64)> = Vec::new();
+        let mut after: Vec<(u32, f64)> = Vec::new();
+        for &(q, m) in layer {
+            let c = carry.remove(&q).unwrap_or(0.0);
+            // U Rz(c): Rz(c) first, then U.
+            let (_, beta, gamma, delta) = zyz(&m);
+            if gamma.abs() <= EPS {
+                carry.insert(q, beta + delta + c);
+                continue;
+            }
+            push_shift(ops, q, delta + c);
+            ys.push((q, gamma));
+            after.push((q, beta));
+        }
+        if !ys.is_empty() {
+            let caps = self.profile.capabilities;
+            let d = &self.profile.durations_us;
+            let addressed = self.target == Target::Addressed
+                && caps.addressed_rotation
+                && d.addressed.is_some_and(|a| {
+                    let each: f64 = ys.iter().map(|(_, g)| a.at(*g)).sum();
+                    let shifts: f64 = if caps.parallel_light_shifts {
+                        ys.iter().map(|(_, g)| d.light_shift.at(*g)).fold(0.0, f64::max)
+                    } else {
+                        ys.iter().map(|(_, g)| d.light_shift.at(*g)).sum()
+                    };
+                    each < 2.0 * d.collective.at(FRAC_PI_2) + shifts
+                });
+            if addressed {
+                for &(q, g) in &ys {
+                    ops.push(NativeOp::Addressed {
+                        ion: q,
+                        theta: g,
+                        phi: FRAC_PI_2,
+                    });
+                }
+            } else {
+                ops.push(NativeOp::Collective {
+                    theta: FRAC_PI_2,
+                    phi: 0.0,
+                });
+                for &(q, g) in &ys {
+                    push_shift(ops, q, g);
+                }
+                ops.push(NativeOp::Collective {
+                    theta: -FRAC_PI_2,
+                    phi: 0.0,
+                });
+            }
+        }
+        for (q, b) in after {
+            *carry.entry(q).or_insert(0.0) += b;
+        }
+    }
+
+    fn block(&mut self, block: &[(u32, u32, f64)], carry: &mut FxHashMap<u32, f64>, ops: &mut Vec<NativeOp>) {
+        // exp(-i w ZZ): w mod pi is a global phase; w beyond pi/4 is -i Z Z (two
+        // light shifts, carried) times a coupling of at most pi/4.
+        let mut terms = Vec::new();
+        for &(a, b, w) in block {
+            let mut w = w - PI * (w / PI).round();
+            if w.abs() > PI / 4.0 + EPS {
+                w -= FRAC_PI_2 * w.signum();
+                *carry.entry(a).or_insert(0.0) += PI;
+                *carry.entry(b).or_insert(0.0) += PI;
+            }
+            if w.abs() > EPS {
+                terms.push((a, b, w));
+            }
+        }
+        if terms.is_empty() {
+            return;
+        }
+        let mut active: Vec<u32> = terms.iter().flat_map(|&(a, b, _)| [a, b]).collect();
+        active.sort_unstable();
+        active.dedup();
+        let pos = |q: u32| active.binary_search(&q).expect("active");
+        let mut local = Coupling::zero(active.len());
+        for &(a, b, w) in &terms {
+            local.set(pos(a), pos(b), w);
+        }
+        let n = self.n() as usize;
+        let mut device = Coupling::zero(n);
+        for &(a, b, w) in &terms {
+            device.set(a as usize, b as usize, w);
+        }
+        let best = self.synthesis(&local);
+        let mut candidates: Vec<(Vec<NativeOp>, Method, f64)> = Vec::new();
+        let active_idx: Vec<usize> = active.iter().map(|&q| q as usize).collect();
+        candidates.push((
+            pulse_ops(pad_idle(&best, &active_idx, n)),
+            best.method,
+            best.weight,
+        ));
+        if let Some(m) = matching(&device) {
+            candidates.push((pulse_ops(m.pulses.clone()), Method::Matching, m.weight));
+        }
+        if candidates.is_empty() || best.method != Method::Hadamard {
+            let h = hadamard_each(&device);
+            candidates.push((pulse_ops(h.pulses.clone()), Method::Hadamard, h.weight));
+        }
+        if self.target == Target::Addressed {
+            let caps = self.profile.capabilities;
+            if caps.pair_ms {
+                let pair: Vec<NativeOp> = terms
+                    .iter()
+                    .map(|&(a, b, w)| NativeOp::PairMs {
+                        a,
+                        b,
+                        theta: 2.0 * w,
+                        phi: 0.0,
+                    })
+                    .collect();
+                let weight = terms.iter().map(|t| t.2.abs()).sum();
+                candidates.push((pair, Method::Single, weight));
+            }
+            if caps.hiding && active.len() < n {
+                let on_active: Vec<Pulse> = best
+                    .pulses
+                    .iter()
+                    .map(|p| {
+                        let mut signs = vec![1i8; n];
+                        for (k, &q) in active.iter().enumerate() {
+                            signs[q as usize] = p.signs[k];
+                        }
+                        Pulse {
+                            signs,
+                            weight: p.weight,
+                        }
+                    })
+                    .collect();
+                let mut hidden = Vec::new();
+                for ion in 0..n as u32 {
+                    if active.binary_search(&ion).is_err() {
+                        hidden.push(NativeOp::Hide { ion });
+                    }
+                }
+                let mut body = hidden.clone();
+                body.extend(pulse_ops(on_active));
+                body.extend(hidden.iter().map(|h| match *h {
+                    NativeOp::Hide { ion } => NativeOp::Unhide { ion },
+                    other => other,
+                }));
+                candidates.push((body, best.method, best.weight));
+            }
+        }
+        let (chosen, method, weight) = self.choose(candidates);
+        self.reports.push(BlockReport {
+            ions: active.len(),
+            couplings: terms.len(),
+            area: 2.0 * weight / FRAC_PI_2,
+            lower_bound: 2.0 * best.lower_bound / FRAC_PI_2,
+            method,
+            pulses: chosen.iter().filter(|op| op.is_entangling()).count(),
+        });
+        let pair_only = chosen.iter().all(|op| matches!(op, NativeOp::PairMs { .. }));
+        // Z to X on the coupled ions: R(pi/2, pi/2) maps X to Z (Ry(-pi/2) X Ry(pi/2) = Z).
+        let _ = pair_only;
+        ops.push(NativeOp::Collective {
+            theta: FRAC_PI_2,
+            phi: FRAC_PI_2,
+        });
+        ops.extend(chosen);
+        ops.push(NativeOp::Collective {
+            theta: -FRAC_PI_2,
+            phi: FRAC_PI_2,
+        });
+    }
+
+    fn synthesis(&mut self, c: &Coupling) -> Arc<Synthesis> {
+        let mut key: Vec<u64> = vec![c.n as u64];
+        key.extend(c.w.iter().map(|w| w.to_bits()));
+        if let Some(s) = self.cache.get(&key) {
+            return Arc::clone(s);
+        }
+        let s = Arc::new(synthesize(c, self.synth));
+        self.cache.insert(key, Arc::clone(&s));
+        s
+    }
+
+    /// The candidate the objective prefers, costed by the budget model.
+    fn choose(&self, candidates: Vec<(Vec<NativeOp>, Method, f64)>) -> (Vec<NativeOp>, Method, f64) {
+        let mut best: Option<((f64, f64), (Vec<NativeOp>, Method, f64))> = None;
+        for cand in candidates {
+            let mut seq = Sequence::new(self.n(), Vec::new());
+            seq.steps = cand
+                .0
+                .iter()
+                .map(|&op| Step {
+                    op,
+                    condition: None,
+                })
+                .collect();
+            let b = budget(&seq, self.profile, self.n());
+            let key = match self.objective {
+                Objective::Pulses => (b.ms_pulses as f64, b.ms_area),
+                Objective::Area => (b.ms_area, b.ms_pulses as f64),
+                Objective::Duration => (b.duration_us, b.ms_area),
+                Objective::Error => (b.est_error, b.duration_us),
+            };
+            let better = match &best {
+                None => true,
+                Some((k, _)) => key.0 < k.0 - 1e-12 * k.0.abs() || (key.0 <= k.0 + 1e-12 * k.0.abs() && key.1 < k.1),
+            };
+            if better {
+                best = Some((key, cand));
+            }
+        }
+        best.expect("at least one candidate").1
+    }
+}
+
+fn push_shift(ops: &mut Vec<NativeOp>, ion: u32, theta: f64) {
+    let t = wrap(theta);
+    if t.abs() > EPS {
+        ops.push(NativeOp::LightShift { ion, theta: t });
+    }
+}
+
+/// Sign-vector pulses as native operations: ordered for few flips, each pulse
+/// `F_s MS(2t) F_s` with the flips between pulses merged.
+fn pulse_ops(pulses: Vec<Pulse>) -> Vec<NativeOp> {
+    let (pulses, _) = order_pulses(pulses);
+    let n = pulses.first().map_or(0, |p| p.signs.len());
+    let mut frame = vec![1i8; n];
+    let mut ops = Vec::new();
+    for p in pulses {
+        for (i, (f, s)) in frame.iter_mut().zip(&p.signs).enumerate() {
+            if f != s {
+                ops.push(NativeOp::LightShift {
+                    ion: i as u32,
+                    theta: PI,
+                });
+                *f = *s;
+            }
+        }
+        ops.push(NativeOp::Ms {
+            theta: 2.0 * p.weight,
+            phi: 0.0,
+        });
+    }
+    for (i, f) in frame.iter().enumerate() {
+        if *f < 0 {
+            ops.push(NativeOp::LightShift {
+                ion: i as u32,
+                theta: PI,
+            });
+        }
+    }
+    ops
+}
+
+/// The SU(2) matrix of `R(theta, phi)`.
+fn rotation(theta: f64, phi: f64) -> Mat2 {
+    crate::sim::program::rotation(theta, phi)
+}
+
+/// Peephole rewrites (see the module header), repeated until nothing changes.
+pub fn peephole(mut ops: Vec<NativeOp>, n: u32) -> Vec<NativeOp> {
+    loop {
+        let before = ops.len();
+        ops = merge_collective(ops);
+        ops = rephase_z_runs(ops, n);
+        if ops.len() >= before {
+            return ops;
+        }
+    }
+}
+
+/// Adjacent collective rotations become one rotation after a frame change:
+/// `M = Rz(b) Ry(g) Rz(d) = R(g, b + pi/2) Rz(b + d)` (up to phase).
+fn merge_collective(ops: Vec<NativeOp>) -> Vec<NativeOp> {
+    let mut out: Vec<NativeOp> = Vec::with_capacity(ops.len());
+    let mut run: Option<Mat2> = None;
+    let flush = |out: &mut Vec<NativeOp>, m: Mat2| {
+        let (_, b, g, d) = zyz(&m);
+        let z = wrap(b + d);
+        if z.abs() > EPS {
+            out.push(NativeOp::VirtualZ { theta: z });
+        }
+        if g.abs() > EPS {
+            out.push(NativeOp::Collective {
+                theta: g,
+                phi: wrap(b + FRAC_PI_2),
+            });
+        }
+    };
+    let mut count = 0;
+    let mut first = None;
+    for op in ops {
+        if let NativeOp::Collective { theta, phi } = op {
+            let r = rotation(theta, phi);
+            run = Some(match run {
+                Some(m) => super::dag::mul(&r, &m),
+                None => r,
+            });
+            count += 1;
+            first = Some(op);
+            continue;
+        }
+        if let Some(m) = run.take() {
+            if count == 1 {
+                out.push(first.expect("one rotation"));
+            } else {
+                flush(&mut out, m);
+            }
+            count = 0;
+        }
+        out.push(op);
+    }
+    if let Some(m) = run {
+        if count == 1 {
+            out.push(first.expect("one rotation"));
+        } else {
+            flush(&mut out, m);
+        }
+    }
+    out
+}
+
+/// Each run of light shifts and frame changes (they commute) becomes the frame
+/// change that the most ions share and a light shift on each other ion. Runs while
+/// an ion is hidden are left alone.
+fn rephase_z_runs(ops: Vec<NativeOp>, n: u32) -> Vec<NativeOp> {
+    let n = n as usize;
+    let mut out = Vec::with_capacity(ops.len());
+    let mut hidden = 0usize;
+    let mut i = 0;
+    while i < ops.len() {
+        let is_z = |op: &NativeOp| matches!(op, NativeOp::LightShift { .. } | NativeOp::VirtualZ { .. });
+        if hidden > 0 || !is_z(&ops[i]) {
+            match ops[i] {
+                NativeOp::Hide { .. } => hidden += 1,
+                NativeOp::Unhide { .. } => hidden = hidden.saturating_sub(1),
+                _ => {}
+            }
+            out.push(ops[i]);
+            i += 1;
+            continue;
+        }
+        let start = i;
+        while i < ops.len() && is_z(&ops[i]) {
+            i += 1;
+        }
+        let run = &ops[start..i];
+        let mut angle = vec![0.0f64; n];
+        let mut frame = 0.0;
+        let mut touched = Vec::new();
+        for op in run {
+            match *op {
+                NativeOp::LightShift { ion, theta } => {
+                    if angle[ion as usize] == 0.0 {
+                        touched.push(ion as usize);
+                    }
+                    angle[ion as usize] += theta;
+                }
+                NativeOp::VirtualZ { theta } => frame += theta,
+                _ => unreachable!("z run"),
+            }
+        }
+        // Candidate frames: zero extra light shifts for ions untouched (frame
+        // alone), or the total of some touched ion.
+        let untouched = n - {
+            let mut t = touched.clone();
+            t.sort_unstable();
+            t.dedup();
+            t.len()
+        };
+        let mut counts: Vec<(f64, usize)> = vec![(wrap(frame), untouched)];
+        for &q in &touched {
+            let v = wrap(angle[q] + frame);
+            match counts.iter_mut().find(|(x, _)| wrap(x - v).abs() <= 1e-12) {
+                Some(c) => c.1 += 1,
+                None => counts.push((v, 1)),
+            }
+        }
+        // Each touched ion was counted once per appearance; recount exactly.
+        let mut touched_set = touched.clone();
+        touched_set.sort_unstable();
+        touched_set.dedup();
+        for c in counts.iter_mut() {
+            let on_touched = touched_set
+                .iter()
+                .filter(|&&q| wrap(angle[q] + frame - c.0).abs() <= 1e-12)
+                .count();
+            let on_untouched = if wrap(frame - c.0).abs() <= 1e-12 { untouched } else { 0 };
+            c.1 = on_touched + on_untouched;
+        }
+        let (g, _) = counts
+            .iter()
+            .copied()
+            .max_by(|a, b| a.1.cmp(&b.1).then(b.0.abs().total_cmp(&a.0.abs())))
+            .expect("one candidate");
+        let mut rewritten = Vec::new();
+        if wrap(g).abs() > EPS {
+            rewritten.push(NativeOp::VirtualZ { theta: wrap(g) });
+        }
+        for ion in 0..n {
+            let total = angle[ion] + frame - g;
+            push_shift(&mut rewritten, ion as u32, total);
+        }
+        if rewritten.len() <= run.len() {
+            out.extend(rewritten);
+        } else {
+            out.extend_from_slice(run);
+        }
+    }
+    out
+}

@@ -1,0 +1,285 @@
+//! The optimizing compiler: one pipeline, data flowing one way (DESIGN section 2):
+//!
+//! ```text
+//! circuit --segments--> instruction ranges between fences (measure, reset,
+//!         condition, barrier; and, for window-by-window verification, a cap on the
+//!         qubits one range touches)
+//! range --phase_poly--> CNOT/diagonal regions as ZZ interactions
+//!       --lower--> canonical form --dag::PASSES--> fused canonical form
+//!       --schedule--> layers and blocks --emit--> native steps (peephole included)
+//! ```
+//!
+//! Each range is compiled on its own, so its steps are the range's unitary and a
+//! sync point `(range end, steps so far)` lies after it: the checker can verify the
+//! output window by window at those points.
+//!
+//! Invariant: the output equals the input up to global phase, with the device's other
+//! ions left as they were (the driver verifies this unless told not to).
+
+pub mod dag;
+pub mod emit;
+pub mod phase_poly;
+pub mod schedule;
+
+use super::baseline::{CompileError, Target, BYTES_PER_STEP};
+use super::lower::{lower, Canon};
+use crate::circuit::{Circuit, Instr, Op};
+use crate::native::profile::Profile;
+use crate::native::{NativeOp, Sequence, Step};
+use crate::sim::equiv::SyncPoint;
+
+pub use emit::BlockReport;
+
+/// What the optimizer minimises when it chooses how to make a block.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, serde::Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum Objective {
+    /// MS pulses, then MS area.
+    Pulses,
+    /// MS area, then MS pulses.
+    Area,
+    /// Duration from the profile's timings (the default).
+    #[default]
+    Duration,
+    /// The budget's expected error.
+    Error,
+}
+
+impl Objective {
+    pub const ALL: [Objective; 4] = [
+        Objective::Pulses,
+        Objective::Area,
+        Objective::Duration,
+        Objective::Error,
+    ];
+
+    pub fn name(self) -> &'static str {
+        match self {
+            Objective::Pulses => "pulses",
+            Objective::Area => "area",
+            Objective::Duration => "duration",
+            Objective::Error => "error",
+        }
+    }
+}
+
+/// Settings of one optimizing compile.
+#[derive(Debug, Clone, Copy)]
+pub struct OptConfig {
+    pub target: Target,
+    pub objective: Objective,
+    /// Most steps the output may have.
+    pub max_steps: usize,
+    /// Most qubits one range may touch (ranges end early to keep each window of a
+    /// window-by-window verification small); `None` for no cap.
+    pub window_qubits: Option<usize>,
+    /// Time one block's coupling program may take before the fallback is used.
+    pub block_time: std::time::Duration,
+}
+
+impl Default for OptConfig {
+    fn default() -> OptConfig {
+        OptConfig {
+            target: Target::Collective,
+            objective: Objective::default(),
+            max_steps: super::DEFAULT_MAX_STEPS,
+            window_qubits: None,
+            block_time: std::time::Duration::from_secs(5),
+        }
+    }
+}
+
+/// An optimized sequence with its sync points and what each block cost.
+pub struct Optimized {
+    pub sequence: Sequence,
+    pub sync: Vec<SyncPoint>,
+    pub blocks: Vec<BlockReport>,
+}
+
+/// One range of instructions and how to compile it.
+enum Range {
+    /// Unconditioned gates.
+    Gates(std::ops::Range<usize>),
+    /// One instruction with a condition.
+    Conditioned(usize),
+    /// A measurement or reset.
+    Fence(usize),
+    /// A barrier: nothing to emit, but nothing moves across it.
+    Barrier(usize),
+}
+
+fn ranges(c: &Circuit, window_qubits: Option<usize>) -> Vec<Range> {
+    let mut out = Vec::new();
+    let mut start = 0;
+    let mut touched: Vec<bool> = vec![false; c.n_qubits() as usize];
+    let mut count = 0;
+    let close = |out: &mut Vec<Range>, start: usize, end: usize| {
+        if end > start {
+            out.push(Range::Gates(start..end));
+        }
+    };
+    for (i, instr) in c.instrs.iter().enumerate() {
+        let special = instr.condition.is_some()
+            || matches!(
+                instr.op,
+                Op::Measure { .. } | Op::Reset { .. } | Op::Barrier { .. }
+            );
+        if special {
+            close(&mut out, start, i);
+            out.push(match instr.op {
+                _ if instr.condition.is_some() => Range::Conditioned(i),
+                Op::Barrier { .. } => Range::Barrier(i),
+                _ => Range::Fence(i),
+            });
+            start = i + 1;
+            touched.iter_mut().for_each(|t| *t = false);
+            count = 0;
+            continue;
+        }
+        if let Some(cap) = window_qubits {
+            let new = instr
+                .op
+                .qubits()
+                .iter()
+                .filter(|q| !touched[q.0 as usize])
+                .count();
+            if count > 0 && count + new > cap {
+                close(&mut out, start, i);
+                start = i;
+                touched.iter_mut().for_each(|t| *t = false);
+                count = 0;
+            }
+            for q in instr.op.qubits() {
+                if !touched[q.0 as usize] {
+                    touched[q.0 as usize] = true;
+                    count += 1;
+                }
+            }
+        }
+    }
+    close(&mut out, start, c.instrs.len());
+    out
+}
+
+/// A circuit holding `instrs` with `c`'s registers.
+fn sub_circuit(c: &Circuit, instrs: Vec<Instr>) -> Circuit {
+    Circuit {
+        qregs: c.qregs.clone(),
+        cregs: c.cregs.clone(),
+        opaque: c.opaque.clone(),
+        instrs,
+    }
+}
+
+/// The canonical form of `instrs` after the circuit-level and DAG passes.
+pub fn canonical(c: &Circuit, instrs: &[Instr]) -> Result<Vec<Canon>, CompileError> {
+    let rewritten = phase_poly::rewrite(instrs);
+    let lowered = lower(&sub_circuit(c, rewritten))?;
+    let mut g = dag::Dag::new(lowered.into_iter().map(|s| s.op));
+    for (_, pass) in dag::PASSES {
+        pass(&mut g);
+    }
+    Ok(g.ops())
+}
+
+/// Compiles `c` for `profile` with the optimizer.
+pub fn compile_optimized(
+    c: &Circuit,
+    profile: &Profile,
+    cfg: &OptConfig,
+) -> Result<Optimized, CompileError> {
+    let ions = profile.device.ions;
+    if c.n_qubits() > ions {
+        return Err(CompileError::TooFewIons {
+            needed: c.n_qubits(),
+            ions,
+            device: profile.device.name.clone(),
+        });
+    }
+    let caps = profile.capabilities;
+    if cfg.target == Target::Addressed && !caps.pair_ms && !caps.hiding {
+        return Err(CompileError::NoAddressedEntangler(
+            profile.device.name.clone(),
+        ));
+    }
+    let mut emitter = emit::Emitter::new(profile, cfg.target, cfg.objective);
+    emitter.synth.time_limit = cfg.block_time;
+    let mut seq = Sequence::new(ions, c.cregs.clone());
+    let mut sync = Vec::new();
+    let n = c.n_qubits() as usize;
+    for range in ranges(c, cfg.window_qubits) {
+        let (end, steps) = match range {
+            Range::Gates(r) => {
+                let ops = canonical(c, &c.instrs[r.clone()])?;
+                let s = schedule::schedule(&ops, n);
+                (r.end, emitter.segment(&s, None))
+            }
+            Range::Conditioned(i) => {
+                let instr = &c.instrs[i];
+                let steps = match instr.op {
+                    Op::Measure { qubit, clbit } => vec![Step {
+                        op: NativeOp::Measure {
+                            ion: qubit.0,
+                            clbit: clbit.0,
+                        },
+                        condition: instr.condition.clone().map(Box::new),
+                    }],
+                    Op::Reset { qubit } => vec![Step {
+                        op: NativeOp::Reset { ion: qubit.0 },
+                        condition: instr.condition.clone().map(Box::new),
+                    }],
+                    Op::Barrier { .. } => Vec::new(),
+                    _ => {
+                        let mut bare = instr.clone();
+                        bare.condition = None;
+                        let ops = canonical(c, std::slice::from_ref(&bare))?;
+                        let s = schedule::schedule(&ops, n);
+                        emitter.segment(&s, instr.condition.as_ref())
+                    }
+                };
+                (i + 1, steps)
+            }
+            Range::Fence(i) => {
+                let step = match c.instrs[i].op {
+                    Op::Measure { qubit, clbit } => NativeOp::Measure {
+                        ion: qubit.0,
+                        clbit: clbit.0,
+                    },
+                    Op::Reset { qubit } => NativeOp::Reset { ion: qubit.0 },
+                    _ => unreachable!("fences are measurements and resets"),
+                };
+                (
+                    i + 1,
+                    vec![Step {
+                        op: step,
+                        condition: None,
+                    }],
+                )
+            }
+            Range::Barrier(i) => (i + 1, Vec::new()),
+        };
+        if seq.steps.len() + steps.len() > cfg.max_steps {
+            return Err(CompileError::TooManySteps {
+                limit: cfg.max_steps,
+                instruction: end,
+                bytes_per_step: BYTES_PER_STEP,
+            });
+        }
+        seq.steps
+            .try_reserve(steps.len())
+            .map_err(|_| CompileError::OutOfMemory {
+                steps: seq.steps.len(),
+                instruction: end,
+            })?;
+        seq.steps.extend(steps);
+        sync.push(SyncPoint {
+            instrs: end,
+            steps: seq.steps.len(),
+        });
+    }
+    Ok(Optimized {
+        sequence: seq,
+        sync,
+        blocks: emitter.reports,
+    })
+}

@@ -25,6 +25,7 @@ use crate::compile::couple::{
     hadamard_each, matching, order_pulses, pad_idle, synthesize, Budget as SynthBudget,
     Coupling, Method, Pulse, Synthesis,
 };
+use crate::compile::hadamard::smallest_hadamard;
 use crate::compile::lower::zyz;
 use crate::compile::Target;
 use crate::native::profile::Profile;
@@ -88,14 +89,44 @@ impl<'a> Emitter<'a> {
         self.profile.device.ions
     }
 
+    /// Ions that no block of `s` couples and no layer rotates off the Z axis: their
+    /// evolution over the segment is ZZ couplings only (the collective pulses around
+    /// blocks and layers cancel on them), so the couplings among them need to vanish
+    /// over the segment as a whole, not block by block.
+    fn quiet_ions(&self, s: &Schedule) -> Vec<bool> {
+        let mut quiet = vec![true; self.n() as usize];
+        for block in &s.blocks {
+            for &(a, b, _) in block {
+                quiet[a as usize] = false;
+                quiet[b as usize] = false;
+            }
+        }
+        for layer in &s.layers {
+            for &(q, m) in layer {
+                if !super::dag::is_diagonal(&m) {
+                    quiet[q as usize] = false;
+                }
+            }
+        }
+        quiet
+    }
+
     /// The native operations of one segment's schedule, with `condition` on each.
     pub fn segment(&mut self, s: &Schedule, condition: Option<&Condition>) -> Vec<Step> {
+        let quiet = self.quiet_ions(s);
+        let mut parts: Vec<Part> = Vec::new();
         let mut ops = Vec::new();
         let mut carry: FxHashMap<u32, f64> = FxHashMap::default();
         for (k, layer) in s.layers.iter().enumerate() {
             self.layer(layer, &mut carry, &mut ops);
             if let Some(block) = s.blocks.get(k) {
-                self.block(block, &mut carry, &mut ops);
+                match self.block(block, &mut carry, &quiet) {
+                    Part::Ops(v) => ops.extend(v),
+                    groups => {
+                        parts.push(Part::Ops(std::mem::take(&mut ops)));
+                        parts.push(groups);
+                    }
+                }
             }
         }
         let mut rest: Vec<(u32, f64)> = carry.into_iter().collect();
@@ -103,7 +134,8 @@ impl<'a> Emitter<'a> {
         for (q, t) in rest {
             push_shift(&mut ops, q, t);
         }
-        let ops = peephole(ops, self.n());
+        parts.push(Part::Ops(ops));
+        let ops = peephole(resolve_quiet(parts, &quiet), self.n());
         ops.into_iter()
             .map(|op| Step {
                 op,
@@ -168,7 +200,7 @@ impl<'a> Emitter<'a> {
         }
     }
 
-    fn block(&mut self, block: &[(u32, u32, f64)], carry: &mut FxHashMap<u32, f64>, ops: &mut Vec<NativeOp>) {
+    fn block(&mut self, block: &[(u32, u32, f64)], carry: &mut FxHashMap<u32, f64>, quiet: &[bool]) -> Part {
         // exp(-i w ZZ): w mod pi is a global phase; w beyond pi/4 is -i Z Z (two
         // light shifts, carried) times a coupling of at most pi/4.
         let mut terms = Vec::new();
@@ -184,7 +216,7 @@ impl<'a> Emitter<'a> {
             }
         }
         if terms.is_empty() {
-            return;
+            return Part::Ops(Vec::new());
         }
         let mut active: Vec<u32> = terms.iter().flat_map(|&(a, b, _)| [a, b]).collect();
         active.sort_unstable();
@@ -207,6 +239,14 @@ impl<'a> Emitter<'a> {
             best.method,
             best.weight,
         ));
+        // The same pulses, decoupled from the quiet ions by one shared column.
+        let groups = quiet_groups(&best, &active_idx, quiet);
+        let n_quiet = quiet.iter().filter(|&&q| q).count();
+        if n_quiet > 0 {
+            let flat: Vec<Pulse> = groups.iter().flat_map(|g| g.pulses.clone()).collect();
+            candidates.push((pulse_ops(flat), best.method, best.weight));
+        }
+        let quiet_candidate = if n_quiet > 0 { 1 } else { usize::MAX };
         if let Some(m) = matching(&device) {
             candidates.push((pulse_ops(m.pulses.clone()), Method::Matching, m.weight));
         }
@@ -259,7 +299,7 @@ impl<'a> Emitter<'a> {
                 candidates.push((body, best.method, best.weight));
             }
         }
-        let (chosen, method, weight) = self.choose(candidates);
+        let (index, (chosen, method, weight)) = self.choose(candidates);
         self.reports.push(BlockReport {
             ions: active.len(),
             couplings: terms.len(),
@@ -268,18 +308,20 @@ impl<'a> Emitter<'a> {
             method,
             pulses: chosen.iter().filter(|op| op.is_entangling()).count(),
         });
-        let pair_only = chosen.iter().all(|op| matches!(op, NativeOp::PairMs { .. }));
-        // Z to X on the coupled ions: R(pi/2, pi/2) maps X to Z (Ry(-pi/2) X Ry(pi/2) = Z).
-        let _ = pair_only;
-        ops.push(NativeOp::Collective {
+        if index == quiet_candidate {
+            return Part::Quiet(groups);
+        }
+        // Z to X: R(pi/2, pi/2) maps X to Z (Ry(-pi/2) X Ry(pi/2) = Z).
+        let mut ops = vec![NativeOp::Collective {
             theta: FRAC_PI_2,
             phi: FRAC_PI_2,
-        });
+        }];
         ops.extend(chosen);
         ops.push(NativeOp::Collective {
             theta: -FRAC_PI_2,
             phi: FRAC_PI_2,
         });
+        Part::Ops(ops)
     }
 
     fn synthesis(&mut self, c: &Coupling) -> Arc<Synthesis> {
@@ -294,9 +336,12 @@ impl<'a> Emitter<'a> {
     }
 
     /// The candidate the objective prefers, costed by the budget model.
-    fn choose(&self, candidates: Vec<(Vec<NativeOp>, Method, f64)>) -> (Vec<NativeOp>, Method, f64) {
-        let mut best: Option<((f64, f64), (Vec<NativeOp>, Method, f64))> = None;
-        for cand in candidates {
+    fn choose(
+        &self,
+        candidates: Vec<(Vec<NativeOp>, Method, f64)>,
+    ) -> (usize, (Vec<NativeOp>, Method, f64)) {
+        let mut best: Option<((f64, f64), (usize, (Vec<NativeOp>, Method, f64)))> = None;
+        for (index, cand) in candidates.into_iter().enumerate() {
             let mut seq = Sequence::new(self.n(), Vec::new());
             seq.steps = cand
                 .0
@@ -318,11 +363,138 @@ impl<'a> Emitter<'a> {
                 Some((k, _)) => key.0 < k.0 - 1e-12 * k.0.abs() || (key.0 <= k.0 + 1e-12 * k.0.abs() && key.1 < k.1),
             };
             if better {
-                best = Some((key, cand));
+                best = Some((key, (index, cand)));
             }
         }
         best.expect("at least one candidate").1
     }
+}
+
+/// Part of a segment's output: operations, or a block whose quiet ions still need
+/// their signs (see [`resolve_quiet`]).
+enum Part {
+    Ops(Vec<NativeOp>),
+    Quiet(Vec<Group>),
+}
+
+/// One pulse of a block's synthesis spread over the non-quiet idle ions (DESIGN
+/// fact 9): `m` rows of weight `t/m`; the quiet ions hold the row's sign of one
+/// further Hadamard column, still to be multiplied by their own sign.
+#[derive(Clone)]
+struct Group {
+    weight: f64,
+    pulses: Vec<Pulse>,
+}
+
+/// The groups of a synthesis on `active` among the device's ions: the other
+/// non-quiet ions take columns 1 to r of a Hadamard matrix, the active ions column
+/// 0 times the pulse's signs, the quiet ions column r + 1 (all ions of a pair of
+/// distinct columns are decoupled, at unchanged total weight).
+fn quiet_groups(s: &Synthesis, active: &[usize], quiet: &[bool]) -> Vec<Group> {
+    let n = quiet.len();
+    let mut col = vec![usize::MAX; n];
+    let mut next = 1;
+    let mut is_active = vec![usize::MAX; n];
+    for (k, &a) in active.iter().enumerate() {
+        is_active[a] = k;
+    }
+    for ion in 0..n {
+        if is_active[ion] == usize::MAX && !quiet[ion] {
+            col[ion] = next;
+            next += 1;
+        }
+    }
+    let quiet_col = next;
+    let h = smallest_hadamard(next + 1);
+    let m = h.len();
+    s.pulses
+        .iter()
+        .map(|p| Group {
+            weight: p.weight,
+            pulses: h
+                .iter()
+                .map(|row| Pulse {
+                    signs: (0..n)
+                        .map(|ion| match is_active[ion] {
+                            usize::MAX if quiet[ion] => row[quiet_col],
+                            usize::MAX => row[col[ion]],
+                            k => row[0] * p.signs[k],
+                        })
+                        .collect(),
+                    weight: p.weight / m as f64,
+                })
+                .collect(),
+        })
+        .collect()
+}
+
+/// Gives the quiet ions their signs and flattens the parts. Within a group the
+/// quiet ions share one column, so every coupling between two quiet ions is the
+/// group's weight times the product of their signs; the signs are rows of a
+/// Hadamard matrix `H_Q` (one column per quiet ion), each row used for exactly
+/// `1/m_Q` of the total weight (groups are split at the boundaries), so those
+/// couplings sum to zero over the segment.
+fn resolve_quiet(parts: Vec<Part>, quiet: &[bool]) -> Vec<NativeOp> {
+    let quiet_ions: Vec<usize> = (0..quiet.len()).filter(|&i| quiet[i]).collect();
+    let total: f64 = parts
+        .iter()
+        .map(|p| match p {
+            Part::Quiet(groups) => groups.iter().map(|g| g.weight).sum(),
+            Part::Ops(_) => 0.0,
+        })
+        .sum();
+    let hq = smallest_hadamard(quiet_ions.len().max(1));
+    let share = total / hq.len() as f64;
+    let mut row = 0usize;
+    let mut room = share;
+    let mut out = Vec::new();
+    for part in parts {
+        match part {
+            Part::Ops(v) => out.extend(v),
+            Part::Quiet(groups) => {
+                let mut pulses = Vec::new();
+                for g in groups {
+                    let mut left = g.weight;
+                    while left > 0.0 {
+                        let take = if quiet_ions.len() <= 1 { left } else { left.min(room) };
+                        let fraction = take / g.weight;
+                        let r = &hq[row.min(hq.len() - 1)];
+                        for p in &g.pulses {
+                            let mut signs = p.signs.clone();
+                            for (c, &ion) in quiet_ions.iter().enumerate() {
+                                signs[ion] *= r[c];
+                            }
+                            if p.weight * fraction > 0.0 {
+                                pulses.push(Pulse {
+                                    signs,
+                                    weight: p.weight * fraction,
+                                });
+                            }
+                        }
+                        left -= take;
+                        room -= take;
+                        if quiet_ions.len() > 1 && room <= 1e-12 * share {
+                            row += 1;
+                            room = share;
+                        }
+                        if left <= 1e-15 * g.weight {
+                            break;
+                        }
+                    }
+                }
+                out.push(NativeOp::Collective {
+                    theta: FRAC_PI_2,
+                    phi: FRAC_PI_2,
+                });
+                out.extend(pulse_ops(pulses));
+                out.push(NativeOp::Collective {
+                    theta: -FRAC_PI_2,
+                    phi: FRAC_PI_2,
+                });
+            }
+        }
+    }
+    out
 }
 
 fn push_shift(ops: &mut Vec<NativeOp>, ion: u32, theta: f64) {

@@ -17,6 +17,7 @@
 //! verdict reports the worst distance and the tolerance it was held against.
 
 mod cuts;
+mod frame;
 mod modes;
 mod prepass;
 mod windowed;

@@ -67,12 +67,37 @@ pub(super) fn prepare(
     keep_all: bool,
     tolerance: f64,
 ) -> Result<Prepared, IdleMismatch> {
+    let plain = prepare_as_given(p, q, n, keep_all, tolerance, 0.0);
+    // The interaction picture (module `frame`) of either side, when it applies:
+    // taken only when it leaves fewer qubits to compare.
+    let ip = super::frame::interaction_picture(p, n);
+    let iq = super::frame::interaction_picture(q, n);
+    if ip.is_none() && iq.is_none() {
+        return plain;
+    }
+    let (pk, ps) = ip.unwrap_or_else(|| (p.to_vec(), 0.0));
+    let (qk, qs) = iq.unwrap_or_else(|| (q.to_vec(), 0.0));
+    let framed = prepare_as_given(&pk, &qk, n, keep_all, tolerance, ps + qs);
+    match (plain, framed) {
+        (Err(e), _) | (_, Err(e)) => Err(e),
+        (Ok(a), Ok(b)) => Ok(if b.n < a.n { b } else { a }),
+    }
+}
+
+fn prepare_as_given(
+    p: &[Kernel],
+    q: &[Kernel],
+    n: usize,
+    keep_all: bool,
+    tolerance: f64,
+    frame_slack: f64,
+) -> Result<Prepared, IdleMismatch> {
     let (fp, sp) = fuse_xx_runs(p);
     let (fq, sq) = fuse_xx_runs(q);
     let (fp, dp) = drop_zero_couplings(fp);
     let (fq, dq) = drop_zero_couplings(fq);
     let (fp, fq, stray) = drop_stray_couplings(fp, fq, n);
-    let slack = sp + sq + dp + dq + stray.map_or(0.0, |s| s.2);
+    let slack = frame_slack + sp + sq + dp + dq + stray.map_or(0.0, |s| s.2);
     let stray = stray.map(|s| (s.0, s.1));
     let (p, q, n) = if keep_all {
         (fp, fq, n)
@@ -375,14 +400,14 @@ fn merge_single_qubit_runs(ks: &[Kernel], n: usize) -> Vec<Kernel> {
     out
 }
 
-fn identity2() -> Mat2 {
+pub(super) fn identity2() -> Mat2 {
     [
         [C64::new(1.0, 0.0), C64::new(0.0, 0.0)],
         [C64::new(0.0, 0.0), C64::new(1.0, 0.0)],
     ]
 }
 
-fn mul2(a: &Mat2, b: &Mat2) -> Mat2 {
+pub(super) fn mul2(a: &Mat2, b: &Mat2) -> Mat2 {
     let mut o = [[C64::new(0.0, 0.0); 2]; 2];
     for i in 0..2 {
         for j in 0..2 {
@@ -390,4 +415,11 @@ fn mul2(a: &Mat2, b: &Mat2) -> Mat2 {
         }
     }
     o
+}
+
+pub(super) fn adjoint2(a: &Mat2) -> Mat2 {
+    [
+        [a[0][0].conj(), a[1][0].conj()],
+        [a[0][1].conj(), a[1][1].conj()],
+    ]
 }

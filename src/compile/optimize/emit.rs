@@ -112,17 +112,50 @@ impl<'a> Emitter<'a> {
     }
 
     /// The native operations of one segment's schedule, with `condition` on each.
+    /// Where sharing an echo column among the quiet ions helps some block, the
+    /// segment is also made without it, and the one the objective prefers is kept
+    /// (the shared column needs the segment's weight split evenly over a Hadamard
+    /// matrix's rows, which a short segment may not repay).
     pub fn segment(&mut self, s: &Schedule, condition: Option<&Condition>) -> Vec<Step> {
         let quiet = self.quiet_ions(s);
+        let (ops, reports, used_quiet) = self.plan(s, &quiet);
+        let (ops, reports) = if used_quiet {
+            let none = vec![false; quiet.len()];
+            let (other, other_reports, _) = self.plan(s, &none);
+            if self.key(&other) < self.key(&ops) {
+                (other, other_reports)
+            } else {
+                (ops, reports)
+            }
+        } else {
+            (ops, reports)
+        };
+        self.reports.extend(reports);
+        ops.into_iter()
+            .map(|op| Step {
+                op,
+                condition: condition.map(|c| Box::new(c.clone())),
+            })
+            .collect()
+    }
+
+    /// One way to make the segment: its operations (after the peephole), block
+    /// reports, and whether a block shares the quiet ions' column.
+    fn plan(&mut self, s: &Schedule, quiet: &[bool]) -> (Vec<NativeOp>, Vec<BlockReport>, bool) {
         let mut parts: Vec<Part> = Vec::new();
         let mut ops = Vec::new();
+        let mut reports = Vec::new();
+        let mut used_quiet = false;
         let mut carry: FxHashMap<u32, f64> = FxHashMap::default();
         for (k, layer) in s.layers.iter().enumerate() {
             self.layer(layer, &mut carry, &mut ops);
             if let Some(block) = s.blocks.get(k) {
-                match self.block(block, &mut carry, &quiet) {
+                let (part, report) = self.block(block, &mut carry, quiet);
+                reports.extend(report);
+                match part {
                     Part::Ops(v) => ops.extend(v),
                     groups => {
+                        used_quiet = true;
                         parts.push(Part::Ops(std::mem::take(&mut ops)));
                         parts.push(groups);
                     }
@@ -135,13 +168,26 @@ impl<'a> Emitter<'a> {
             push_shift(&mut ops, q, t);
         }
         parts.push(Part::Ops(ops));
-        let ops = peephole(resolve_quiet(parts, &quiet), self.n());
-        ops.into_iter()
-            .map(|op| Step {
+        (peephole(resolve_quiet(parts, quiet), self.n()), reports, used_quiet)
+    }
+
+    /// The objective's figures of a list of operations (smaller is better).
+    fn key(&self, ops: &[NativeOp]) -> (f64, f64) {
+        let mut seq = Sequence::new(self.n(), Vec::new());
+        seq.steps = ops
+            .iter()
+            .map(|&op| Step {
                 op,
-                condition: condition.map(|c| Box::new(c.clone())),
+                condition: None,
             })
-            .collect()
+            .collect();
+        let b = budget(&seq, self.profile, self.n());
+        match self.objective {
+            Objective::Pulses => (b.ms_pulses as f64, b.ms_area),
+            Objective::Area => (b.ms_area, b.ms_pulses as f64),
+            Objective::Duration => (b.duration_us, b.ms_area),
+            Objective::Error => (b.est_error, b.duration_us),
+        }
     }
 
     fn layer(&self, layer: &[(u32, Mat2)], carry: &mut FxHashMap<u32, f64>, ops: &mut Vec<NativeOp>) {
@@ -200,7 +246,12 @@ impl<'a> Emitter<'a> {
         }
     }
 
-    fn block(&mut self, block: &[(u32, u32, f64)], carry: &mut FxHashMap<u32, f64>, quiet: &[bool]) -> Part {
+    fn block(
+        &mut self,
+        block: &[(u32, u32, f64)],
+        carry: &mut FxHashMap<u32, f64>,
+        quiet: &[bool],
+    ) -> (Part, Option<BlockReport>) {
         // exp(-i w ZZ): w mod pi is a global phase; w beyond pi/4 is -i Z Z (two
         // light shifts, carried) times a coupling of at most pi/4.
         let mut terms = Vec::new();
@@ -216,7 +267,7 @@ impl<'a> Emitter<'a> {
             }
         }
         if terms.is_empty() {
-            return Part::Ops(Vec::new());
+            return (Part::Ops(Vec::new()), None);
         }
         let mut active: Vec<u32> = terms.iter().flat_map(|&(a, b, _)| [a, b]).collect();
         active.sort_unstable();
@@ -250,10 +301,8 @@ impl<'a> Emitter<'a> {
         if let Some(m) = matching(&device) {
             candidates.push((pulse_ops(m.pulses.clone()), Method::Matching, m.weight));
         }
-        if candidates.is_empty() || best.method != Method::Hadamard {
-            let h = hadamard_each(&device);
-            candidates.push((pulse_ops(h.pulses.clone()), Method::Hadamard, h.weight));
-        }
+        let h = hadamard_each(&device);
+        candidates.push((pulse_ops(h.pulses), Method::Hadamard, h.weight));
         if self.target == Target::Addressed {
             let caps = self.profile.capabilities;
             if caps.pair_ms {
@@ -300,7 +349,7 @@ impl<'a> Emitter<'a> {
             }
         }
         let (index, (chosen, method, weight)) = self.choose(candidates);
-        self.reports.push(BlockReport {
+        let report = Some(BlockReport {
             ions: active.len(),
             couplings: terms.len(),
             area: 2.0 * weight / FRAC_PI_2,
@@ -309,7 +358,7 @@ impl<'a> Emitter<'a> {
             pulses: chosen.iter().filter(|op| op.is_entangling()).count(),
         });
         if index == quiet_candidate {
-            return Part::Quiet(groups);
+            return (Part::Quiet(groups), report);
         }
         // Z to X: R(pi/2, pi/2) maps X to Z (Ry(-pi/2) X Ry(pi/2) = Z).
         let mut ops = vec![NativeOp::Collective {
@@ -321,7 +370,7 @@ impl<'a> Emitter<'a> {
             theta: -FRAC_PI_2,
             phi: FRAC_PI_2,
         });
-        Part::Ops(ops)
+        (Part::Ops(ops), report)
     }
 
     fn synthesis(&mut self, c: &Coupling) -> Arc<Synthesis> {
@@ -342,22 +391,7 @@ impl<'a> Emitter<'a> {
     ) -> (usize, (Vec<NativeOp>, Method, f64)) {
         let mut best: Option<((f64, f64), (usize, (Vec<NativeOp>, Method, f64)))> = None;
         for (index, cand) in candidates.into_iter().enumerate() {
-            let mut seq = Sequence::new(self.n(), Vec::new());
-            seq.steps = cand
-                .0
-                .iter()
-                .map(|&op| Step {
-                    op,
-                    condition: None,
-                })
-                .collect();
-            let b = budget(&seq, self.profile, self.n());
-            let key = match self.objective {
-                Objective::Pulses => (b.ms_pulses as f64, b.ms_area),
-                Objective::Area => (b.ms_area, b.ms_pulses as f64),
-                Objective::Duration => (b.duration_us, b.ms_area),
-                Objective::Error => (b.est_error, b.duration_us),
-            };
+            let key = self.key(&cand.0);
             let better = match &best {
                 None => true,
                 Some((k, _)) => key.0 < k.0 - 1e-12 * k.0.abs() || (key.0 <= k.0 + 1e-12 * k.0.abs() && key.1 < k.1),

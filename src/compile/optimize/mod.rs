@@ -84,7 +84,7 @@ impl Default for OptConfig {
             objective: Objective::default(),
             max_steps: super::DEFAULT_MAX_STEPS,
             window_qubits: None,
-            block_time: std::time::Duration::from_secs(5),
+            block_time: std::time::Duration::from_secs(2),
         }
     }
 }

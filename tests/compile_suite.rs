@@ -34,11 +34,17 @@ fn every_circuit_compiles_and_verifies_on_both_targets() {
         .flat_map(|path| {
             let circuit = common::read_ok(path);
             let name = path.file_name().unwrap().to_string_lossy().into_owned();
-            [Target::Collective, Target::Addressed]
-                .into_iter()
-                .filter_map(|target| {
+            [
+                (Target::Collective, false),
+                (Target::Addressed, false),
+                (Target::Collective, true),
+                (Target::Addressed, true),
+            ]
+            .into_iter()
+                .filter_map(|(target, baseline)| {
                     let cfg = CompileConfig {
                         target,
+                        baseline,
                         check: CheckConfig {
                             memory_budget: 1 << 30,
                             ..CheckConfig::default()
@@ -58,10 +64,10 @@ fn every_circuit_compiles_and_verifies_on_both_targets() {
                                 None
                             }
                             other => Some(format!(
-                                "{name} {target:?}: unexpected verification {other:?}"
+                                "{name} {target:?} baseline {baseline}: unexpected verification {other:?}"
                             )),
                         },
-                        Err(e) => Some(format!("{name} {target:?}: {e}")),
+                        Err(e) => Some(format!("{name} {target:?} baseline {baseline}: {e}")),
                     }
                 })
                 .collect::<Vec<_>>()
@@ -145,6 +151,7 @@ fn every_output_format_reads_back_to_a_sequence_equal_to_the_circuit() {
     // file would be (driver::load), and verified window by window against the
     // circuit with the compile's trace: the formats lose nothing the checker sees.
     use tutti::compile::compile_baseline_traced;
+    use tutti::compile::optimize::{compile_optimized, OptConfig};
     use tutti::driver::{load, Format, Loaded};
     use tutti::sim::{check_windows, sync_points_from_origin};
     let profile = Profile::demo();
@@ -156,15 +163,31 @@ fn every_output_format_reads_back_to_a_sequence_equal_to_the_circuit() {
             let circuit = common::read_ok(path);
             let name = path.file_stem().unwrap().to_string_lossy().into_owned();
             let mut bad = Vec::new();
-            for target in [Target::Collective, Target::Addressed] {
-                let (seq, origin) = compile_baseline_traced(&circuit, &profile, target).unwrap();
-                let sync = sync_points_from_origin(&origin, circuit.instrs.len()).unwrap();
+            for (target, baseline) in [
+                (Target::Collective, true),
+                (Target::Addressed, true),
+                (Target::Collective, false),
+                (Target::Addressed, false),
+            ] {
+                let (seq, sync) = if baseline {
+                    let (seq, origin) = compile_baseline_traced(&circuit, &profile, target).unwrap();
+                    (seq, sync_points_from_origin(&origin, circuit.instrs.len()).unwrap())
+                } else {
+                    // Ranges of few qubits, so that every window is small.
+                    let cfg = OptConfig {
+                        target,
+                        window_qubits: Some(tutti::driver::WINDOW_QUBITS),
+                        ..OptConfig::default()
+                    };
+                    let o = compile_optimized(&circuit, &profile, &cfg).unwrap();
+                    (o.sequence, o.sync)
+                };
                 for (format, ext) in [
                     (Format::Pulses, "pulses"),
                     (Format::Json, "json"),
                     (Format::Qasm, "qasm"),
                 ] {
-                    let file = dir.join(format!("{name}.{}.{ext}", target.name()));
+                    let file = dir.join(format!("{name}.{}.{baseline}.{ext}", target.name()));
                     std::fs::write(&file, format.render(&seq)).unwrap();
                     let back = match load(&file, &tutti::qasm::Limits::default()) {
                         Ok((Loaded::Sequence(s), _)) => s,
@@ -179,7 +202,7 @@ fn every_output_format_reads_back_to_a_sequence_equal_to_the_circuit() {
                     };
                     match check_windows(&circuit, &back, &sync, &CheckConfig::default()) {
                         Ok(v) if v.equivalent => {}
-                        other => bad.push(format!("{name} {:?} {ext}: {other:?}", target)),
+                        other => bad.push(format!("{name} {target:?} baseline {baseline} {ext}: {other:?}")),
                     }
                 }
             }

@@ -203,6 +203,13 @@ pub fn synthesize(c: &Coupling, budget: Budget) -> Synthesis {
             method: Method::Single,
         };
     }
+    // Disjoint pairs: the closed form is optimal, no solver needed.
+    if let Some(m) = matching_layers(c) {
+        return m;
+    }
+    if budget.time_limit.is_zero() {
+        return hadamard_each(c);
+    }
     let deadline = Instant::now() + budget.time_limit;
     let found = if c.n <= EXACT_IONS && budget.strategy == Strategy::Auto {
         exact(c)
@@ -325,6 +332,56 @@ pub fn matching(c: &Coupling) -> Option<Synthesis> {
     })
 }
 
+/// DESIGN fact 7 generalised to disjoint pairs of different weights: with the
+/// weights sorted, `|w_1| >= |w_2| >= ...`, level `l` couples pairs 1 to l equally
+/// with weight `|w_l| - |w_{l+1}|` by fact 7 (the other ions idle); the total weight
+/// is `|w_1|`, the largest coupling, which is also a lower bound (no pulse adds more
+/// than its weight to one coupling): optimal. `None` unless the pairs are disjoint.
+pub fn matching_layers(c: &Coupling) -> Option<Synthesis> {
+    let n = c.n;
+    let mut pairs: Vec<(usize, usize, f64)> = Vec::new();
+    let mut used = vec![false; n];
+    for i in 0..n {
+        for j in i + 1..n {
+            let w = c.get(i, j);
+            if w == 0.0 {
+                continue;
+            }
+            if used[i] || used[j] {
+                return None;
+            }
+            used[i] = true;
+            used[j] = true;
+            pairs.push((i, j, w));
+        }
+    }
+    if pairs.is_empty() {
+        return None;
+    }
+    pairs.sort_by(|a, b| b.2.abs().total_cmp(&a.2.abs()));
+    let mut pulses = Vec::new();
+    for level in 0..pairs.len() {
+        let here = pairs[level].2.abs();
+        let next = pairs.get(level + 1).map_or(0.0, |p| p.2.abs());
+        let step = here - next;
+        if step <= 0.0 {
+            continue;
+        }
+        let mut layer = Coupling::zero(n);
+        for &(i, j, w) in &pairs[..=level] {
+            layer.set(i, j, step * w.signum());
+        }
+        pulses.extend(matching(&layer).expect("equal disjoint pairs").pulses);
+    }
+    let weight = pairs[0].2.abs();
+    Some(Synthesis {
+        pulses,
+        weight,
+        lower_bound: weight,
+        method: Method::Matching,
+    })
+}
+
 /// DESIGN fact 9: the pulses of `s` (on the ions `active`, in that order) extended to
 /// `n` ions so that every coupling touching another ion is zero, at unchanged total
 /// weight: each pulse becomes `m` pulses of a `m`-row Hadamard matrix (`m >= r + 1`
@@ -375,35 +432,55 @@ pub fn pad_idle(s: &Synthesis, active: &[usize], n: usize) -> Vec<Pulse> {
 }
 
 /// Orders pulses so that consecutive sign vectors differ on few ions, starting and
-/// ending with no ion flipped (greedy nearest neighbour on the Hamming distance),
+/// ending with no ion flipped (greedy nearest neighbour on the Hamming distance,
+/// among the next [`ORDER_WINDOW`] pulses of the list, so the cost stays linear),
 /// and picks for each pulse the one of `s`, `-s` closer to the one before (the two
 /// give the same pulse). Returns the pulses in order and the flips this needs.
-pub fn order_pulses(mut pulses: Vec<Pulse>) -> (Vec<Pulse>, usize) {
+pub fn order_pulses(pulses: Vec<Pulse>) -> (Vec<Pulse>, usize) {
     let n = pulses.first().map_or(0, |p| p.signs.len());
-    let mut frame = vec![1i8; n];
-    let dist = |a: &[i8], b: &[i8]| a.iter().zip(b).filter(|(x, y)| x != y).count();
-    let mut out = Vec::with_capacity(pulses.len());
+    let words = n.div_ceil(64);
+    // Sign vectors as bit sets (bit set = -1), so a distance is a few popcounts.
+    let pack = |signs: &[i8]| -> Vec<u64> {
+        let mut w = vec![0u64; words];
+        for (i, &s) in signs.iter().enumerate() {
+            if s < 0 {
+                w[i / 64] |= 1 << (i % 64);
+            }
+        }
+        w
+    };
+    let mut left: std::collections::VecDeque<(Vec<u64>, Pulse)> =
+        pulses.into_iter().map(|p| (pack(&p.signs), p)).collect();
+    let mut frame = vec![0u64; words];
+    let dist = |a: &[u64], b: &[u64]| -> usize {
+        a.iter().zip(b).map(|(x, y)| (x ^ y).count_ones() as usize).sum()
+    };
+    let mut out = Vec::with_capacity(left.len());
     let mut flips = 0;
-    while !pulses.is_empty() {
+    while !left.is_empty() {
         let mut best = (usize::MAX, 0usize, false);
-        for (k, p) in pulses.iter().enumerate() {
-            let d = dist(&frame, &p.signs);
+        for (k, (bits, _)) in left.iter().take(ORDER_WINDOW).enumerate() {
+            let d = dist(&frame, bits);
             let (d, neg) = if n - d < d { (n - d, true) } else { (d, false) };
             if d < best.0 {
                 best = (d, k, neg);
             }
         }
-        let mut p = pulses.swap_remove(best.1);
+        let (mut bits, mut p) = left.remove(best.1).expect("in range");
         if best.2 {
             p.signs.iter_mut().for_each(|s| *s = -*s);
+            bits = pack(&p.signs);
         }
         flips += best.0;
-        frame.clone_from(&p.signs);
+        frame = bits;
         out.push(p);
     }
-    flips += frame.iter().filter(|&&s| s < 0).count();
+    flips += frame.iter().map(|w| w.count_ones() as usize).sum::<usize>();
     (out, flips)
 }
+
+/// How many of the remaining pulses [`order_pulses`] considers for the next one.
+pub const ORDER_WINDOW: usize = 32;
 
 /// Every sign vector on `n` ions with `s_0 = +1`.
 fn all_signs(n: usize) -> Vec<Vec<i8>> {

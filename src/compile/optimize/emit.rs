@@ -71,6 +71,11 @@ pub struct Emitter<'a> {
     pub synth: SynthBudget,
     cache: FxHashMap<Vec<u64>, Arc<Synthesis>>,
     pub reports: Vec<BlockReport>,
+    /// Solver time left for the whole compile; once spent, blocks the cache does
+    /// not know are made by the constructions alone.
+    pub solver_left: std::time::Duration,
+    /// Solver time spent.
+    pub solver_spent: std::time::Duration,
 }
 
 impl<'a> Emitter<'a> {
@@ -82,6 +87,8 @@ impl<'a> Emitter<'a> {
             synth: SynthBudget::default(),
             cache: FxHashMap::default(),
             reports: Vec::new(),
+            solver_left: std::time::Duration::from_secs(3),
+            solver_spent: std::time::Duration::ZERO,
         }
     }
 
@@ -379,7 +386,28 @@ impl<'a> Emitter<'a> {
         if let Some(s) = self.cache.get(&key) {
             return Arc::clone(s);
         }
-        let s = Arc::new(synthesize(c, self.synth));
+        let s = if c.n <= 2 || self.solver_left.is_zero() {
+            // Two ions need no solver; without solver time, the construction.
+            let mut cheap = SynthBudget {
+                time_limit: std::time::Duration::ZERO,
+                ..self.synth
+            };
+            if c.n <= 2 {
+                cheap.time_limit = self.synth.time_limit;
+            }
+            Arc::new(synthesize(c, cheap))
+        } else {
+            let start = std::time::Instant::now();
+            let budget = SynthBudget {
+                time_limit: self.synth.time_limit.min(self.solver_left),
+                ..self.synth
+            };
+            let s = synthesize(c, budget);
+            let spent = start.elapsed();
+            self.solver_spent += spent;
+            self.solver_left = self.solver_left.saturating_sub(spent);
+            Arc::new(s)
+        };
         self.cache.insert(key, Arc::clone(&s));
         s
     }
@@ -542,6 +570,11 @@ fn push_shift(ops: &mut Vec<NativeOp>, ion: u32, theta: f64) {
 /// `F_s MS(2t) F_s` with the flips between pulses merged.
 fn pulse_ops(pulses: Vec<Pulse>) -> Vec<NativeOp> {
     let (pulses, _) = order_pulses(pulses);
+    unordered_pulse_ops(pulses)
+}
+
+/// [`pulse_ops`] in the order given.
+fn unordered_pulse_ops(pulses: Vec<Pulse>) -> Vec<NativeOp> {
     let n = pulses.first().map_or(0, |p| p.signs.len());
     let mut frame = vec![1i8; n];
     let mut ops = Vec::new();

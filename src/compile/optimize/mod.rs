@@ -75,6 +75,9 @@ pub struct OptConfig {
     pub window_qubits: Option<usize>,
     /// Time one block's coupling program may take before the fallback is used.
     pub block_time: std::time::Duration,
+    /// Solver time for the whole compile; once spent, new blocks are made by the
+    /// constructions alone (so a long circuit never stalls in the solver).
+    pub solver_time: std::time::Duration,
 }
 
 impl Default for OptConfig {
@@ -85,6 +88,7 @@ impl Default for OptConfig {
             max_steps: super::DEFAULT_MAX_STEPS,
             window_qubits: None,
             block_time: std::time::Duration::from_secs(2),
+            solver_time: std::time::Duration::from_secs(3),
         }
     }
 }
@@ -94,6 +98,8 @@ pub struct Optimized {
     pub sequence: Sequence,
     pub sync: Vec<SyncPoint>,
     pub blocks: Vec<BlockReport>,
+    /// Time spent in the coupling program's solver.
+    pub solver_time: std::time::Duration,
 }
 
 /// One range of instructions and how to compile it.
@@ -204,6 +210,7 @@ pub fn compile_optimized(
     }
     let mut emitter = emit::Emitter::new(profile, cfg.target, cfg.objective);
     emitter.synth.time_limit = cfg.block_time;
+    emitter.solver_left = cfg.solver_time;
     let mut seq = Sequence::new(ions, c.cregs.clone());
     let mut sync = Vec::new();
     let n = c.n_qubits() as usize;
@@ -280,6 +287,7 @@ pub fn compile_optimized(
     Ok(Optimized {
         sequence: seq,
         sync,
+        solver_time: emitter.solver_spent,
         blocks: emitter.reports,
     })
 }

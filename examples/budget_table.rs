@@ -40,10 +40,19 @@ fn main() {
         .filter(|p| p.extension().is_some_and(|e| e == "qasm"))
         .collect();
     files.sort();
-    println!("Objective `{}`. Each cell: baseline → optimized.\n", objective.name());
+    println!(
+        "Objective `{}`. Each cell: baseline → optimized.\n",
+        objective.name()
+    );
     println!("| circuit | qubits | target | ms_pulses | ms_area | light_shifts | duration_us | est_error |");
     println!("|---|---:|---|---:|---:|---:|---:|---:|");
-    let names = ["ms_pulses", "ms_area", "light_shifts", "duration_us", "est_error"];
+    let names = [
+        "ms_pulses",
+        "ms_area",
+        "light_shifts",
+        "duration_us",
+        "est_error",
+    ];
     for target in [Target::Collective, Target::Addressed] {
         let mut log_ratio = [0.0f64; 5];
         let mut counted = [0usize; 5];
@@ -113,7 +122,13 @@ fn main() {
             geo[3],
             geo[4]
         );
-        let w: Vec<String> = (0..5).map(|k| format!("{} {}", names[k], worse[k])).collect();
-        eprintln!("{}: circuits worse than baseline: {}", target.name(), w.join(", "));
+        let w: Vec<String> = (0..5)
+            .map(|k| format!("{} {}", names[k], worse[k]))
+            .collect();
+        eprintln!(
+            "{}: circuits worse than baseline: {}",
+            target.name(),
+            w.join(", ")
+        );
     }
 }

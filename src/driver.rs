@@ -3,7 +3,6 @@
 //! touches the file system.
 
 use crate::circuit::Circuit;
-use crate::sim::SyncPoint;
 use crate::compile::optimize::{compile_optimized, BlockReport, Objective, OptConfig};
 use crate::compile::{compile_baseline_bounded, CompileError, Target, DEFAULT_MAX_STEPS};
 use crate::native::profile::Profile;
@@ -13,6 +12,7 @@ use crate::native::Sequence;
 use crate::qasm::{self, Limits};
 use crate::report::budget::{budget, Budget};
 use crate::sim::program::{circuit_check_bytes, sequence_check_bytes};
+use crate::sim::SyncPoint;
 use crate::sim::{
     check, check_windows_counted, sync_points_from_origin, CheckConfig, CheckError, Program,
     Verdict, WindowVerdict, WorkCounter,

@@ -170,8 +170,12 @@ fn every_output_format_reads_back_to_a_sequence_equal_to_the_circuit() {
                 (Target::Addressed, false),
             ] {
                 let (seq, sync) = if baseline {
-                    let (seq, origin) = compile_baseline_traced(&circuit, &profile, target).unwrap();
-                    (seq, sync_points_from_origin(&origin, circuit.instrs.len()).unwrap())
+                    let (seq, origin) =
+                        compile_baseline_traced(&circuit, &profile, target).unwrap();
+                    (
+                        seq,
+                        sync_points_from_origin(&origin, circuit.instrs.len()).unwrap(),
+                    )
                 } else {
                     // Ranges of few qubits, so that every window is small.
                     let cfg = OptConfig {
@@ -202,7 +206,9 @@ fn every_output_format_reads_back_to_a_sequence_equal_to_the_circuit() {
                     };
                     match check_windows(&circuit, &back, &sync, &CheckConfig::default()) {
                         Ok(v) if v.equivalent => {}
-                        other => bad.push(format!("{name} {target:?} baseline {baseline} {ext}: {other:?}")),
+                        other => bad.push(format!(
+                            "{name} {target:?} baseline {baseline} {ext}: {other:?}"
+                        )),
                     }
                 }
             }

@@ -48,12 +48,24 @@ fn three_ions_reach_the_closed_form_optimum() {
         assert!((closed - want).abs() < 1e-12, "DESIGN's listed value");
         let s = synthesize(&j, Budget::default());
         assert!(s.certifies(&j), "certificate for {a} {b} {c}");
-        assert!((s.weight - want).abs() < 1e-9, "{a} {b} {c}: {} vs {want}", s.weight);
+        assert!(
+            (s.weight - want).abs() < 1e-9,
+            "{a} {b} {c}: {} vs {want}",
+            s.weight
+        );
         assert!(s.lower_bound <= s.weight + 1e-9 && s.lower_bound >= want - 1e-6);
         // The weights on (+++), (++-), (+-+), (-++) are H (t*, a, b, c) / 4.
-        let h = [[1.0, 1.0, 1.0, 1.0], [1.0, 1.0, -1.0, -1.0], [1.0, -1.0, 1.0, -1.0], [1.0, -1.0, -1.0, 1.0]];
+        let h = [
+            [1.0, 1.0, 1.0, 1.0],
+            [1.0, 1.0, -1.0, -1.0],
+            [1.0, -1.0, 1.0, -1.0],
+            [1.0, -1.0, -1.0, 1.0],
+        ];
         let v = [want, a, b, c];
-        let expect: Vec<f64> = h.iter().map(|r| r.iter().zip(&v).map(|(x, y)| x * y).sum::<f64>() / 4.0).collect();
+        let expect: Vec<f64> = h
+            .iter()
+            .map(|r| r.iter().zip(&v).map(|(x, y)| x * y).sum::<f64>() / 4.0)
+            .collect();
         if expect.iter().all(|&t| t > 1e-9) {
             // A unique optimum: the pulses are exactly these four.
             let patterns: [[i8; 3]; 4] = [[1, 1, 1], [1, 1, -1], [1, -1, 1], [-1, 1, 1]];
@@ -74,7 +86,10 @@ fn three_ions_reach_the_closed_form_optimum() {
 /// k disjoint pairs of equal coupling among n ions cost total weight theta, not k theta.
 #[test]
 fn a_layer_of_disjoint_pairs_costs_one_gate() {
-    for (n, pairs) in [(7usize, vec![(0usize, 1usize), (2, 3), (4, 5)]), (10, vec![(0, 9), (1, 8), (2, 7), (3, 4)])] {
+    for (n, pairs) in [
+        (7usize, vec![(0usize, 1usize), (2, 3), (4, 5)]),
+        (10, vec![(0, 9), (1, 8), (2, 7), (3, 4)]),
+    ] {
         let theta = 0.37;
         let entries: Vec<(usize, usize, f64)> = pairs
             .iter()
@@ -105,7 +120,14 @@ fn a_layer_of_disjoint_pairs_costs_one_gate() {
 #[test]
 fn idle_ions_are_decoupled_at_unchanged_weight() {
     let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(9);
-    let j = coupling(3, &[(0, 1, rng.gen_range(-1.0..1.0)), (0, 2, rng.gen_range(-1.0..1.0)), (1, 2, rng.gen_range(-1.0..1.0))]);
+    let j = coupling(
+        3,
+        &[
+            (0, 1, rng.gen_range(-1.0..1.0)),
+            (0, 2, rng.gen_range(-1.0..1.0)),
+            (1, 2, rng.gen_range(-1.0..1.0)),
+        ],
+    );
     let s = synthesize(&j, Budget::default());
     let active = [2usize, 5, 6];
     let n = 8;
@@ -118,11 +140,18 @@ fn idle_ions_are_decoupled_at_unchanged_weight() {
             if a == b {
                 continue;
             }
-            let want = match (active.iter().position(|&x| x == a), active.iter().position(|&x| x == b)) {
+            let want = match (
+                active.iter().position(|&x| x == a),
+                active.iter().position(|&x| x == b),
+            ) {
                 (Some(i), Some(k)) => j.get(i, k),
                 _ => 0.0,
             };
-            assert!((m[a][b] - want).abs() < 1e-12, "{a} {b}: {} vs {want}", m[a][b]);
+            assert!(
+                (m[a][b] - want).abs() < 1e-12,
+                "{a} {b}: {} vs {want}",
+                m[a][b]
+            );
         }
     }
 }
@@ -156,7 +185,11 @@ fn random_couplings_reach_the_lp_optimum() {
             let j = random_coupling(n, &mut rng);
             let exact = synthesize(&j, Budget::default());
             assert_eq!(exact.method, Method::Exact, "n = {n}: {:?}", j.w);
-            assert!(exact.certifies(&j), "n = {n}: residual {}", exact.residual(&j));
+            assert!(
+                exact.certifies(&j),
+                "n = {n}: residual {}",
+                exact.residual(&j)
+            );
             let cg = synthesize(
                 &j,
                 Budget {
@@ -167,11 +200,25 @@ fn random_couplings_reach_the_lp_optimum() {
             assert_eq!(cg.method, Method::Columns, "n = {n}");
             assert!(cg.certifies(&j));
             let tol = 1e-6 * exact.weight;
-            assert!((exact.weight - cg.weight).abs() < tol, "n = {n}: {} vs {}", exact.weight, cg.weight);
-            assert!((exact.lower_bound - exact.weight).abs() < tol, "n = {n}: dual {} primal {}", exact.lower_bound, exact.weight);
+            assert!(
+                (exact.weight - cg.weight).abs() < tol,
+                "n = {n}: {} vs {}",
+                exact.weight,
+                cg.weight
+            );
+            assert!(
+                (exact.lower_bound - exact.weight).abs() < tol,
+                "n = {n}: dual {} primal {}",
+                exact.lower_bound,
+                exact.weight
+            );
             assert!(cg.lower_bound <= cg.weight + tol && cg.lower_bound >= cg.weight - tol);
             // A vertex: at most one pulse per coupled pair.
-            assert!(exact.pulses.len() <= n * (n - 1) / 2, "n = {n}: {} pulses", exact.pulses.len());
+            assert!(
+                exact.pulses.len() <= n * (n - 1) / 2,
+                "n = {n}: {} pulses",
+                exact.pulses.len()
+            );
         }
     }
 }
@@ -182,10 +229,26 @@ fn larger_couplings_report_their_gap_to_the_dual_bound() {
     let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(5);
     for n in [12usize, 14] {
         let j = random_coupling(n, &mut rng);
-        let s = synthesize(&j, Budget { time_limit: Duration::from_secs(60), ..Budget::default() });
+        let s = synthesize(
+            &j,
+            Budget {
+                time_limit: Duration::from_secs(60),
+                ..Budget::default()
+            },
+        );
         assert!(s.certifies(&j), "n = {n}");
-        assert!(s.lower_bound > 0.0 && s.lower_bound <= s.weight * (1.0 + 1e-6), "n = {n}");
-        println!("n = {n}: weight {:.4}, dual bound {:.4}, ratio {:.4}, {:?}, {} pulses", s.weight, s.lower_bound, s.weight / s.lower_bound, s.method, s.pulses.len());
+        assert!(
+            s.lower_bound > 0.0 && s.lower_bound <= s.weight * (1.0 + 1e-6),
+            "n = {n}"
+        );
+        println!(
+            "n = {n}: weight {:.4}, dual bound {:.4}, ratio {:.4}, {:?}, {} pulses",
+            s.weight,
+            s.lower_bound,
+            s.weight / s.lower_bound,
+            s.method,
+            s.pulses.len()
+        );
         // Never worse than isolating each coupling on its own.
         assert!(s.weight <= hadamard_each(&j).weight + 1e-9);
     }

@@ -453,7 +453,10 @@ pub fn order_pulses(pulses: Vec<Pulse>) -> (Vec<Pulse>, usize) {
         pulses.into_iter().map(|p| (pack(&p.signs), p)).collect();
     let mut frame = vec![0u64; words];
     let dist = |a: &[u64], b: &[u64]| -> usize {
-        a.iter().zip(b).map(|(x, y)| (x ^ y).count_ones() as usize).sum()
+        a.iter()
+            .zip(b)
+            .map(|(x, y)| (x ^ y).count_ones() as usize)
+            .sum()
     };
     let mut out = Vec::with_capacity(left.len());
     let mut flips = 0;
@@ -690,9 +693,7 @@ fn exact(c: &Coupling) -> Option<Synthesis> {
 fn price_exact(n: usize, y: &Coupling) -> (f64, Vec<i8>) {
     let mut s = vec![1i8; n];
     // field[i] = sum_j y_ij s_j
-    let mut field: Vec<f64> = (0..n)
-        .map(|i| (0..n).map(|j| y.get(i, j)).sum())
-        .collect();
+    let mut field: Vec<f64> = (0..n).map(|i| (0..n).map(|j| y.get(i, j)).sum()).collect();
     let mut value = y.w.iter().sum::<f64>();
     let mut best = (value, s.clone());
     for g in 1..1usize << (n - 1) {
@@ -786,10 +787,7 @@ fn columns(c: &Coupling, deadline: Instant) -> Option<Synthesis> {
             return None;
         }
         let lp = solve(c, &cols, Some(big), deadline)?;
-        let y = Coupling {
-            n,
-            w: lp.y.clone(),
-        };
+        let y = Coupling { n, w: lp.y.clone() };
         let dual_value: f64 = c.w.iter().zip(&lp.y).map(|(w, y)| w * y).sum();
         let (best, new_cols): (f64, Vec<Vec<i8>>) = if n <= EXACT_PRICING_IONS {
             let (v, s) = price_exact(n, &y);
@@ -797,7 +795,11 @@ fn columns(c: &Coupling, deadline: Instant) -> Option<Synthesis> {
         } else {
             let mut starts: Vec<Vec<i8>> = cols.iter().rev().take(8).cloned().collect();
             for _ in 0..24 {
-                starts.push((0..n).map(|_| if rng.gen_bool(0.5) { 1 } else { -1 }).collect());
+                starts.push(
+                    (0..n)
+                        .map(|_| if rng.gen_bool(0.5) { 1 } else { -1 })
+                        .collect(),
+                );
             }
             let mut found = price_local(n, &y, &starts);
             found.sort_by(|a, b| b.0.total_cmp(&a.0));
@@ -821,10 +823,7 @@ fn columns(c: &Coupling, deadline: Instant) -> Option<Synthesis> {
         if g > 0.0 {
             lower_bound = lower_bound.max(dual_value / g.max(1.0));
         }
-        let mut fresh: Vec<Vec<i8>> = new_cols
-            .into_iter()
-            .filter(|s| !cols.contains(s))
-            .collect();
+        let mut fresh: Vec<Vec<i8>> = new_cols.into_iter().filter(|s| !cols.contains(s)).collect();
         fresh.dedup();
         if best <= 1.0 + 1e-9 || fresh.is_empty() {
             // No improving column: the restricted optimum is the optimum (exactly

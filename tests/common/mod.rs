@@ -104,3 +104,12 @@ pub fn program(text: &str) -> tutti::sim::Program {
 pub fn qasm(n: usize, body: &str) -> String {
     format!("OPENQASM 2.0;\ninclude \"qelib1.inc\";\nqreg q[{n}];\ncreg c[{n}];\n{body}")
 }
+
+/// A circuit from OpenQASM 2 text that must read without error.
+pub fn read_ok_str(text: &str) -> tutti::circuit::Circuit {
+    let outcome = tutti::qasm::read_str("test.qasm", text);
+    match outcome.circuit {
+        Some(c) => c,
+        None => panic!("did not read:\n{}", outcome.render()),
+    }
+}

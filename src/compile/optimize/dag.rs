@@ -117,10 +117,7 @@ pub fn fuse_locals(dag: &mut Dag) {
             Some(Canon::Local { q: q2, m: m2 }) => {
                 debug_assert_eq!(q, q2);
                 let n = next.expect("matched");
-                dag.graph[n] = Canon::Local {
-                    q,
-                    m: mul(&m2, &m),
-                };
+                dag.graph[n] = Canon::Local { q, m: mul(&m2, &m) };
                 dag.remove(node);
             }
             _ if is_identity(&m) => dag.remove(node),
@@ -147,7 +144,12 @@ pub fn merge_interactions(dag: &mut Dag) {
         let (na, nb) = (dag.next_on(node, a), dag.next_on(node, b));
         if let (Some(x), Some(y)) = (na, nb) {
             if x == y {
-                if let Canon::Zz { a: a2, b: b2, theta: t2 } = dag.graph[x] {
+                if let Canon::Zz {
+                    a: a2,
+                    b: b2,
+                    theta: t2,
+                } = dag.graph[x]
+                {
                     dag.graph[x] = Canon::Zz {
                         a: a2,
                         b: b2,

@@ -22,8 +22,8 @@ use super::schedule::Schedule;
 use super::Objective;
 use crate::circuit::{Condition, Mat2};
 use crate::compile::couple::{
-    hadamard_each, matching, order_pulses, pad_idle, synthesize, Budget as SynthBudget,
-    Coupling, Method, Pulse, Synthesis,
+    hadamard_each, matching, order_pulses, pad_idle, synthesize, Budget as SynthBudget, Coupling,
+    Method, Pulse, Synthesis,
 };
 use crate::compile::hadamard::smallest_hadamard;
 use crate::compile::lower::zyz;
@@ -76,6 +76,9 @@ pub struct Emitter<'a> {
     pub solver_left: std::time::Duration,
     /// Solver time spent.
     pub solver_spent: std::time::Duration,
+    /// When set, every block's coupling (on its own ions) and the synthesis it was
+    /// offered, for checking the certificates.
+    pub certificates: Option<Vec<(Coupling, Arc<Synthesis>)>>,
 }
 
 impl<'a> Emitter<'a> {
@@ -89,6 +92,7 @@ impl<'a> Emitter<'a> {
             reports: Vec::new(),
             solver_left: std::time::Duration::from_secs(3),
             solver_spent: std::time::Duration::ZERO,
+            certificates: None,
         }
     }
 
@@ -175,7 +179,11 @@ impl<'a> Emitter<'a> {
             push_shift(&mut ops, q, t);
         }
         parts.push(Part::Ops(ops));
-        (peephole(resolve_quiet(parts, quiet), self.n()), reports, used_quiet)
+        (
+            peephole(resolve_quiet(parts, quiet), self.n()),
+            reports,
+            used_quiet,
+        )
     }
 
     /// The objective's figures of a list of operations (smaller is better).
@@ -197,7 +205,12 @@ impl<'a> Emitter<'a> {
         }
     }
 
-    fn layer(&self, layer: &[(u32, Mat2)], carry: &mut FxHashMap<u32, f64>, ops: &mut Vec<NativeOp>) {
+    fn layer(
+        &self,
+        layer: &[(u32, Mat2)],
+        carry: &mut FxHashMap<u32, f64>,
+        ops: &mut Vec<NativeOp>,
+    ) {
         let mut ys: Vec<(u32, f64)> = Vec::new();
         let mut after: Vec<(u32, f64)> = Vec::new();
         for &(q, m) in layer {
@@ -220,7 +233,9 @@ impl<'a> Emitter<'a> {
                 && d.addressed.is_some_and(|a| {
                     let each: f64 = ys.iter().map(|(_, g)| a.at(*g)).sum();
                     let shifts: f64 = if caps.parallel_light_shifts {
-                        ys.iter().map(|(_, g)| d.light_shift.at(*g)).fold(0.0, f64::max)
+                        ys.iter()
+                            .map(|(_, g)| d.light_shift.at(*g))
+                            .fold(0.0, f64::max)
                     } else {
                         ys.iter().map(|(_, g)| d.light_shift.at(*g)).sum()
                     };
@@ -290,7 +305,10 @@ impl<'a> Emitter<'a> {
             device.set(a as usize, b as usize, w);
         }
         let best = self.synthesis(&local);
-        let mut candidates: Vec<(Vec<NativeOp>, Method, f64)> = Vec::new();
+        if let Some(certs) = &mut self.certificates {
+            certs.push((local.clone(), Arc::clone(&best)));
+        }
+        let mut candidates: Vec<Candidate> = Vec::new();
         let active_idx: Vec<usize> = active.iter().map(|&q| q as usize).collect();
         candidates.push((
             pulse_ops(pad_idle(&best, &active_idx, n)),
@@ -413,16 +431,16 @@ impl<'a> Emitter<'a> {
     }
 
     /// The candidate the objective prefers, costed by the budget model.
-    fn choose(
-        &self,
-        candidates: Vec<(Vec<NativeOp>, Method, f64)>,
-    ) -> (usize, (Vec<NativeOp>, Method, f64)) {
-        let mut best: Option<((f64, f64), (usize, (Vec<NativeOp>, Method, f64)))> = None;
+    fn choose(&self, candidates: Vec<Candidate>) -> (usize, Candidate) {
+        let mut best: Option<((f64, f64), (usize, Candidate))> = None;
         for (index, cand) in candidates.into_iter().enumerate() {
             let key = self.key(&cand.0);
             let better = match &best {
                 None => true,
-                Some((k, _)) => key.0 < k.0 - 1e-12 * k.0.abs() || (key.0 <= k.0 + 1e-12 * k.0.abs() && key.1 < k.1),
+                Some((k, _)) => {
+                    key.0 < k.0 - 1e-12 * k.0.abs()
+                        || (key.0 <= k.0 + 1e-12 * k.0.abs() && key.1 < k.1)
+                }
             };
             if better {
                 best = Some((key, (index, cand)));
@@ -431,6 +449,10 @@ impl<'a> Emitter<'a> {
         best.expect("at least one candidate").1
     }
 }
+
+/// One way to make a block: its operations, how its couplings were found, and its
+/// total weight.
+type Candidate = (Vec<NativeOp>, Method, f64);
 
 /// Part of a segment's output: operations, or a block whose quiet ions still need
 /// their signs (see [`resolve_quiet`]).
@@ -518,7 +540,11 @@ fn resolve_quiet(parts: Vec<Part>, quiet: &[bool]) -> Vec<NativeOp> {
                 for g in groups {
                     let mut left = g.weight;
                     while left > 0.0 {
-                        let take = if quiet_ions.len() <= 1 { left } else { left.min(room) };
+                        let take = if quiet_ions.len() <= 1 {
+                            left
+                        } else {
+                            left.min(room)
+                        };
                         let fraction = take / g.weight;
                         let r = &hq[row.min(hq.len() - 1)];
                         for p in &g.pulses {
@@ -681,7 +707,8 @@ fn rephase_z_runs(ops: Vec<NativeOp>, n: u32) -> Vec<NativeOp> {
     let mut hidden = 0usize;
     let mut i = 0;
     while i < ops.len() {
-        let is_z = |op: &NativeOp| matches!(op, NativeOp::LightShift { .. } | NativeOp::VirtualZ { .. });
+        let is_z =
+            |op: &NativeOp| matches!(op, NativeOp::LightShift { .. } | NativeOp::VirtualZ { .. });
         if hidden > 0 || !is_z(&ops[i]) {
             match ops[i] {
                 NativeOp::Hide { .. } => hidden += 1,
@@ -737,7 +764,11 @@ fn rephase_z_runs(ops: Vec<NativeOp>, n: u32) -> Vec<NativeOp> {
                 .iter()
                 .filter(|&&q| wrap(angle[q] + frame - c.0).abs() <= 1e-12)
                 .count();
-            let on_untouched = if wrap(frame - c.0).abs() <= 1e-12 { untouched } else { 0 };
+            let on_untouched = if wrap(frame - c.0).abs() <= 1e-12 {
+                untouched
+            } else {
+                0
+            };
             c.1 = on_touched + on_untouched;
         }
         let (g, _) = counts

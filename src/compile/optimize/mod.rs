@@ -78,6 +78,8 @@ pub struct OptConfig {
     /// Solver time for the whole compile; once spent, new blocks are made by the
     /// constructions alone (so a long circuit never stalls in the solver).
     pub solver_time: std::time::Duration,
+    /// Keep every block's coupling and synthesis in [`Optimized::certificates`].
+    pub keep_certificates: bool,
 }
 
 impl Default for OptConfig {
@@ -89,6 +91,7 @@ impl Default for OptConfig {
             window_qubits: None,
             block_time: std::time::Duration::from_secs(2),
             solver_time: std::time::Duration::from_secs(3),
+            keep_certificates: false,
         }
     }
 }
@@ -100,6 +103,12 @@ pub struct Optimized {
     pub blocks: Vec<BlockReport>,
     /// Time spent in the coupling program's solver.
     pub solver_time: std::time::Duration,
+    /// Each block's coupling on its own ions and the synthesis offered for it (sign
+    /// vectors and weights), when asked for.
+    pub certificates: Vec<(
+        crate::compile::couple::Coupling,
+        std::sync::Arc<crate::compile::couple::Synthesis>,
+    )>,
 }
 
 /// One range of instructions and how to compile it.
@@ -211,6 +220,9 @@ pub fn compile_optimized(
     let mut emitter = emit::Emitter::new(profile, cfg.target, cfg.objective);
     emitter.synth.time_limit = cfg.block_time;
     emitter.solver_left = cfg.solver_time;
+    if cfg.keep_certificates {
+        emitter.certificates = Some(Vec::new());
+    }
     let mut seq = Sequence::new(ions, c.cregs.clone());
     let mut sync = Vec::new();
     let n = c.n_qubits() as usize;
@@ -288,6 +300,7 @@ pub fn compile_optimized(
         sequence: seq,
         sync,
         solver_time: emitter.solver_spent,
+        certificates: emitter.certificates.unwrap_or_default(),
         blocks: emitter.reports,
     })
 }

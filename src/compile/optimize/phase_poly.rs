@@ -151,7 +151,10 @@ impl Region {
     /// The region's instructions, rewritten when that saves two-qubit operations.
     fn flush(&mut self, out: &mut Vec<Instr>) {
         let region = std::mem::take(self);
-        let linear_identity = region.parity.iter().all(|(q, p)| p.len() == 1 && p[0] == *q);
+        let linear_identity = region
+            .parity
+            .iter()
+            .all(|(q, p)| p.len() == 1 && p[0] == *q);
         let representable = region.terms.iter().all(|(p, _)| p.len() <= 2);
         let pairs = region
             .terms
@@ -166,7 +169,10 @@ impl Region {
         let gate = |kind: GateKind, params: &[f64], qs: &[u32]| Instr {
             op: Op::Gate {
                 gate: Gate::new(kind, params),
-                qubits: qs.iter().map(|&q| crate::circuit::Qubit(q)).collect::<Qubits>(),
+                qubits: qs
+                    .iter()
+                    .map(|&q| crate::circuit::Qubit(q))
+                    .collect::<Qubits>(),
             },
             condition: None,
         };
@@ -204,7 +210,10 @@ pub fn rewrite(instrs: &[Instr]) -> Vec<Instr> {
             .qubits()
             .iter()
             .any(|q| region.parity.contains_key(&q.0));
-        if touches || matches!(instr.op, Op::Measure { .. } | Op::Reset { .. }) || instr.condition.is_some() {
+        if touches
+            || matches!(instr.op, Op::Measure { .. } | Op::Reset { .. })
+            || instr.condition.is_some()
+        {
             region.flush(&mut out);
         }
         out.push(instr.clone());

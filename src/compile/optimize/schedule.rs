@@ -97,7 +97,7 @@ pub fn schedule(ops: &[Canon], n: usize) -> Schedule {
     }
     // One entry per pair in each block.
     for block in &mut blocks {
-        block.sort_by(|p, q| (p.0, p.1).cmp(&(q.0, q.1)));
+        block.sort_by_key(|p| (p.0, p.1));
         let mut merged: Block = Vec::with_capacity(block.len());
         for &(a, b, w) in block.iter() {
             match merged.last_mut() {

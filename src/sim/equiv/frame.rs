@@ -117,8 +117,14 @@ pub(super) fn interaction_picture(ks: &[Kernel], n: usize) -> Option<(Vec<Kernel
                 // sigma_phi in the interaction picture.
                 let (s, co) = phi.sin_cos();
                 let sigma: Mat2 = [
-                    [num_complex::Complex64::new(0.0, 0.0), num_complex::Complex64::new(co, -s)],
-                    [num_complex::Complex64::new(co, s), num_complex::Complex64::new(0.0, 0.0)],
+                    [
+                        num_complex::Complex64::new(0.0, 0.0),
+                        num_complex::Complex64::new(co, -s),
+                    ],
+                    [
+                        num_complex::Complex64::new(co, s),
+                        num_complex::Complex64::new(0.0, 0.0),
+                    ],
                 ];
                 let a = mul2(&adjoint2(&c), &mul2(&sigma, &c));
                 // a = n . sigma: n_z = a00, n_x = Re a10, n_y = Im a10.
@@ -198,7 +204,11 @@ mod tests {
             let (out, slack) = interaction_picture(&ks, n).expect("applies");
             let (a, b) = (unitary_of(&ks, n), unitary_of(&out, n));
             // Align the global phase on the largest entry.
-            let (i, _) = a.iter().enumerate().max_by(|x, y| x.1.norm().total_cmp(&y.1.norm())).unwrap();
+            let (i, _) = a
+                .iter()
+                .enumerate()
+                .max_by(|x, y| x.1.norm().total_cmp(&y.1.norm()))
+                .unwrap();
             let ph = b[i] / a[i];
             let d = (a * ph - b).iter().fold(0.0f64, |m, z| m.max(z.norm()));
             assert!(d < 1e-10 + slack, "distance {d}");

@@ -311,7 +311,7 @@ impl<'a> Emitter<'a> {
         let mut candidates: Vec<Candidate> = Vec::new();
         let active_idx: Vec<usize> = active.iter().map(|&q| q as usize).collect();
         candidates.push((
-            pulse_ops(pad_idle(&best, &active_idx, n)),
+            Made::Pulses(pad_idle(&best, &active_idx, n)),
             best.method,
             best.weight,
         ));
@@ -320,14 +320,14 @@ impl<'a> Emitter<'a> {
         let n_quiet = quiet.iter().filter(|&&q| q).count();
         if n_quiet > 0 {
             let flat: Vec<Pulse> = groups.iter().flat_map(|g| g.pulses.clone()).collect();
-            candidates.push((pulse_ops(flat), best.method, best.weight));
+            candidates.push((Made::Pulses(flat), best.method, best.weight));
         }
         let quiet_candidate = if n_quiet > 0 { 1 } else { usize::MAX };
         if let Some(m) = matching(&device) {
-            candidates.push((pulse_ops(m.pulses.clone()), Method::Matching, m.weight));
+            candidates.push((Made::Pulses(m.pulses), Method::Matching, m.weight));
         }
         let h = hadamard_each(&device);
-        candidates.push((pulse_ops(h.pulses), Method::Hadamard, h.weight));
+        candidates.push((Made::Pulses(h.pulses), Method::Hadamard, h.weight));
         if self.target == Target::Addressed {
             let caps = self.profile.capabilities;
             if caps.pair_ms {
@@ -341,7 +341,7 @@ impl<'a> Emitter<'a> {
                     })
                     .collect();
                 let weight = terms.iter().map(|t| t.2.abs()).sum();
-                candidates.push((pair, Method::Single, weight));
+                candidates.push((Made::Ops(pair), Method::Single, weight));
             }
             if caps.hiding && active.len() < n {
                 let on_active: Vec<Pulse> = best
@@ -370,7 +370,7 @@ impl<'a> Emitter<'a> {
                     NativeOp::Hide { ion } => NativeOp::Unhide { ion },
                     other => other,
                 }));
-                candidates.push((body, best.method, best.weight));
+                candidates.push((Made::Ops(body), best.method, best.weight));
             }
         }
         let (index, (chosen, method, weight)) = self.choose(candidates);
@@ -431,10 +431,62 @@ impl<'a> Emitter<'a> {
     }
 
     /// The candidate the objective prefers, costed by the budget model.
-    fn choose(&self, candidates: Vec<Candidate>) -> (usize, Candidate) {
-        let mut best: Option<((f64, f64), (usize, Candidate))> = None;
-        for (index, cand) in candidates.into_iter().enumerate() {
-            let key = self.key(&cand.0);
+    /// A lower bound on a candidate's key from its entangling pulses alone (the
+    /// other operations only add time and error).
+    fn lower_key(&self, made: &Made) -> (f64, f64) {
+        let d = &self.profile.durations_us;
+        let e = &self.profile.errors;
+        let (mut count, mut area, mut time, mut keep) = (0.0, 0.0, 0.0, 1.0f64);
+        let mut add = |theta: f64, pair: bool| {
+            let (dc, ec) = if pair {
+                (d.pair_ms.unwrap_or(d.ms), e.pair_ms.unwrap_or(e.ms))
+            } else {
+                (d.ms, e.ms)
+            };
+            count += 1.0;
+            area += theta.abs() / FRAC_PI_2;
+            time += dc.at(theta);
+            keep *= (1.0 - ec.at(theta)).max(0.0);
+        };
+        match made {
+            Made::Pulses(p) => p.iter().for_each(|p| add(2.0 * p.weight, false)),
+            Made::Ops(ops) => ops.iter().for_each(|op| match *op {
+                NativeOp::Ms { theta, .. } => add(theta, false),
+                NativeOp::PairMs { theta, .. } => add(theta, true),
+                _ => {}
+            }),
+        }
+        match self.objective {
+            Objective::Pulses => (count, area),
+            Objective::Area => (area, count),
+            Objective::Duration => (time, area),
+            Objective::Error => (1.0 - keep, time),
+        }
+    }
+
+    /// The candidate the objective prefers, costed by the budget model; candidates
+    /// whose entangling pulses alone cost more than the best found are not built.
+    fn choose(&self, candidates: Vec<Candidate>) -> (usize, (Vec<NativeOp>, Method, f64)) {
+        let mut order: Vec<(usize, (f64, f64))> = candidates
+            .iter()
+            .enumerate()
+            .map(|(i, c)| (i, self.lower_key(&c.0)))
+            .collect();
+        order.sort_by(|a, b| a.1 .0.total_cmp(&b.1 .0));
+        let mut slots: Vec<Option<Candidate>> = candidates.into_iter().map(Some).collect();
+        let mut best: Option<((f64, f64), (usize, (Vec<NativeOp>, Method, f64)))> = None;
+        for (index, lower) in order {
+            if let Some((k, _)) = &best {
+                if lower.0 > k.0 + 1e-12 * k.0.abs() {
+                    break;
+                }
+            }
+            let (made, method, weight) = slots[index].take().expect("each once");
+            let ops = match made {
+                Made::Pulses(p) => pulse_ops(p),
+                Made::Ops(ops) => ops,
+            };
+            let key = self.key(&ops);
             let better = match &best {
                 None => true,
                 Some((k, _)) => {
@@ -443,16 +495,22 @@ impl<'a> Emitter<'a> {
                 }
             };
             if better {
-                best = Some((key, (index, cand)));
+                best = Some((key, (index, (ops, method, weight))));
             }
         }
         best.expect("at least one candidate").1
     }
 }
 
-/// One way to make a block: its operations, how its couplings were found, and its
+/// A candidate's pulses: sign vectors still to be ordered, or operations.
+enum Made {
+    Pulses(Vec<Pulse>),
+    Ops(Vec<NativeOp>),
+}
+
+/// One way to make a block: its pulses, how its couplings were found, and its
 /// total weight.
-type Candidate = (Vec<NativeOp>, Method, f64);
+type Candidate = (Made, Method, f64);
 
 /// Part of a segment's output: operations, or a block whose quiet ions still need
 /// their signs (see [`resolve_quiet`]).

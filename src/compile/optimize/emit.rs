@@ -466,7 +466,7 @@ impl<'a> Emitter<'a> {
 
     /// The candidate the objective prefers, costed by the budget model; candidates
     /// whose entangling pulses alone cost more than the best found are not built.
-    fn choose(&self, candidates: Vec<Candidate>) -> (usize, (Vec<NativeOp>, Method, f64)) {
+    fn choose(&self, candidates: Vec<Candidate>) -> (usize, Built) {
         let mut order: Vec<(usize, (f64, f64))> = candidates
             .iter()
             .enumerate()
@@ -474,7 +474,7 @@ impl<'a> Emitter<'a> {
             .collect();
         order.sort_by(|a, b| a.1 .0.total_cmp(&b.1 .0));
         let mut slots: Vec<Option<Candidate>> = candidates.into_iter().map(Some).collect();
-        let mut best: Option<((f64, f64), (usize, (Vec<NativeOp>, Method, f64)))> = None;
+        let mut best: Option<((f64, f64), (usize, Built))> = None;
         for (index, lower) in order {
             if let Some((k, _)) = &best {
                 if lower.0 > k.0 + 1e-12 * k.0.abs() {
@@ -501,6 +501,9 @@ impl<'a> Emitter<'a> {
         best.expect("at least one candidate").1
     }
 }
+
+/// A chosen candidate: its operations, method and total weight.
+type Built = (Vec<NativeOp>, Method, f64);
 
 /// A candidate's pulses: sign vectors still to be ordered, or operations.
 enum Made {

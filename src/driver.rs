@@ -503,8 +503,10 @@ pub fn compile_counted(
             }
             Err(CheckError::TooLarge { .. } | CheckError::TooSlow { .. }) => {
                 if !cfg.baseline {
-                    // Recompile in ranges of few qubits, so that every window is small.
+                    // Recompile in ranges of few qubits, so that every window is small
+                    // (the first output is freed first: it can be most of the memory).
                     on_stage(Stage::Compile);
+                    drop(std::mem::take(&mut sequence.steps));
                     (sequence, sync, blocks) = compile_one(c, profile, cfg, Some(WINDOW_QUBITS))?;
                 }
                 on_stage(Stage::VerifyWindows);

@@ -761,15 +761,19 @@ fn merge_collective(ops: Vec<NativeOp>) -> Vec<NativeOp> {
 
 /// Each run of light shifts and frame changes (they commute) becomes the frame
 /// change that the most ions share and a light shift on each other ion. Runs while
-/// an ion is hidden are left alone.
+/// an ion is hidden are left alone. Cost linear in the run, plus the ion count only
+/// when the chosen frame differs from the run's own.
 fn rephase_z_runs(ops: Vec<NativeOp>, n: u32) -> Vec<NativeOp> {
     let n = n as usize;
     let mut out = Vec::with_capacity(ops.len());
     let mut hidden = 0usize;
+    let mut angle = vec![0.0f64; n];
+    let mut seen = vec![false; n];
+    let mut touched: Vec<usize> = Vec::new();
+    let is_z =
+        |op: &NativeOp| matches!(op, NativeOp::LightShift { .. } | NativeOp::VirtualZ { .. });
     let mut i = 0;
     while i < ops.len() {
-        let is_z =
-            |op: &NativeOp| matches!(op, NativeOp::LightShift { .. } | NativeOp::VirtualZ { .. });
         if hidden > 0 || !is_z(&ops[i]) {
             match ops[i] {
                 NativeOp::Hide { .. } => hidden += 1,
@@ -785,65 +789,71 @@ fn rephase_z_runs(ops: Vec<NativeOp>, n: u32) -> Vec<NativeOp> {
             i += 1;
         }
         let run = &ops[start..i];
-        let mut angle = vec![0.0f64; n];
+        if run.len() == 1 {
+            out.push(run[0]);
+            continue;
+        }
         let mut frame = 0.0;
-        let mut touched = Vec::new();
+        touched.clear();
         for op in run {
             match *op {
                 NativeOp::LightShift { ion, theta } => {
-                    if angle[ion as usize] == 0.0 {
-                        touched.push(ion as usize);
+                    let q = ion as usize;
+                    if !seen[q] {
+                        seen[q] = true;
+                        angle[q] = 0.0;
+                        touched.push(q);
                     }
-                    angle[ion as usize] += theta;
+                    angle[q] += theta;
                 }
                 NativeOp::VirtualZ { theta } => frame += theta,
                 _ => unreachable!("z run"),
             }
         }
-        // Candidate frames: zero extra light shifts for ions untouched (frame
-        // alone), or the total of some touched ion.
-        let untouched = n - {
-            let mut t = touched.clone();
-            t.sort_unstable();
-            t.dedup();
-            t.len()
-        };
-        let mut counts: Vec<(f64, usize)> = vec![(wrap(frame), untouched)];
+        touched.sort_unstable();
+        let untouched = n - touched.len();
+        // Candidate frames: the run's own (untouched ions need nothing), or the total
+        // of some touched ion; counted exactly.
+        let same = |x: f64, y: f64| wrap(x - y).abs() <= 1e-12;
+        let mut values: Vec<f64> = vec![wrap(frame)];
         for &q in &touched {
             let v = wrap(angle[q] + frame);
-            match counts.iter_mut().find(|(x, _)| wrap(x - v).abs() <= 1e-12) {
-                Some(c) => c.1 += 1,
-                None => counts.push((v, 1)),
+            if !values.iter().any(|&x| same(x, v)) {
+                values.push(v);
             }
         }
-        // Each touched ion was counted once per appearance; recount exactly.
-        let mut touched_set = touched.clone();
-        touched_set.sort_unstable();
-        touched_set.dedup();
-        for c in counts.iter_mut() {
-            let on_touched = touched_set
+        let count = |g: f64| {
+            touched
                 .iter()
-                .filter(|&&q| wrap(angle[q] + frame - c.0).abs() <= 1e-12)
-                .count();
-            let on_untouched = if wrap(frame - c.0).abs() <= 1e-12 {
-                untouched
-            } else {
-                0
-            };
-            c.1 = on_touched + on_untouched;
+                .filter(|&&q| same(angle[q] + frame, g))
+                .count()
+                + if same(frame, g) { untouched } else { 0 }
+        };
+        let mut g = values[0];
+        let mut best = count(g);
+        for &v in &values[1..] {
+            let c = count(v);
+            if c > best || (c == best && v.abs() < g.abs()) {
+                g = v;
+                best = c;
+            }
         }
-        let (g, _) = counts
-            .iter()
-            .copied()
-            .max_by(|a, b| a.1.cmp(&b.1).then(b.0.abs().total_cmp(&a.0.abs())))
-            .expect("one candidate");
         let mut rewritten = Vec::new();
         if wrap(g).abs() > EPS {
             rewritten.push(NativeOp::VirtualZ { theta: wrap(g) });
         }
-        for ion in 0..n {
-            let total = angle[ion] + frame - g;
-            push_shift(&mut rewritten, ion as u32, total);
+        if same(frame, g) {
+            for &q in &touched {
+                push_shift(&mut rewritten, q as u32, angle[q] + frame - g);
+            }
+        } else {
+            for ion in 0..n {
+                let total = if seen[ion] { angle[ion] } else { 0.0 };
+                push_shift(&mut rewritten, ion as u32, total + frame - g);
+            }
+        }
+        for &q in &touched {
+            seen[q] = false;
         }
         if rewritten.len() <= run.len() {
             out.extend(rewritten);

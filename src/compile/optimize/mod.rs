@@ -111,6 +111,10 @@ pub struct Optimized {
     )>,
 }
 
+/// Most instructions in one range: blocks never span more, and the memory of a
+/// range's two plans (with and without the shared quiet column) stays bounded.
+pub const MAX_RANGE_INSTRS: usize = 4096;
+
 /// One range of instructions and how to compile it.
 enum Range {
     /// Unconditioned gates.
@@ -150,6 +154,13 @@ fn ranges(c: &Circuit, window_qubits: Option<usize>) -> Vec<Range> {
             touched.iter_mut().for_each(|t| *t = false);
             count = 0;
             continue;
+        }
+        if i - start >= MAX_RANGE_INSTRS {
+            // Bounded ranges keep the memory of one range's plans small.
+            close(&mut out, start, i);
+            start = i;
+            touched.iter_mut().for_each(|t| *t = false);
+            count = 0;
         }
         if let Some(cap) = window_qubits {
             let new = instr

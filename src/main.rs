@@ -116,8 +116,8 @@ enum Command {
         /// Native operations to use: collective (collective rotations, light shifts,
         /// global MS pulses) or addressed (also pair MS pulses, addressed rotations and
         /// hiding, where the device has them).
-        #[arg(long, value_enum, default_value_t = Target::Collective)]
-        target: Target,
+        #[arg(long, value_enum, default_value_t = TargetArg::Collective)]
+        target: TargetArg,
         /// Output format; by default the one `-o`'s extension names (.pulses, .json,
         /// .qasm), else the pulse list. A format that contradicts the extension is an
         /// error.
@@ -158,8 +158,8 @@ enum Command {
         /// Native operations to use: collective (collective rotations, light shifts,
         /// global MS pulses) or addressed (also pair MS pulses, addressed rotations and
         /// hiding, where the device has them).
-        #[arg(long, value_enum, default_value_t = Target::Collective)]
-        target: Target,
+        #[arg(long, value_enum, default_value_t = TargetArg::Collective)]
+        target: TargetArg,
         /// Budget what the reference compiler makes (every two-qubit gate on its own).
         #[arg(long)]
         baseline: bool,
@@ -334,6 +334,7 @@ fn run(cli: Cli) -> Result<ExitCode, Failure> {
             ions,
             limits,
         } => {
+            let target: Target = target.into();
             let limits = limits.limits();
             let cfg = CompileConfig {
                 target,
@@ -384,6 +385,7 @@ fn run(cli: Cli) -> Result<ExitCode, Failure> {
             ions,
             limits,
         } => {
+            let target: Target = target.into();
             let limits = limits.limits();
             let (budget, how) = match driver::load(&file, &limits)? {
                 (driver::Loaded::Sequence(seq), warnings) => {
@@ -480,6 +482,25 @@ fn run(cli: Cli) -> Result<ExitCode, Failure> {
             } else {
                 ExitCode::from(1)
             })
+        }
+    }
+}
+
+/// Which native operations the compiler may use (the CLI's own names for the
+/// library's [`Target`]).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+enum TargetArg {
+    /// Collective rotations, light shifts and global MS pulses only.
+    Collective,
+    /// Also pair MS pulses, addressed rotations and hiding, where the device has them.
+    Addressed,
+}
+
+impl From<TargetArg> for Target {
+    fn from(t: TargetArg) -> Target {
+        match t {
+            TargetArg::Collective => Target::Collective,
+            TargetArg::Addressed => Target::Addressed,
         }
     }
 }

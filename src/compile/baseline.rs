@@ -22,7 +22,7 @@ use crate::native::{NativeOp, Sequence, Step};
 use std::f64::consts::{FRAC_PI_2, PI};
 
 /// Which native operations the compiler may use.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum, serde::Serialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
 #[serde(rename_all = "lowercase")]
 pub enum Target {
     /// Collective rotations, light shifts and global MS pulses only.

@@ -7,34 +7,13 @@
 //! is also compiled there (the 1M one would pass the default step limit).
 //! Figures are printed, not asserted. Run with `cargo bench --bench compile`.
 
-use std::fmt::Write;
+mod common;
+
+use common::{generated, Kind};
 use std::time::Instant;
 use tutti::compile::optimize::{compile_optimized, OptConfig};
 use tutti::compile::Target;
 use tutti::native::profile::Profile;
-
-/// A circuit of `gates` gates on `n` qubits: rotations, Hadamards, CNOTs and
-/// controlled phases, from a fixed linear congruential sequence.
-fn generated(n: usize, gates: usize) -> String {
-    let mut text = format!("OPENQASM 2.0;\ninclude \"qelib1.inc\";\nqreg q[{n}];\n");
-    let mut x: u64 = 0x50;
-    for g in 0..gates {
-        x = x
-            .wrapping_mul(6364136223846793005)
-            .wrapping_add(1442695040888963407);
-        let a = (x >> 33) as usize % n;
-        let b = (a + 1 + (x >> 13) as usize % (n - 1)) % n;
-        let angle = 0.1 + (g % 97) as f64 * 0.0137;
-        let _ = match (x >> 60) % 5 {
-            0 => writeln!(text, "rz({angle}) q[{a}];"),
-            1 => writeln!(text, "ry({angle}) q[{a}];"),
-            2 => writeln!(text, "h q[{a}];"),
-            3 => writeln!(text, "cx q[{a}],q[{b}];"),
-            _ => writeln!(text, "cu1({angle}) q[{a}],q[{b}];"),
-        };
-    }
-    text
-}
 
 fn main() {
     let mut profile = Profile::demo();
@@ -46,7 +25,12 @@ fn main() {
         (Target::Collective, &[100_000usize][..]),
     ] {
         for &gates in sizes {
-            let text = generated(50, gates);
+            let text = generated(
+                50,
+                gates,
+                0x50,
+                &[Kind::Rz, Kind::Ry, Kind::H, Kind::Cx, Kind::Cu1],
+            );
             let t = Instant::now();
             let circuit = tutti::qasm::read_str("generated.qasm", &text)
                 .circuit

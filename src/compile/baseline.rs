@@ -70,6 +70,26 @@ pub const DEFAULT_MAX_STEPS: usize = 10_000_000;
 /// Bytes one step of a compiled sequence takes, with its trace entry.
 pub const BYTES_PER_STEP: usize = std::mem::size_of::<Step>() + std::mem::size_of::<u32>();
 
+/// Whether `profile`'s device can run `c` on `target` at all: enough ions, and an
+/// entangling operation the target may use. Shared by both compilers.
+pub fn check_device(c: &Circuit, profile: &Profile, target: Target) -> Result<(), CompileError> {
+    let ions = profile.device.ions;
+    if c.n_qubits() > ions {
+        return Err(CompileError::TooFewIons {
+            needed: c.n_qubits(),
+            ions,
+            device: profile.device.name.clone(),
+        });
+    }
+    let caps = profile.capabilities;
+    if target == Target::Addressed && !caps.pair_ms && !caps.hiding {
+        return Err(CompileError::NoAddressedEntangler(
+            profile.device.name.clone(),
+        ));
+    }
+    Ok(())
+}
+
 /// Angles this close to zero are left out.
 const EPS: f64 = 1e-12;
 
@@ -95,7 +115,7 @@ impl Emit {
 }
 
 /// Wraps an angle into (-pi, pi]; rotations by 2 pi are -1, a global phase here.
-fn wrap(theta: f64) -> f64 {
+pub(crate) fn wrap(theta: f64) -> f64 {
     let mut t = theta % (2.0 * PI);
     if t > PI {
         t -= 2.0 * PI;
@@ -134,20 +154,9 @@ pub fn compile_baseline_bounded(
     target: Target,
     max_steps: usize,
 ) -> Result<(Sequence, Vec<u32>), CompileError> {
+    check_device(c, profile, target)?;
     let ions = profile.device.ions;
-    if c.n_qubits() > ions {
-        return Err(CompileError::TooFewIons {
-            needed: c.n_qubits(),
-            ions,
-            device: profile.device.name.clone(),
-        });
-    }
     let caps = profile.capabilities;
-    if target == Target::Addressed && !caps.pair_ms && !caps.hiding {
-        return Err(CompileError::NoAddressedEntangler(
-            profile.device.name.clone(),
-        ));
-    }
     let canon = lower(c)?;
     let mut e = Emit {
         seq: Sequence::new(ions, c.cregs.clone()),

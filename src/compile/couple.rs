@@ -435,8 +435,8 @@ pub fn pad_idle(s: &Synthesis, active: &[usize], n: usize) -> Vec<Pulse> {
 /// ending with no ion flipped (greedy nearest neighbour on the Hamming distance,
 /// among the next [`ORDER_WINDOW`] pulses of the list, so the cost stays linear),
 /// and picks for each pulse the one of `s`, `-s` closer to the one before (the two
-/// give the same pulse). Returns the pulses in order and the flips this needs.
-pub fn order_pulses(pulses: Vec<Pulse>) -> (Vec<Pulse>, usize) {
+/// give the same pulse).
+pub fn order_pulses(pulses: Vec<Pulse>) -> Vec<Pulse> {
     let n = pulses.first().map_or(0, |p| p.signs.len());
     let words = n.div_ceil(64);
     // Sign vectors as bit sets (bit set = -1), so a distance is a few popcounts.
@@ -459,7 +459,6 @@ pub fn order_pulses(pulses: Vec<Pulse>) -> (Vec<Pulse>, usize) {
             .sum()
     };
     let mut out = Vec::with_capacity(left.len());
-    let mut flips = 0;
     while !left.is_empty() {
         let mut best = (usize::MAX, 0usize, false);
         for (k, (bits, _)) in left.iter().take(ORDER_WINDOW).enumerate() {
@@ -474,12 +473,10 @@ pub fn order_pulses(pulses: Vec<Pulse>) -> (Vec<Pulse>, usize) {
             p.signs.iter_mut().for_each(|s| *s = -*s);
             bits = pack(&p.signs);
         }
-        flips += best.0;
         frame = bits;
         out.push(p);
     }
-    flips += frame.iter().map(|w| w.count_ones() as usize).sum::<usize>();
-    (out, flips)
+    out
 }
 
 /// How many of the remaining pulses [`order_pulses`] considers for the next one.

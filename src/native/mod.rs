@@ -14,6 +14,7 @@
 //!
 //! Invariant: every ion index of a [`Sequence`] is below `n_ions`.
 
+pub mod budget;
 pub mod profile;
 pub mod qasm_out;
 pub mod text;
@@ -290,4 +291,34 @@ mod tests {
     fn a_step_is_compact() {
         assert!(std::mem::size_of::<super::Step>() <= 40);
     }
+}
+
+/// `exp(-i theta/2 sigma_phi)`: the single-ion unitary of a collective rotation
+/// `R(theta, phi)` (and of an addressed one).
+pub fn rotation(theta: f64, phi: f64) -> crate::circuit::Mat2 {
+    let (s, c) = (theta / 2.0).sin_cos();
+    let e = num_complex::Complex64::from_polar(1.0, phi);
+    let mi = num_complex::Complex64::new(0.0, -1.0);
+    [
+        [num_complex::Complex64::new(c, 0.0), mi * s * e.conj()],
+        [mi * s * e, num_complex::Complex64::new(c, 0.0)],
+    ]
+}
+
+/// `exp(-i theta/2 Z)`: a light shift, or a frame change on every ion.
+pub fn z_rotation(theta: f64) -> crate::circuit::Mat2 {
+    let z = num_complex::Complex64::new(0.0, 0.0);
+    [
+        [num_complex::Complex64::from_polar(1.0, -theta / 2.0), z],
+        [z, num_complex::Complex64::from_polar(1.0, theta / 2.0)],
+    ]
+}
+
+/// A point where a prefix of a circuit (its first `instrs` instructions) and a prefix
+/// of a sequence compiled from it (its first `steps` steps) are claimed to be the
+/// same unitary; the checker verifies a sequence window by window between them.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct SyncPoint {
+    pub instrs: usize,
+    pub steps: usize,
 }

@@ -1,6 +1,8 @@
 //! Human-readable tables and machine-readable figures.
 
-pub mod budget;
+/// The budget model lives with the native operations it costs (the optimizer
+/// costs its candidates with it); re-exported here for the report tables.
+pub use crate::native::budget;
 
 use crate::circuit::Summary;
 use crate::sim::Verdict;

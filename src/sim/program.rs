@@ -89,25 +89,7 @@ pub enum LowerError {
     Opaque(String),
 }
 
-/// `exp(-i theta/2 sigma_phi)`.
-pub fn rotation(theta: f64, phi: f64) -> Mat2 {
-    let (s, c) = (theta / 2.0).sin_cos();
-    let e = C64::from_polar(1.0, phi);
-    let mi = C64::new(0.0, -1.0);
-    [
-        [C64::new(c, 0.0), mi * s * e.conj()],
-        [mi * s * e, C64::new(c, 0.0)],
-    ]
-}
-
-/// `exp(-i theta/2 Z)`.
-pub fn z_rotation(theta: f64) -> Mat2 {
-    let z = C64::new(0.0, 0.0);
-    [
-        [C64::from_polar(1.0, -theta / 2.0), z],
-        [z, C64::from_polar(1.0, theta / 2.0)],
-    ]
-}
+pub use crate::native::{rotation, z_rotation};
 
 impl Kernel {
     /// The kernel of a library gate on the given qubits (exact, phase included).

@@ -28,25 +28,17 @@ use crate::compile::couple::{
 use crate::compile::hadamard::smallest_hadamard;
 use crate::compile::lower::zyz;
 use crate::compile::Target;
+use crate::native::budget::budget;
 use crate::native::profile::Profile;
 use crate::native::{NativeOp, Sequence, Step};
-use crate::report::budget::budget;
 use rustc_hash::FxHashMap;
-use std::f64::consts::{FRAC_PI_2, PI, TAU};
+use std::f64::consts::{FRAC_PI_2, PI};
 use std::sync::Arc;
 
 /// Angles this close to zero (mod 2 pi where that is a global phase) are left out.
 const EPS: f64 = 1e-14;
 
-/// Wraps into (-pi, pi].
-pub fn wrap(theta: f64) -> f64 {
-    let t = theta - TAU * (theta / TAU).round();
-    if t <= -PI {
-        t + TAU
-    } else {
-        t
-    }
-}
+use crate::compile::baseline::wrap;
 
 /// What one block cost, for the compile report.
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]
@@ -656,12 +648,7 @@ fn push_shift(ops: &mut Vec<NativeOp>, ion: u32, theta: f64) {
 /// Sign-vector pulses as native operations: ordered for few flips, each pulse
 /// `F_s MS(2t) F_s` with the flips between pulses merged.
 fn pulse_ops(pulses: Vec<Pulse>) -> Vec<NativeOp> {
-    let (pulses, _) = order_pulses(pulses);
-    unordered_pulse_ops(pulses)
-}
-
-/// [`pulse_ops`] in the order given.
-fn unordered_pulse_ops(pulses: Vec<Pulse>) -> Vec<NativeOp> {
+    let pulses = order_pulses(pulses);
     let n = pulses.first().map_or(0, |p| p.signs.len());
     let mut frame = vec![1i8; n];
     let mut ops = Vec::new();
@@ -689,11 +676,6 @@ fn unordered_pulse_ops(pulses: Vec<Pulse>) -> Vec<NativeOp> {
         }
     }
     ops
-}
-
-/// The SU(2) matrix of `R(theta, phi)`.
-fn rotation(theta: f64, phi: f64) -> Mat2 {
-    crate::sim::program::rotation(theta, phi)
 }
 
 /// Peephole rewrites (see the module header), repeated until nothing changes.
@@ -730,7 +712,7 @@ fn merge_collective(ops: Vec<NativeOp>) -> Vec<NativeOp> {
     let mut first = None;
     for op in ops {
         if let NativeOp::Collective { theta, phi } = op {
-            let r = rotation(theta, phi);
+            let r = crate::native::rotation(theta, phi);
             run = Some(match run {
                 Some(m) => super::dag::mul(&r, &m),
                 None => r,

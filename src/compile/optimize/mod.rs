@@ -25,8 +25,8 @@ use super::baseline::{CompileError, Target, BYTES_PER_STEP};
 use super::lower::{lower, Canon};
 use crate::circuit::{Circuit, Instr, Op};
 use crate::native::profile::Profile;
+use crate::native::SyncPoint;
 use crate::native::{NativeOp, Sequence, Step};
-use crate::sim::equiv::SyncPoint;
 
 pub use emit::BlockReport;
 
@@ -214,20 +214,8 @@ pub fn compile_optimized(
     profile: &Profile,
     cfg: &OptConfig,
 ) -> Result<Optimized, CompileError> {
+    super::baseline::check_device(c, profile, cfg.target)?;
     let ions = profile.device.ions;
-    if c.n_qubits() > ions {
-        return Err(CompileError::TooFewIons {
-            needed: c.n_qubits(),
-            ions,
-            device: profile.device.name.clone(),
-        });
-    }
-    let caps = profile.capabilities;
-    if cfg.target == Target::Addressed && !caps.pair_ms && !caps.hiding {
-        return Err(CompileError::NoAddressedEntangler(
-            profile.device.name.clone(),
-        ));
-    }
     let mut emitter = emit::Emitter::new(profile, cfg.target, cfg.objective);
     emitter.synth.time_limit = cfg.block_time;
     emitter.solver_left = cfg.solver_time;

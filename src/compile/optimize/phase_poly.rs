@@ -1,7 +1,8 @@
 //! Phase polynomials: a region of CNOT and diagonal gates is `|x> -> e^{i f(x)} |L x>`
 //! with `f` a sum of rotations of parities of the inputs and `L` linear over GF(2)
 //! (Amy, Maslov, Mosca, "Polynomial-time T-depth optimization of Clifford+T circuits
-//! via matroid partitioning", IEEE TCAD 33, 1476, 2014; common practice). So the
+//! via matroid partitioning", IEEE TCAD 33, 1476, 2014, citation from memory; the
+//! identity itself is common practice). So the
 //! region equals the diagonal `prod_p exp(-i theta_p / 2 Z_p)` over input parities,
 //! followed by the region's CNOTs alone. When every parity has one or two inputs, the
 //! diagonal is Z rotations and ZZ interactions: `cx a,b; rz(t) b; cx a,b` (the way

@@ -83,6 +83,14 @@ impl Gathered {
 /// `n` qubits, single-qubit operations and MS pulses, or an MS pulse whose axis in
 /// the interaction picture is not Z.
 pub(super) fn interaction_picture(ks: &[Kernel], n: usize) -> Option<(Vec<Kernel>, f64)> {
+    // Most segments (every circuit, most addressed sequences) have no collective
+    // rotation: say so before building anything.
+    if !ks
+        .iter()
+        .any(|k| matches!(k, Kernel::Collective { qubits, .. } if qubits.len() == n))
+    {
+        return None;
+    }
     let mut c: Mat2 = super::prepass::identity2();
     let mut out = Vec::with_capacity(ks.len());
     let mut g = Gathered {
@@ -90,12 +98,10 @@ pub(super) fn interaction_picture(ks: &[Kernel], n: usize) -> Option<(Vec<Kernel
         partners: vec![Vec::new(); n],
     };
     let mut slack = 0.0;
-    let mut collective = false;
     for k in ks {
         match k {
             Kernel::Collective { m, qubits } if qubits.len() == n => {
                 c = mul2(m, &c);
-                collective = true;
             }
             Kernel::One { q, m } => {
                 let m = mul2(&adjoint2(&c), &mul2(m, &c));
@@ -104,8 +110,7 @@ pub(super) fn interaction_picture(ks: &[Kernel], n: usize) -> Option<(Vec<Kernel
                     // Diagonal: commutes with every ZZ coupling (moving D + E
                     // instead of D costs at most 2 ||E||).
                     slack += 2.0 * off;
-                } else if let Some((p @ (1 | 2), _, d)) = as_pauli(&m) {
-                    let _ = p;
+                } else if let Some((1 | 2, _, d)) = as_pauli(&m) {
                     slack += 2.0 * d;
                     g.negate(*q);
                 } else {
@@ -144,9 +149,6 @@ pub(super) fn interaction_picture(ks: &[Kernel], n: usize) -> Option<(Vec<Kernel
             }
             _ => return None,
         }
-    }
-    if !collective {
-        return None;
     }
     g.flush_all(&mut out);
     out.push(Kernel::Collective {

@@ -20,12 +20,7 @@ use crate::sim::program::{still_hidden, Program};
 use rayon::prelude::*;
 use std::sync::Arc;
 
-/// A point where a prefix of the circuit and a prefix of the sequence must be equal.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub struct SyncPoint {
-    pub instrs: usize,
-    pub steps: usize,
-}
+pub use crate::native::SyncPoint;
 
 /// The outcome of a window-by-window verification.
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]

@@ -369,6 +369,9 @@ fn run(cli: Cli) -> Result<ExitCode, Failure> {
                 None => eprintln!("not verified (--no-verify)"),
             }
             eprint!("{}", tutti::report::budget_table(&compiled.budget));
+            if let Some(line) = tutti::report::blocks_line(&compiled.blocks) {
+                eprintln!("{line}");
+            }
             if let Some(path) = &output {
                 eprintln!("wrote {}", path.display());
             }

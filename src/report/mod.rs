@@ -131,3 +131,24 @@ pub fn budget_table(b: &budget::Budget) -> String {
     }
     out
 }
+
+/// One line on the optimizer's coupling blocks: how many, their MS area, and its
+/// ratio to the sum of the blocks' certified lower bounds (DESIGN section 5: quality
+/// per block against the optimum where it is computable). `None` for the baseline.
+pub fn blocks_line(blocks: &[crate::compile::optimize::BlockReport]) -> Option<String> {
+    if blocks.is_empty() {
+        return None;
+    }
+    let area: f64 = blocks.iter().map(|b| b.area).sum();
+    let bound: f64 = blocks.iter().map(|b| b.lower_bound).sum();
+    let ratio = if bound > 0.0 {
+        format!("{:.3}", area / bound)
+    } else {
+        "-".into()
+    };
+    Some(format!(
+        "coupling blocks: {}, MS area {} (units of pi/2), {ratio} times the sum of their certified lower bounds",
+        blocks.len(),
+        fixed(area, 3)
+    ))
+}

@@ -218,42 +218,40 @@ impl<'a> Emitter<'a> {
             after.push((q, beta));
         }
         if !ys.is_empty() {
-            let caps = self.profile.capabilities;
-            let d = &self.profile.durations_us;
-            let addressed = self.target == Target::Addressed
-                && caps.addressed_rotation
-                && d.addressed.is_some_and(|a| {
-                    let each: f64 = ys.iter().map(|(_, g)| a.at(*g)).sum();
-                    let shifts: f64 = if caps.parallel_light_shifts {
-                        ys.iter()
-                            .map(|(_, g)| d.light_shift.at(*g))
-                            .fold(0.0, f64::max)
-                    } else {
-                        ys.iter().map(|(_, g)| d.light_shift.at(*g)).sum()
-                    };
-                    each < 2.0 * d.collective.at(FRAC_PI_2) + shifts
-                });
-            if addressed {
-                for &(q, g) in &ys {
-                    ops.push(NativeOp::Addressed {
+            // One collective sandwich for the whole layer (DESIGN fact 4), or, where
+            // the target and device allow, addressed rotations: whichever the
+            // objective prefers under the budget model.
+            let mut sandwich = vec![NativeOp::Collective {
+                theta: FRAC_PI_2,
+                phi: 0.0,
+            }];
+            for &(q, g) in &ys {
+                push_shift(&mut sandwich, q, g);
+            }
+            sandwich.push(NativeOp::Collective {
+                theta: -FRAC_PI_2,
+                phi: 0.0,
+            });
+            let chosen = if self.target == Target::Addressed
+                && self.profile.capabilities.addressed_rotation
+            {
+                let addressed: Vec<NativeOp> = ys
+                    .iter()
+                    .map(|&(q, g)| NativeOp::Addressed {
                         ion: q,
                         theta: g,
                         phi: FRAC_PI_2,
-                    });
+                    })
+                    .collect();
+                if self.key(&addressed) < self.key(&sandwich) {
+                    addressed
+                } else {
+                    sandwich
                 }
             } else {
-                ops.push(NativeOp::Collective {
-                    theta: FRAC_PI_2,
-                    phi: 0.0,
-                });
-                for &(q, g) in &ys {
-                    push_shift(ops, q, g);
-                }
-                ops.push(NativeOp::Collective {
-                    theta: -FRAC_PI_2,
-                    phi: 0.0,
-                });
-            }
+                sandwich
+            };
+            ops.extend(chosen);
         }
         for (q, b) in after {
             *carry.entry(q).or_insert(0.0) += b;

@@ -20,7 +20,7 @@ use crate::sim::{
 use std::path::Path;
 
 /// Output formats of a compiled sequence.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum Format {
     /// OpenQASM 2 with the native operations defined as gates in a header.
     Qasm,
@@ -182,6 +182,23 @@ impl std::fmt::Display for LoadFailure {
 /// Reads a circuit or a sequence in any format tutti writes. Errors come rendered,
 /// with file, line and column, and as data.
 pub fn load(path: &Path, limits: &Limits) -> Result<(Loaded, String), LoadFailure> {
+    load_traced(path, limits).map(|(loaded, warnings, _)| (loaded, warnings))
+}
+
+/// A file read and the SHA-256 of its bytes.
+#[derive(Debug, Clone, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
+pub struct SourceDigest {
+    pub path: String,
+    pub sha256: String,
+}
+
+/// [`load`], also giving the digest of every file read: the file itself, then the
+/// files it includes (the standard library is built in and not listed). A change in
+/// any of them changes the result, so a batch run compares these to skip a job.
+pub fn load_traced(
+    path: &Path,
+    limits: &Limits,
+) -> Result<(Loaded, String, Vec<SourceDigest>), LoadFailure> {
     let text = match std::fs::read(path) {
         Ok(b) if b.len() > limits.max_file_bytes => {
             return Err(LoadFailure::plain(
@@ -195,7 +212,7 @@ pub fn load(path: &Path, limits: &Limits) -> Result<(Loaded, String), LoadFailur
                 Some("raise the input size limit (--max-file-bytes) if the file is meant to be this large"),
             ))
         }
-        Ok(b) => String::from_utf8_lossy(&b).into_owned(),
+        Ok(b) => b,
         Err(e) => {
             return Err(LoadFailure::plain(
                 path,
@@ -205,6 +222,11 @@ pub fn load(path: &Path, limits: &Limits) -> Result<(Loaded, String), LoadFailur
             ))
         }
     };
+    let mut digests = vec![SourceDigest {
+        path: path.display().to_string(),
+        sha256: sha256_hex(&text),
+    }];
+    let text = String::from_utf8_lossy(&text).into_owned();
     let name = path.display().to_string();
     match Format::sniff(path, &text) {
         Format::Qasm => {
@@ -212,13 +234,17 @@ pub fn load(path: &Path, limits: &Limits) -> Result<(Loaded, String), LoadFailur
             // it is, without expanding the native gates (a 40-ion MS gate is 780
             // two-ion gates per pulse). An edited header makes it a circuit.
             if let Some(seq) = read_qasm_sequence(&text) {
-                return Ok((Loaded::Sequence(seq), String::new()));
+                return Ok((Loaded::Sequence(seq), String::new(), digests));
             }
             // The text is read already: elaborate it, do not read the file again.
             let out = qasm::elaborate::read_with(&name, &text, limits, &qasm::FsLoader);
             let rendered = out.render();
+            digests.extend(out.sources.files().skip(1).map(|(n, t)| SourceDigest {
+                path: n.to_string(),
+                sha256: sha256_hex(t.as_bytes()),
+            }));
             match out.circuit {
-                Some(c) => Ok((Loaded::Circuit(c), rendered)),
+                Some(c) => Ok((Loaded::Circuit(c), rendered, digests)),
                 None => Err(LoadFailure {
                     rendered: format!("{rendered}{} error(s) in {name}\n", out.errors().count()),
                     errors: ErrorRecord::from_diagnostics(&out.diagnostics, &out.sources),
@@ -233,7 +259,7 @@ pub fn load(path: &Path, limits: &Limits) -> Result<(Loaded, String), LoadFailur
             };
             let rendered = out.render();
             match out.sequence {
-                Some(s) => Ok((Loaded::Sequence(s), rendered)),
+                Some(s) => Ok((Loaded::Sequence(s), rendered, digests)),
                 None => Err(LoadFailure {
                     rendered: format!("{rendered}{} error(s) in {name}\n", out.diagnostics.len()),
                     errors: ErrorRecord::from_diagnostics(&out.diagnostics, &out.sources),
@@ -273,7 +299,7 @@ pub fn load_program(
 }
 
 /// Settings of one compilation.
-#[derive(Debug, Clone, Copy)]
+#[derive(Debug, Clone)]
 pub struct CompileConfig {
     pub target: Target,
     /// Use the baseline compiler instead of the optimizer.

@@ -8,6 +8,7 @@
 //! assert_eq!(circuit.summary().two_qubit_ops, 1);
 //! ```
 
+pub mod batch;
 pub mod circuit;
 pub mod compile;
 pub mod driver;

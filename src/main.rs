@@ -122,7 +122,7 @@ enum Command {
         /// .qasm), else the pulse list. A format that contradicts the extension is an
         /// error.
         #[arg(long, value_enum)]
-        format: Option<Format>,
+        format: Option<FormatArg>,
         /// Compile every two-qubit gate on its own (the reference compiler).
         #[arg(long)]
         baseline: bool,
@@ -180,6 +180,67 @@ enum Command {
         ions: Option<u32>,
         #[command(flatten)]
         limits: LimitArgs,
+    },
+    /// Compile every circuit under some paths for every combination of devices,
+    /// targets and compilers, in parallel, with summaries (exit 0 when every job
+    /// succeeded, 1 when some failed, 2 on usage errors).
+    Batch {
+        /// Circuits, and folders searched recursively for .qasm files.
+        #[arg(required = true)]
+        paths: Vec<PathBuf>,
+        /// Folder for the outputs, records and summaries (made if missing). A re-run
+        /// into the same folder skips the jobs whose inputs and options are unchanged.
+        #[arg(long)]
+        out: PathBuf,
+        /// Device profiles (repeat for a sweep): `demo` or TOML files.
+        #[arg(long = "device", default_value = "demo")]
+        devices: Vec<String>,
+        /// Targets (repeat for a sweep).
+        #[arg(long = "target", value_enum, default_values_t = [TargetArg::Collective])]
+        targets: Vec<TargetArg>,
+        /// Compilers (repeat for a sweep): the optimizer (once per objective) or the
+        /// baseline. The first setting is the reference of the comparison.
+        #[arg(long = "compiler", value_enum, default_values_t = [CompilerArg::Optimizer])]
+        compilers: Vec<CompilerArg>,
+        /// Objectives of the optimizer (repeat for a sweep).
+        #[arg(long = "objective", value_enum, default_values_t = [ObjectiveArg::Duration])]
+        objectives: Vec<ObjectiveArg>,
+        /// Jobs at once (default: the number of cores). Parallel kernels share one
+        /// pool of this many threads.
+        #[arg(long)]
+        jobs: Option<usize>,
+        /// Skip the checks of the outputs against their circuits.
+        #[arg(long)]
+        no_verify: bool,
+        /// Run only part K of N of the suite (circuits dealt round-robin in path
+        /// order), for a job array on a cluster; join the parts with `tutti merge`.
+        #[arg(long, value_name = "K/N")]
+        shard: Option<String>,
+        /// Format of the compiled sequences.
+        #[arg(long, value_enum, default_value_t = FormatArg::Pulses)]
+        format: FormatArg,
+        /// The figure summary.svg charts across settings.
+        #[arg(long, default_value = "duration_us")]
+        chart: String,
+        /// Memory for states and unitaries of all jobs together, in MiB. Default:
+        /// three quarters of what the process may use.
+        #[arg(long)]
+        memory: Option<usize>,
+        /// Most steps one compiled sequence may have.
+        #[arg(long, default_value_t = tutti::compile::DEFAULT_MAX_STEPS)]
+        max_pulses: usize,
+        #[command(flatten)]
+        limits: LimitArgs,
+    },
+    /// Join the output folders of several `tutti batch --shard` runs into one, with
+    /// one summary.
+    Merge {
+        /// Output folders of the shards.
+        #[arg(required = true)]
+        dirs: Vec<PathBuf>,
+        /// Folder for the joined outputs and summary.
+        #[arg(long)]
+        out: PathBuf,
     },
     /// Decide whether two programs are the same unitary up to global phase (exit 0
     /// equivalent, 1 not equivalent, 2 error).
@@ -345,7 +406,7 @@ fn run(cli: Cli) -> Result<ExitCode, Failure> {
                 ..CompileConfig::default()
             };
             let (_, mut compiled) = compile_one(&file, &device, ions, &cfg, &limits)?;
-            let format = driver::Format::for_output(format, output.as_deref())?;
+            let format = driver::Format::for_output(format.map(Format::from), output.as_deref())?;
             compiled.sequence.provenance = Some(driver::provenance(
                 &file,
                 &device,
@@ -429,6 +490,78 @@ fn run(cli: Cli) -> Result<ExitCode, Failure> {
                 print!("{}", tutti::report::budget_table(&budget));
             }
             Ok(ExitCode::SUCCESS)
+        }
+        Command::Batch {
+            paths,
+            out,
+            devices,
+            targets,
+            compilers,
+            objectives,
+            jobs,
+            no_verify,
+            shard,
+            format,
+            chart,
+            memory,
+            max_pulses,
+            limits,
+        } => {
+            use tutti::batch::{self, BatchConfig, Compiler, Figure, Setting};
+            let jobs = jobs
+                .unwrap_or_else(|| std::thread::available_parallelism().map_or(1, |n| n.get()))
+                .max(1);
+            // One pool for the parallel kernels of every job.
+            let _ = rayon::ThreadPoolBuilder::new()
+                .num_threads(jobs)
+                .build_global();
+            let shard = shard
+                .map(|s| batch::Shard::parse(&s))
+                .transpose()
+                .map_err(|e| format!("error: --shard: {e}\n"))?;
+            let chart = Figure::from_name(&chart).ok_or_else(|| {
+                let names: Vec<&str> = Figure::ALL.iter().map(|f| f.name()).collect();
+                format!(
+                    "error: --chart {chart}: not a figure; one of {}\n",
+                    names.join(", ")
+                )
+            })?;
+            let mut compiler_list = Vec::new();
+            for c in &compilers {
+                match c {
+                    CompilerArg::Baseline => compiler_list.push(Compiler::Baseline),
+                    CompilerArg::Optimizer => compiler_list
+                        .extend(objectives.iter().map(|&o| Compiler::Optimizer(o.into()))),
+                }
+            }
+            compiler_list.dedup();
+            let targets: Vec<Target> = targets.into_iter().map(Target::from).collect();
+            let cfg = BatchConfig {
+                inputs: paths,
+                out,
+                settings: Setting::sweep(&devices, &targets, &compiler_list),
+                jobs,
+                verify: !no_verify,
+                shard,
+                limits: limits.limits(),
+                max_steps: max_pulses,
+                memory: memory
+                    .map_or_else(tutti::memory::default_budget, |m| m.saturating_mul(1 << 20)),
+                memory_given: memory.is_some(),
+                format: format.into(),
+                chart,
+                tool: batch::tool_identity(),
+            };
+            let progress = BatchProgress::new();
+            let outcome = batch::run(&cfg, &|e| progress.event(e));
+            progress.finish();
+            let outcome = outcome.map_err(|e| format!("error: {e}\n"))?;
+            report_batch(&outcome, &cfg.out)
+        }
+        Command::Merge { dirs, out } => {
+            let outcome = tutti::batch::merge(&dirs, &out).map_err(|e| format!("error: {e}\n"))?;
+            eprintln!("merged {} folder(s) into {}", dirs.len(), out.display());
+            report_batch(&outcome, &out)
         }
         Command::Check {
             a,
@@ -530,6 +663,151 @@ impl From<ObjectiveArg> for Objective {
             ObjectiveArg::Duration => Objective::Duration,
             ObjectiveArg::Error => Objective::Error,
         }
+    }
+}
+
+/// `--compiler` of `batch`.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+enum CompilerArg {
+    /// The optimizer, once per `--objective`.
+    Optimizer,
+    /// Every two-qubit gate on its own (the reference compiler).
+    Baseline,
+}
+
+/// Output formats (the CLI's own names for the library's [`Format`]).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+enum FormatArg {
+    /// OpenQASM 2 with the native operations defined as gates in a header.
+    Qasm,
+    /// tutti's pulse list.
+    Pulses,
+    /// JSON for control software.
+    Json,
+}
+
+impl From<FormatArg> for Format {
+    fn from(f: FormatArg) -> Format {
+        match f {
+            FormatArg::Qasm => Format::Qasm,
+            FormatArg::Pulses => Format::Pulses,
+            FormatArg::Json => Format::Json,
+        }
+    }
+}
+
+/// Prints a batch outcome: notes, the failures with their diagnostics, the table,
+/// the files written; exit 0 when every job succeeded, else 1.
+fn report_batch(outcome: &tutti::batch::BatchOutcome, out: &Path) -> Result<ExitCode, Failure> {
+    for n in &outcome.notes {
+        eprintln!("note: {n}");
+    }
+    let manifest_text =
+        std::fs::read_to_string(out.join("batch.json")).map_err(|e| e.to_string())?;
+    let manifest: tutti::batch::Manifest =
+        serde_json::from_str(&manifest_text).map_err(|e| e.to_string())?;
+    print!(
+        "{}",
+        tutti::batch::summary::terminal(&manifest, &outcome.rows)
+    );
+    let failed: Vec<_> = outcome
+        .rows
+        .iter()
+        .filter(|r| r.status == tutti::batch::Status::Failed)
+        .collect();
+    if !failed.is_empty() {
+        eprintln!("\n{} job(s) failed:", failed.len());
+        for r in &failed {
+            eprintln!(
+                "  {} ({}): {}",
+                r.path,
+                r.setting,
+                r.error.as_deref().unwrap_or("")
+            );
+        }
+    }
+    eprintln!(
+        "\n{} job(s): {} run, {} skipped (finished before, inputs and options unchanged), {} failed",
+        outcome.rows.len(),
+        outcome.rows.len() - outcome.skipped,
+        outcome.skipped,
+        failed.len()
+    );
+    for p in &outcome.written {
+        eprintln!("wrote {}", p.display());
+    }
+    Ok(if outcome.all_ok() {
+        ExitCode::SUCCESS
+    } else {
+        ExitCode::from(1)
+    })
+}
+
+/// Progress of a batch run: a bar on a terminal (jobs done, rate, time left, the
+/// file being worked on), one plain line per finished job otherwise.
+struct BatchProgress {
+    bar: indicatif::ProgressBar,
+    done: std::sync::atomic::AtomicUsize,
+    total: std::sync::atomic::AtomicUsize,
+}
+
+impl BatchProgress {
+    fn new() -> BatchProgress {
+        let bar = indicatif::ProgressBar::new(0);
+        let style = indicatif::ProgressStyle::with_template(
+            "[{bar:30}] {pos}/{len} jobs, {per_sec}, {eta} left  {wide_msg}",
+        )
+        .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar());
+        bar.set_style(style);
+        bar.enable_steady_tick(std::time::Duration::from_millis(200));
+        BatchProgress {
+            bar,
+            done: Default::default(),
+            total: Default::default(),
+        }
+    }
+
+    fn event(&self, e: tutti::batch::Event) {
+        use std::sync::atomic::Ordering;
+        use tutti::batch::Event;
+        match e {
+            Event::Planned { total, skipped } => {
+                self.total.store(total - skipped, Ordering::Relaxed);
+                self.bar.set_length((total - skipped) as u64);
+                if skipped > 0 {
+                    self.bar.suspend(|| {
+                        eprintln!("{skipped} of {total} job(s) finished before with the same inputs and options: skipped")
+                    });
+                }
+            }
+            Event::Started { key, setting } => {
+                self.bar.set_message(format!("{key} ({setting})"));
+            }
+            Event::Finished { row } => {
+                let done = self.done.fetch_add(1, Ordering::Relaxed) + 1;
+                self.bar.inc(1);
+                if self.bar.is_hidden() {
+                    let what = match &row.error {
+                        Some(e) => format!("FAILED: {e}"),
+                        None => format!(
+                            "{} in {:.2} s",
+                            row.status.name(),
+                            row.compile_s + row.verify_s
+                        ),
+                    };
+                    eprintln!(
+                        "[{done}/{}] {} ({}): {what}",
+                        self.total.load(Ordering::Relaxed),
+                        row.path,
+                        row.setting
+                    );
+                }
+            }
+        }
+    }
+
+    fn finish(&self) {
+        self.bar.finish_and_clear();
     }
 }
 

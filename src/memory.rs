@@ -74,3 +74,152 @@ fn meminfo_available() -> Option<usize> {
     let kib: usize = line.split_whitespace().nth(1)?.parse().ok()?;
     Some(kib * 1024)
 }
+
+/// One memory budget shared by every comparison of a run (`tutti batch`): each
+/// state or unitary is reserved before it is allocated and released when it is
+/// freed, so N jobs together never ask for more than the budget, rather than N
+/// budgets. A reservation larger than the whole budget is refused at once (the
+/// caller says so, with the figures); a smaller one waits until the others have
+/// released enough.
+///
+/// Waiting is safe only on a thread that holds no other reservation and is not a
+/// worker of the rayon pool (a worker that blocks could be the one the holders need
+/// to finish): on a rayon worker, a reservation that does not fit at once is refused
+/// instead of waiting. The checker reserves on the caller's thread only.
+#[derive(Debug)]
+pub struct Pool {
+    total: usize,
+    used: std::sync::Mutex<usize>,
+    freed: std::sync::Condvar,
+}
+
+/// Bytes reserved from a [`Pool`], given back when dropped.
+#[derive(Debug)]
+pub struct Grant<'a> {
+    pool: &'a Pool,
+    bytes: usize,
+}
+
+/// Why a reservation was not granted.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Refusal {
+    /// More than the whole budget.
+    Exceeds { total: usize },
+    /// On a rayon worker, where waiting could deadlock, and the budget was in use.
+    Busy { free: usize },
+}
+
+impl Pool {
+    pub fn new(total: usize) -> Pool {
+        Pool {
+            total,
+            used: std::sync::Mutex::new(0),
+            freed: std::sync::Condvar::new(),
+        }
+    }
+
+    /// The whole budget, in bytes.
+    pub fn total(&self) -> usize {
+        self.total
+    }
+
+    /// Bytes reserved now.
+    pub fn in_use(&self) -> usize {
+        *self.used.lock().unwrap_or_else(|e| e.into_inner())
+    }
+
+    /// Reserves `bytes`, waiting while the others hold too much (see the type's
+    /// documentation for when it refuses instead).
+    pub fn reserve(&self, bytes: usize) -> Result<Grant<'_>, Refusal> {
+        if bytes > self.total {
+            return Err(Refusal::Exceeds { total: self.total });
+        }
+        let on_worker = rayon::current_thread_index().is_some();
+        let mut used = self.used.lock().unwrap_or_else(|e| e.into_inner());
+        while *used + bytes > self.total {
+            if on_worker {
+                return Err(Refusal::Busy {
+                    free: self.total - *used,
+                });
+            }
+            used = self.freed.wait(used).unwrap_or_else(|e| e.into_inner());
+        }
+        *used += bytes;
+        Ok(Grant { pool: self, bytes })
+    }
+}
+
+impl Grant<'_> {
+    pub fn bytes(&self) -> usize {
+        self.bytes
+    }
+}
+
+impl Drop for Grant<'_> {
+    fn drop(&mut self) {
+        let mut used = self.pool.used.lock().unwrap_or_else(|e| e.into_inner());
+        *used -= self.bytes;
+        self.pool.freed.notify_all();
+    }
+}
+
+/// A [`Pool`] shared between configurations; equal when it is the same pool.
+#[derive(Debug, Clone)]
+pub struct SharedPool(pub std::sync::Arc<Pool>);
+
+impl PartialEq for SharedPool {
+    fn eq(&self, other: &SharedPool) -> bool {
+        std::sync::Arc::ptr_eq(&self.0, &other.0)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use std::sync::Arc;
+
+    #[test]
+    fn a_reservation_waits_for_the_others_and_never_exceeds_the_total() {
+        let pool = Arc::new(Pool::new(100));
+        assert_eq!(
+            pool.reserve(101).unwrap_err(),
+            Refusal::Exceeds { total: 100 }
+        );
+        let first = pool.reserve(70).unwrap();
+        let peak = Arc::new(std::sync::atomic::AtomicUsize::new(0));
+        std::thread::scope(|s| {
+            for _ in 0..4 {
+                let (pool, peak) = (Arc::clone(&pool), Arc::clone(&peak));
+                s.spawn(move || {
+                    let g = pool.reserve(50).unwrap();
+                    peak.fetch_max(pool.in_use(), std::sync::atomic::Ordering::SeqCst);
+                    std::thread::sleep(std::time::Duration::from_millis(5));
+                    drop(g);
+                });
+            }
+            std::thread::sleep(std::time::Duration::from_millis(20));
+            // Nobody got 50 while 70 were held.
+            assert_eq!(pool.in_use(), 70);
+            drop(first);
+        });
+        assert!(peak.load(std::sync::atomic::Ordering::SeqCst) <= 100);
+        assert_eq!(pool.in_use(), 0);
+    }
+
+    #[test]
+    fn on_a_rayon_worker_a_reservation_that_does_not_fit_is_refused_not_awaited() {
+        let pool = Pool::new(100);
+        let held = pool.reserve(60).unwrap();
+        let worker = rayon::ThreadPoolBuilder::new()
+            .num_threads(1)
+            .build()
+            .unwrap();
+        let r = worker.install(|| pool.reserve(50).map(|g| g.bytes()));
+        assert_eq!(r, Err(Refusal::Busy { free: 40 }));
+        assert_eq!(
+            worker.install(|| pool.reserve(40).map(|g| g.bytes())),
+            Ok(40)
+        );
+        drop(held);
+    }
+}

@@ -59,6 +59,11 @@ impl SourceMap {
         &self.files[id.0 as usize].1
     }
 
+    /// Every file read, in order: the main file first, then each include.
+    pub fn files(&self) -> impl Iterator<Item = (&str, &str)> {
+        self.files.iter().map(|(n, t)| (n.as_str(), &**t))
+    }
+
     /// The text of a file as a shared handle (no copy).
     pub fn shared_text(&self, id: FileId) -> std::rc::Rc<str> {
         self.files[id.0 as usize].1.clone()

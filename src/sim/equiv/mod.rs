@@ -64,7 +64,7 @@ impl Mode {
 }
 
 /// Settings of the checker; `Default` gives the documented defaults.
-#[derive(Debug, Clone, Copy, PartialEq)]
+#[derive(Debug, Clone, PartialEq)]
 pub struct CheckConfig {
     pub mode: Mode,
     /// Random states per segment in random mode.
@@ -86,6 +86,10 @@ pub struct CheckConfig {
     /// Infinite by default; the compile driver sets a bound and then verifies window
     /// by window instead of waiting for hours.
     pub max_work: f64,
+    /// A memory budget shared with other comparisons running at the same time
+    /// (`tutti batch`): each state or unitary is also reserved there, waiting while
+    /// the others hold too much. `memory_budget` still bounds one comparison.
+    pub pool: Option<crate::memory::SharedPool>,
 }
 
 impl Default for CheckConfig {
@@ -99,6 +103,7 @@ impl Default for CheckConfig {
             memory_budget: crate::memory::default_budget(),
             up_to_final_diagonal: false,
             max_work: f64::INFINITY,
+            pool: None,
         }
     }
 }

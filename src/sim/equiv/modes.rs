@@ -201,6 +201,15 @@ pub(super) fn compare(
             budget: cfg.max_work,
         });
     }
+    // With a pool shared by several comparisons, the memory is reserved there
+    // first (waiting while the others hold it), and given back when this returns.
+    let _grant = match &cfg.pool {
+        Some(pool) => Some(pool.0.reserve(needed).map_err(|r| match r {
+            crate::memory::Refusal::Exceeds { total } => too_large(n, needed, total),
+            crate::memory::Refusal::Busy { free } => too_large(n, needed, free),
+        })?),
+        None => None,
+    };
     let oom = |_| too_large(n, needed, cfg.memory_budget);
     if use_unitary {
         let dim = 1usize << n;

@@ -22,6 +22,10 @@ use std::sync::Arc;
 
 pub use crate::native::SyncPoint;
 
+/// Most memory one window's comparison may take when windows share a memory pool
+/// with other jobs (256 MiB: a 12-qubit unitary pair, or a 23-qubit state pair).
+pub const WINDOW_MEMORY: usize = 256 << 20;
+
 /// The outcome of a window-by-window verification.
 #[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub struct WindowVerdict {
@@ -157,6 +161,33 @@ pub fn check_windows_counted(
         }
     }
     let n_windows = bounds.len() - 1;
+    // Windows are compared on rayon's workers, where a shared pool cannot be waited
+    // for: the memory of as many windows as run at once is reserved here, on the
+    // caller's thread, and each window gets its share as its own budget.
+    let (cfg, _grant) = match &cfg.pool {
+        Some(pool) => {
+            let threads = rayon::current_num_threads().clamp(1, n_windows.max(1));
+            let share = WINDOW_MEMORY
+                .min(cfg.memory_budget)
+                .min(pool.0.total() / threads);
+            let grant = pool
+                .0
+                .reserve(share * threads)
+                .map_err(|_| CheckError::TooLarge {
+                    qubits: 0,
+                    needed: share * threads,
+                    budget: pool.0.total(),
+                })?;
+            let inner = CheckConfig {
+                pool: None,
+                memory_budget: share,
+                ..cfg.clone()
+            };
+            (inner, Some(grant))
+        }
+        None => (cfg.clone(), None),
+    };
+    let cfg = &cfg;
     counter.done.store(0, Ordering::Relaxed);
     counter.total.store(n_windows, Ordering::Relaxed);
     let outcomes: Vec<Result<Outcome, CheckError>> = (0..n_windows)

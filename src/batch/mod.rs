@@ -1,0 +1,838 @@
+//! Compiling a whole suite: every circuit under some paths, for every setting (a
+//! device, a target and a compiler with its objective), in parallel, with one
+//! memory budget for all jobs, records that let a re-run skip finished work, a
+//! deterministic part of the suite per shard, and summaries (`summary`, `chart`).
+//!
+//! Layout of an output folder `DIR`:
+//! - `DIR/batch.json`: the manifest (settings in order, options, shard);
+//! - `DIR/<setting>/<input path>.pulses` (or `.json`, `.qasm`): each compiled
+//!   sequence, in folders that mirror the inputs;
+//! - `DIR/records/<setting>/<input path>.json`: each job's row and what it was
+//!   computed from (digests of every file read, the options), written after its
+//!   output, so a job with a record is finished;
+//! - `DIR/summary.{csv,json,md}` and, with several settings, `DIR/summary.svg`.
+//!
+//! Every file is written atomically (a temporary file, then a rename): a run stopped
+//! at any point leaves finished jobs whole and nothing half-written.
+//!
+//! Threads: jobs run on `jobs` threads of their own, which wait for memory when the
+//! budget is in use; the parallel kernels of the checker run on rayon's global pool
+//! (the command line sizes it to `jobs`). Each file is read on its job's thread.
+
+pub mod chart;
+pub mod summary;
+
+use crate::compile::optimize::Objective;
+use crate::compile::Target;
+use crate::driver::{self, CompileConfig, Format, SourceDigest, Stage, Verification};
+use crate::memory::{Pool, SharedPool};
+use crate::qasm::Limits;
+use std::path::{Path, PathBuf};
+use std::sync::atomic::{AtomicUsize, Ordering};
+use std::sync::{Arc, Mutex};
+use std::time::Instant;
+
+pub use summary::{Figure, Row, Status};
+
+/// Which compiler a setting runs.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
+pub enum Compiler {
+    Baseline,
+    Optimizer(#[serde(with = "objective_name")] Objective),
+}
+
+mod objective_name {
+    use crate::compile::optimize::Objective;
+    pub fn serialize<S: serde::Serializer>(o: &Objective, s: S) -> Result<S::Ok, S::Error> {
+        s.serialize_str(o.name())
+    }
+    pub fn deserialize<'de, D: serde::Deserializer<'de>>(d: D) -> Result<Objective, D::Error> {
+        let name: String = serde::Deserialize::deserialize(d)?;
+        Objective::ALL
+            .into_iter()
+            .find(|o| o.name() == name)
+            .ok_or_else(|| serde::de::Error::custom(format!("unknown objective `{name}`")))
+    }
+}
+
+/// One combination of the swept options.
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
+pub struct Setting {
+    /// `demo`, or the path of a profile's TOML file.
+    pub device: String,
+    #[serde(with = "target_name")]
+    pub target: Target,
+    pub compiler: Compiler,
+}
+
+mod target_name {
+    use crate::compile::Target;
+    pub fn serialize<S: serde::Serializer>(t: &Target, s: S) -> Result<S::Ok, S::Error> {
+        s.serialize_str(t.name())
+    }
+    pub fn deserialize<'de, D: serde::Deserializer<'de>>(d: D) -> Result<Target, D::Error> {
+        let name: String = serde::Deserialize::deserialize(d)?;
+        [Target::Collective, Target::Addressed]
+            .into_iter()
+            .find(|t| t.name() == name)
+            .ok_or_else(|| serde::de::Error::custom(format!("unknown target `{name}`")))
+    }
+}
+
+impl Setting {
+    /// The folder name of the setting: `DEVICE-TARGET-COMPILER`, where DEVICE is
+    /// `demo` or the profile file's stem, and COMPILER `baseline` or the objective.
+    pub fn name(&self) -> String {
+        let device = if self.device == "demo" {
+            "demo".to_string()
+        } else {
+            Path::new(&self.device)
+                .file_stem()
+                .map(|s| s.to_string_lossy().into_owned())
+                .unwrap_or_else(|| "device".into())
+        };
+        let device: String = device
+            .chars()
+            .map(|c| {
+                if c.is_ascii_alphanumeric() || c == '_' || c == '.' {
+                    c
+                } else {
+                    '_'
+                }
+            })
+            .collect();
+        let compiler = match self.compiler {
+            Compiler::Baseline => "baseline",
+            Compiler::Optimizer(o) => o.name(),
+        };
+        format!("{device}-{}-{compiler}", self.target.name())
+    }
+
+    /// Every combination, devices outermost, then targets, then compilers.
+    pub fn sweep(devices: &[String], targets: &[Target], compilers: &[Compiler]) -> Vec<Setting> {
+        let mut out = Vec::new();
+        for d in devices {
+            for &target in targets {
+                for &compiler in compilers {
+                    out.push(Setting {
+                        device: d.clone(),
+                        target,
+                        compiler,
+                    });
+                }
+            }
+        }
+        out
+    }
+}
+
+/// A part of a suite: shard `index` (1-based) of `count`.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
+pub struct Shard {
+    pub index: usize,
+    pub count: usize,
+}
+
+impl Shard {
+    /// Reads `K/N` with 1 <= K <= N.
+    pub fn parse(text: &str) -> Result<Shard, String> {
+        let (k, n) = text.split_once('/').ok_or_else(|| {
+            format!("`{text}` is not K/N (say 2/8 for the second of eight shards)")
+        })?;
+        let k: usize = k
+            .trim()
+            .parse()
+            .map_err(|_| format!("`{k}` in `{text}` is not a number"))?;
+        let n: usize = n
+            .trim()
+            .parse()
+            .map_err(|_| format!("`{n}` in `{text}` is not a number"))?;
+        if n == 0 || k == 0 || k > n {
+            return Err(format!("shard {k}/{n}: K must be between 1 and N"));
+        }
+        Ok(Shard { index: k, count: n })
+    }
+
+    /// Whether the circuit at position `i` of the sorted suite is in this shard:
+    /// circuits are dealt round-robin, every setting of a circuit in one shard.
+    pub fn holds(&self, i: usize) -> bool {
+        i % self.count == self.index - 1
+    }
+}
+
+/// Everything a batch run needs.
+#[derive(Debug, Clone)]
+pub struct BatchConfig {
+    pub inputs: Vec<PathBuf>,
+    pub out: PathBuf,
+    pub settings: Vec<Setting>,
+    /// Jobs at once (at least 1).
+    pub jobs: usize,
+    pub verify: bool,
+    pub shard: Option<Shard>,
+    pub limits: Limits,
+    pub max_steps: usize,
+    /// The one memory budget of all jobs together, in bytes.
+    pub memory: usize,
+    /// Whether `memory` was given (then it is part of what a record was computed
+    /// from; the default depends on the machine and is not).
+    pub memory_given: bool,
+    pub format: Format,
+    /// The figure `summary.svg` charts.
+    pub chart: Figure,
+    /// What identifies the tool (version and a digest of its executable); a change
+    /// re-runs every job.
+    pub tool: String,
+}
+
+/// What identifies this build of tutti: its version and the SHA-256 of its
+/// executable (so a rebuilt tool re-runs every job).
+pub fn tool_identity() -> String {
+    let exe = std::env::current_exe()
+        .and_then(std::fs::read)
+        .map(|b| driver::sha256_hex(&b)[..16].to_string())
+        .unwrap_or_else(|_| "unknown build".into());
+    format!("tutti {} ({exe})", env!("CARGO_PKG_VERSION"))
+}
+
+/// One circuit of the suite.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct Input {
+    /// Where to read it.
+    pub path: PathBuf,
+    /// Its place in the output tree: the path below the parent of the argument it
+    /// was found under, with `/` between parts.
+    pub key: String,
+}
+
+/// The `.qasm` files under `paths` (files given directly are taken whatever their
+/// extension), sorted by key. Folders are searched recursively; a symbolic link is
+/// followed only when it stays inside the folder searched, and a file reached twice
+/// is taken once. Two different files that would land on the same output are an
+/// error.
+pub fn discover(paths: &[PathBuf]) -> Result<(Vec<Input>, Vec<String>), String> {
+    let mut found: Vec<Input> = Vec::new();
+    let mut notes = Vec::new();
+    let mut seen = std::collections::HashSet::new();
+    for arg in paths {
+        let meta =
+            std::fs::metadata(arg).map_err(|e| format!("cannot read {}: {e}", arg.display()))?;
+        let base = arg.parent().map(Path::to_path_buf).unwrap_or_default();
+        if meta.is_file() {
+            let canonical =
+                std::fs::canonicalize(arg).map_err(|e| format!("{}: {e}", arg.display()))?;
+            if seen.insert(canonical) {
+                found.push(Input {
+                    path: arg.clone(),
+                    key: key_of(arg, &base),
+                });
+            }
+            continue;
+        }
+        let root = std::fs::canonicalize(arg).map_err(|e| format!("{}: {e}", arg.display()))?;
+        let mut stack = vec![arg.clone()];
+        while let Some(dir) = stack.pop() {
+            let mut entries: Vec<PathBuf> = std::fs::read_dir(&dir)
+                .map_err(|e| format!("cannot list {}: {e}", dir.display()))?
+                .filter_map(|e| e.ok().map(|e| e.path()))
+                .collect();
+            entries.sort();
+            for path in entries {
+                let Ok(link) = std::fs::symlink_metadata(&path) else {
+                    continue;
+                };
+                let Ok(canonical) = std::fs::canonicalize(&path) else {
+                    notes.push(format!("skipped {}: a broken link", path.display()));
+                    continue;
+                };
+                if link.file_type().is_symlink() && !canonical.starts_with(&root) {
+                    notes.push(format!(
+                        "skipped {}: a link out of {}",
+                        path.display(),
+                        arg.display()
+                    ));
+                    continue;
+                }
+                let Ok(meta) = std::fs::metadata(&path) else {
+                    continue;
+                };
+                if meta.is_dir() {
+                    // A link to a folder inside the tree would visit it twice (or
+                    // loop): its files are reached through the real folder.
+                    if !link.file_type().is_symlink() {
+                        stack.push(path);
+                    }
+                } else if meta.is_file()
+                    && path.extension().is_some_and(|e| e == "qasm")
+                    && seen.insert(canonical)
+                {
+                    found.push(Input {
+                        key: key_of(&path, &base),
+                        path,
+                    });
+                }
+            }
+        }
+    }
+    found.sort_by(|a, b| a.key.cmp(&b.key));
+    for w in found.windows(2) {
+        if w[0].key == w[1].key {
+            return Err(format!(
+                "{} and {} would both be written as {}; give them from different folders",
+                w[0].path.display(),
+                w[1].path.display(),
+                w[0].key
+            ));
+        }
+    }
+    Ok((found, notes))
+}
+
+/// The path of `path` below `base`, `/`-separated, without `..` or a root.
+fn key_of(path: &Path, base: &Path) -> String {
+    let rel = path.strip_prefix(base).unwrap_or(path);
+    rel.components()
+        .filter_map(|c| match c {
+            std::path::Component::Normal(s) => Some(s.to_string_lossy().into_owned()),
+            _ => None,
+        })
+        .collect::<Vec<_>>()
+        .join("/")
+}
+
+/// What a run reports as it goes (to draw progress).
+#[derive(Debug, Clone)]
+pub enum Event<'a> {
+    /// The run knows its jobs: `total` to do, `skipped` of them finished before.
+    Planned {
+        total: usize,
+        skipped: usize,
+    },
+    Started {
+        key: &'a str,
+        setting: &'a str,
+    },
+    Finished {
+        row: &'a Row,
+    },
+}
+
+/// The outcome of a run.
+#[derive(Debug)]
+pub struct BatchOutcome {
+    /// Every row of the run (skipped jobs included), in summary order.
+    pub rows: Vec<Row>,
+    /// Jobs skipped because their record was current.
+    pub skipped: usize,
+    /// Notes about inputs left out (links out of the tree).
+    pub notes: Vec<String>,
+    /// Files written by the summary.
+    pub written: Vec<PathBuf>,
+}
+
+impl BatchOutcome {
+    /// Whether every job succeeded.
+    pub fn all_ok(&self) -> bool {
+        self.rows.iter().all(|r| r.status != Status::Failed)
+    }
+}
+
+/// The manifest `DIR/batch.json`.
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
+pub struct Manifest {
+    pub tool: String,
+    pub settings: Vec<Setting>,
+    pub shard: Option<Shard>,
+    pub chart: Figure,
+}
+
+/// A finished job: its row, and what it was computed from.
+#[derive(Debug, Clone, serde::Serialize, serde::Deserialize)]
+struct Record {
+    options: String,
+    sources: Vec<SourceDigest>,
+    output: Option<String>,
+    row: Row,
+}
+
+/// The digest of everything but the inputs that a job's result depends on.
+fn options_digest(cfg: &BatchConfig, setting: &Setting) -> String {
+    let profile = if setting.device == "demo" {
+        driver::sha256_hex(crate::native::profile::DEMO_TOML.as_bytes())
+    } else {
+        std::fs::read(&setting.device)
+            .map(|b| driver::sha256_hex(&b))
+            .unwrap_or_else(|e| format!("unreadable: {e}"))
+    };
+    let text = serde_json::json!({
+        "tool": cfg.tool,
+        "setting": setting,
+        "profile": profile,
+        "verify": cfg.verify,
+        "max_steps": cfg.max_steps,
+        "limits": format!("{:?}", Limits { max_threads: 1, ..cfg.limits }),
+        "memory": cfg.memory_given.then_some(cfg.memory),
+        "format": cfg.format.name(),
+    })
+    .to_string();
+    driver::sha256_hex(text.as_bytes())
+}
+
+fn extension(format: Format) -> &'static str {
+    match format {
+        Format::Qasm => "qasm",
+        Format::Pulses => "pulses",
+        Format::Json => "json",
+    }
+}
+
+/// `DIR/<setting>/<key>` with the output format's extension in place of `.qasm`.
+pub fn output_path(out: &Path, setting: &str, key: &str, format: Format) -> PathBuf {
+    let mut p = out.join(setting).join(key);
+    p.set_extension(extension(format));
+    p
+}
+
+fn record_path(out: &Path, setting: &str, key: &str) -> PathBuf {
+    let mut p = out.join("records").join(setting).join(key);
+    p.set_extension("json");
+    p
+}
+
+/// Writes `text` to `path` atomically, making its folders.
+pub(crate) fn write_atomic(path: &Path, text: &str) -> Result<(), String> {
+    if let Some(dir) = path.parent() {
+        std::fs::create_dir_all(dir)
+            .map_err(|e| format!("cannot create {}: {e}", dir.display()))?;
+    }
+    let input = Path::new("");
+    driver::write_output(path, text, input, true).map_err(|e| e.trim_end().to_string())
+}
+
+/// A record still valid: same options, every file read unchanged, output present.
+fn current_record(path: &Path, options: &str, out_dir: &Path) -> Option<Record> {
+    let text = std::fs::read_to_string(path).ok()?;
+    let record: Record = serde_json::from_str(&text).ok()?;
+    if record.options != options || record.row.status == Status::Failed {
+        return None;
+    }
+    for s in &record.sources {
+        let bytes = std::fs::read(&s.path).ok()?;
+        if driver::sha256_hex(&bytes) != s.sha256 {
+            return None;
+        }
+    }
+    if let Some(o) = &record.output {
+        if !out_dir.join(o).is_file() {
+            return None;
+        }
+    }
+    Some(record)
+}
+
+/// Runs the suite. Failed jobs are rows with their diagnostics, not errors; an
+/// error is returned only when the run itself cannot go on (the output folder cannot
+/// be written, a profile cannot be read).
+pub fn run(cfg: &BatchConfig, on_event: &(dyn Fn(Event) + Sync)) -> Result<BatchOutcome, String> {
+    if cfg.settings.is_empty() {
+        return Err("no setting to run".into());
+    }
+    for s in &cfg.settings {
+        driver::load_profile(&s.device).map_err(|e| e.trim_end().to_string())?;
+    }
+    let names: Vec<String> = cfg.settings.iter().map(Setting::name).collect();
+    for (i, n) in names.iter().enumerate() {
+        if names[..i].contains(n) {
+            return Err(format!(
+                "two settings are both named {n}; give each device once"
+            ));
+        }
+    }
+    let (inputs, notes) = discover(&cfg.inputs)?;
+    let inputs: Vec<Input> = inputs
+        .into_iter()
+        .enumerate()
+        .filter(|(i, _)| cfg.shard.map_or(true, |s| s.holds(*i)))
+        .map(|(_, x)| x)
+        .collect();
+    std::fs::create_dir_all(&cfg.out)
+        .map_err(|e| format!("cannot create {}: {e}", cfg.out.display()))?;
+    remove_stale_temporaries(&cfg.out);
+    let manifest = Manifest {
+        tool: cfg.tool.clone(),
+        settings: cfg.settings.clone(),
+        shard: cfg.shard,
+        chart: cfg.chart,
+    };
+    let manifest_text = serde_json::to_string_pretty(&manifest).map_err(|e| e.to_string())?;
+    write_atomic(&cfg.out.join("batch.json"), &(manifest_text + "\n"))?;
+
+    let options: Vec<String> = cfg
+        .settings
+        .iter()
+        .map(|s| options_digest(cfg, s))
+        .collect();
+    // Jobs in summary order: by circuit, then setting.
+    let mut rows: Vec<Option<Row>> = Vec::new();
+    let mut todo = Vec::new();
+    for input in &inputs {
+        for (s, name) in names.iter().enumerate() {
+            let rec = current_record(
+                &record_path(&cfg.out, name, &input.key),
+                &options[s],
+                &cfg.out,
+            );
+            match rec {
+                Some(r) => rows.push(Some(r.row)),
+                None => {
+                    todo.push((rows.len(), input, s));
+                    rows.push(None);
+                }
+            }
+        }
+    }
+    let skipped = rows.len() - todo.len();
+    on_event(Event::Planned {
+        total: rows.len(),
+        skipped,
+    });
+    let pool = SharedPool(Arc::new(Pool::new(cfg.memory)));
+    let next = AtomicUsize::new(0);
+    let results: Mutex<Vec<(usize, Row)>> = Mutex::new(Vec::new());
+    let fatal: Mutex<Option<String>> = Mutex::new(None);
+    std::thread::scope(|scope| {
+        for _ in 0..cfg.jobs.max(1).min(todo.len().max(1)) {
+            scope.spawn(|| loop {
+                let i = next.fetch_add(1, Ordering::Relaxed);
+                let Some(&(slot, input, s)) = todo.get(i) else {
+                    break;
+                };
+                if fatal.lock().map(|f| f.is_some()).unwrap_or(true) {
+                    break;
+                }
+                on_event(Event::Started {
+                    key: &input.key,
+                    setting: &names[s],
+                });
+                let (row, record) =
+                    run_job(cfg, input, &cfg.settings[s], &names[s], &options[s], &pool);
+                let written = write_record(cfg, &names[s], &input.key, &record);
+                on_event(Event::Finished { row: &row });
+                if let Err(e) = written {
+                    if let Ok(mut f) = fatal.lock() {
+                        f.get_or_insert(e);
+                    }
+                }
+                if let Ok(mut r) = results.lock() {
+                    r.push((slot, row));
+                }
+            });
+        }
+    });
+    if let Some(e) = fatal.into_inner().unwrap_or_else(|e| e.into_inner()) {
+        return Err(e);
+    }
+    for (slot, row) in results.into_inner().unwrap_or_else(|e| e.into_inner()) {
+        rows[slot] = Some(row);
+    }
+    let rows: Vec<Row> = rows.into_iter().flatten().collect();
+    let written = summary::write_all(&cfg.out, &manifest, &rows)?;
+    Ok(BatchOutcome {
+        rows,
+        skipped,
+        notes,
+        written,
+    })
+}
+
+/// Removes the temporary files (`.tutti-*.tmp`) a killed run left under `dir`:
+/// they were never renamed into place, so nothing finished is lost.
+fn remove_stale_temporaries(dir: &Path) {
+    let mut stack = vec![dir.to_path_buf()];
+    while let Some(d) = stack.pop() {
+        let Ok(entries) = std::fs::read_dir(&d) else {
+            continue;
+        };
+        for e in entries.flatten() {
+            let Ok(t) = e.file_type() else { continue };
+            let name = e.file_name();
+            let name = name.to_string_lossy();
+            if t.is_dir() {
+                stack.push(e.path());
+            } else if t.is_file() && name.starts_with(".tutti-") && name.ends_with(".tmp") {
+                let _ = std::fs::remove_file(e.path());
+            }
+        }
+    }
+}
+
+fn write_record(
+    cfg: &BatchConfig,
+    setting: &str,
+    key: &str,
+    record: &Record,
+) -> Result<(), String> {
+    let text = serde_json::to_string_pretty(record).map_err(|e| e.to_string())?;
+    write_atomic(&record_path(&cfg.out, setting, key), &(text + "\n"))
+}
+
+/// One job: read, compile, verify, budget, write the output. Never panics out: a
+/// panic in the library is caught and reported as the job's failure.
+fn run_job(
+    cfg: &BatchConfig,
+    input: &Input,
+    setting: &Setting,
+    name: &str,
+    options: &str,
+    pool: &SharedPool,
+) -> (Row, Record) {
+    let mut row = Row::new(&input.key, name);
+    let mut sources = Vec::new();
+    let mut output = None;
+    let outcome = std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| {
+        job_body(
+            cfg,
+            input,
+            setting,
+            name,
+            pool,
+            &mut row,
+            &mut sources,
+            &mut output,
+        )
+    }));
+    match outcome {
+        Ok(Ok(())) => {}
+        Ok(Err(e)) => row.fail(e),
+        Err(_) => row.fail(summary::Failure::plain(
+            "internal error (a panic); please report it with this file",
+        )),
+    }
+    let record = Record {
+        options: options.to_string(),
+        sources,
+        output,
+        row: row.clone(),
+    };
+    (row, record)
+}
+
+#[allow(clippy::too_many_arguments)]
+fn job_body(
+    cfg: &BatchConfig,
+    input: &Input,
+    setting: &Setting,
+    name: &str,
+    pool: &SharedPool,
+    row: &mut Row,
+    sources: &mut Vec<SourceDigest>,
+    output: &mut Option<String>,
+) -> Result<(), summary::Failure> {
+    let limits = Limits {
+        max_threads: 1,
+        ..cfg.limits
+    };
+    let started = Instant::now();
+    let (loaded, _warnings, digests) =
+        driver::load_traced(&input.path, &limits).map_err(summary::Failure::from_load)?;
+    // Absolute paths, so that a re-run from another folder finds them.
+    *sources = digests
+        .into_iter()
+        .map(|d| SourceDigest {
+            path: std::fs::canonicalize(&d.path)
+                .map_or(d.path, |p| p.to_string_lossy().into_owned()),
+            ..d
+        })
+        .collect();
+    let circuit = match loaded {
+        driver::Loaded::Circuit(c) => c,
+        driver::Loaded::Sequence(_) => {
+            return Err(summary::Failure::plain(
+                "a pulse sequence already, not an OpenQASM 2 circuit",
+            ))
+        }
+    };
+    row.qubits = Some(circuit.n_qubits());
+    let profile =
+        driver::load_profile(&setting.device).map_err(|e| summary::Failure::plain(e.trim_end()))?;
+    let (baseline, objective) = match setting.compiler {
+        Compiler::Baseline => (true, Objective::default()),
+        Compiler::Optimizer(o) => (false, o),
+    };
+    let defaults = CompileConfig::default();
+    let compile_cfg = CompileConfig {
+        target: setting.target,
+        baseline,
+        objective,
+        verify: cfg.verify,
+        max_steps: cfg.max_steps,
+        check: crate::sim::CheckConfig {
+            memory_budget: cfg.memory,
+            pool: Some(pool.clone()),
+            ..defaults.check
+        },
+    };
+    // Time spent in each stage: compiling (and recompiling for windows) or verifying.
+    let mut compile_s = 0.0;
+    let mut verify_s = 0.0;
+    let mut stage = Stage::Compile;
+    let mut since = started;
+    let mut on_stage = |next: Stage| {
+        let now = Instant::now();
+        let spent = now.duration_since(since).as_secs_f64();
+        match stage {
+            Stage::Verify | Stage::VerifyWindows => verify_s += spent,
+            _ => compile_s += spent,
+        }
+        stage = next;
+        since = now;
+    };
+    let counter = crate::sim::WorkCounter::default();
+    let compiled =
+        driver::compile_counted(&circuit, &profile, &compile_cfg, &mut on_stage, &counter);
+    on_stage(Stage::Budget);
+    row.compile_s = compile_s;
+    row.verify_s = verify_s;
+    let mut compiled = compiled.map_err(|e| summary::Failure::plain(&e.to_string()))?;
+    compiled.sequence.provenance = Some(driver::provenance(
+        &input.path,
+        &setting.device,
+        setting.target,
+        &driver::compiler_name(&compile_cfg),
+        compiled.verification.as_ref(),
+    ));
+    // The source in the provenance is the key: the same whatever folder the suite
+    // was run from.
+    if let Some(p) = compiled.sequence.provenance.as_mut() {
+        p.source = input.key.clone();
+    }
+    let path = output_path(&cfg.out, name, &input.key, cfg.format);
+    write_atomic(&path, &cfg.format.render(&compiled.sequence))
+        .map_err(|e| summary::Failure::plain(&e))?;
+    *output = path
+        .strip_prefix(&cfg.out)
+        .ok()
+        .map(|p| p.to_string_lossy().into_owned());
+    row.set_budget(&compiled.budget);
+    match &compiled.verification {
+        Some(Verification::Whole(v)) => {
+            row.status = Status::Verified;
+            row.mode = format!("whole, {}", v.mode.name());
+            row.distance = v.distance;
+        }
+        Some(Verification::Windowed(w)) => {
+            row.status = Status::Verified;
+            row.mode = format!("{} windows, {}", w.windows, w.mode.name());
+            row.distance = w.distance;
+        }
+        None => {
+            row.status = Status::Unverified;
+            row.mode = "not verified".into();
+        }
+    }
+    Ok(())
+}
+
+/// Joins the outputs of several runs (shards) into `out`: every row and output
+/// copied, and one summary. The runs must have the same settings; a job present in
+/// two runs must have the same row (but for timing).
+pub fn merge(dirs: &[PathBuf], out: &Path) -> Result<BatchOutcome, String> {
+    let mut manifest: Option<Manifest> = None;
+    let mut records: Vec<(String, Record, PathBuf)> = Vec::new();
+    for dir in dirs {
+        let text = std::fs::read_to_string(dir.join("batch.json"))
+            .map_err(|e| format!("{}: not a batch output ({e})", dir.display()))?;
+        let m: Manifest = serde_json::from_str(&text)
+            .map_err(|e| format!("{}/batch.json: {e}", dir.display()))?;
+        match &manifest {
+            None => manifest = Some(m.clone()),
+            Some(first) if first.settings != m.settings => {
+                return Err(format!(
+                    "{} was run with other settings than {}; merge runs of one sweep only",
+                    dir.display(),
+                    dirs[0].display()
+                ))
+            }
+            Some(_) => {}
+        }
+        let root = dir.join("records");
+        let mut stack = vec![root.clone()];
+        while let Some(d) = stack.pop() {
+            let Ok(entries) = std::fs::read_dir(&d) else {
+                continue;
+            };
+            for e in entries.flatten() {
+                let p = e.path();
+                let Ok(t) = e.file_type() else { continue };
+                if t.is_dir() {
+                    stack.push(p);
+                } else if t.is_file() && p.extension().is_some_and(|x| x == "json") {
+                    let text =
+                        std::fs::read_to_string(&p).map_err(|e| format!("{}: {e}", p.display()))?;
+                    let rec: Record =
+                        serde_json::from_str(&text).map_err(|e| format!("{}: {e}", p.display()))?;
+                    let rel = p
+                        .strip_prefix(&root)
+                        .unwrap_or(&p)
+                        .to_string_lossy()
+                        .into_owned();
+                    records.push((rel, rec, dir.clone()));
+                }
+            }
+        }
+    }
+    let Some(mut manifest) = manifest else {
+        return Err("nothing to merge".into());
+    };
+    manifest.shard = None;
+    records.sort_by(|a, b| a.0.cmp(&b.0));
+    let mut kept: Vec<(String, Record, PathBuf)> = Vec::new();
+    for r in records {
+        if let Some(last) = kept.last() {
+            if last.0 == r.0 {
+                if !last.1.row.same_result(&r.1.row) {
+                    return Err(format!(
+                        "{} and {} hold different results for {} ({})",
+                        last.2.display(),
+                        r.2.display(),
+                        r.1.row.path,
+                        r.1.row.setting
+                    ));
+                }
+                continue;
+            }
+        }
+        kept.push(r);
+    }
+    std::fs::create_dir_all(out).map_err(|e| format!("cannot create {}: {e}", out.display()))?;
+    for (rel, rec, dir) in &kept {
+        if let Some(o) = &rec.output {
+            let from = dir.join(o);
+            let text =
+                std::fs::read_to_string(&from).map_err(|e| format!("{}: {e}", from.display()))?;
+            write_atomic(&out.join(o), &text)?;
+        }
+        let text = serde_json::to_string_pretty(rec).map_err(|e| e.to_string())?;
+        write_atomic(&out.join("records").join(rel), &(text + "\n"))?;
+    }
+    let text = serde_json::to_string_pretty(&manifest).map_err(|e| e.to_string())?;
+    write_atomic(&out.join("batch.json"), &(text + "\n"))?;
+    let order: Vec<String> = manifest.settings.iter().map(Setting::name).collect();
+    let mut rows: Vec<Row> = kept.into_iter().map(|(_, r, _)| r.row).collect();
+    rows.sort_by(|a, b| {
+        let pos = |r: &Row| {
+            order
+                .iter()
+                .position(|s| *s == r.setting)
+                .unwrap_or(usize::MAX)
+        };
+        a.path.cmp(&b.path).then(pos(a).cmp(&pos(b)))
+    });
+    let written = summary::write_all(out, &manifest, &rows)?;
+    Ok(BatchOutcome {
+        rows,
+        skipped: 0,
+        notes: Vec::new(),
+        written,
+    })
+}

@@ -491,6 +491,10 @@ pub fn run(cfg: &BatchConfig, on_event: &(dyn Fn(Event) + Sync)) -> Result<Batch
             }
         }
     }
+    // Largest files first, so that a long job does not start last and run alone.
+    todo.sort_by_key(|&(_, input, _)| {
+        std::cmp::Reverse(std::fs::metadata(&input.path).map_or(0, |m| m.len()))
+    });
     let skipped = rows.len() - todo.len();
     on_event(Event::Planned {
         total: rows.len(),
@@ -718,12 +722,12 @@ fn job_body(
         Some(Verification::Whole(v)) => {
             row.status = Status::Verified;
             row.mode = format!("whole, {}", v.mode.name());
-            row.distance = v.distance;
+            row.distance = v.distance.map(summary::two_digits);
         }
         Some(Verification::Windowed(w)) => {
             row.status = Status::Verified;
             row.mode = format!("{} windows, {}", w.windows, w.mode.name());
-            row.distance = w.distance;
+            row.distance = w.distance.map(summary::two_digits);
         }
         None => {
             row.status = Status::Unverified;

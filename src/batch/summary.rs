@@ -246,6 +246,13 @@ impl Row {
     }
 }
 
+/// `x` to two significant digits, as the summaries print it. Distances are kept so:
+/// their last digits depend on the order of parallel sums, which depends on the
+/// number of threads, and the summaries must not.
+pub fn two_digits(x: f64) -> f64 {
+    format!("{x:.1e}").parse().unwrap_or(x)
+}
+
 /// The CSV header; the timing columns are the last two.
 pub fn csv_header() -> String {
     let mut h = vec!["path", "setting", "status", "qubits"];

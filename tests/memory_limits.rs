@@ -72,3 +72,69 @@ fn no_command_aborts_under_a_4_gib_address_space_limit() {
         .collect();
     assert!(failures.is_empty(), "{}", failures.join("\n"));
 }
+
+#[cfg(unix)]
+#[test]
+fn a_batch_of_every_outside_circuit_on_two_jobs_does_not_abort_under_the_limit() {
+    let tmp = tempfile::tempdir().unwrap();
+    let root = std::path::Path::new(env!("CARGO_MANIFEST_DIR"));
+    let (code, err) = limited(&[
+        "batch",
+        root.join("tests/data/qasmbench").to_str().unwrap(),
+        "--out",
+        tmp.path().join("out").to_str().unwrap(),
+        "--jobs",
+        "2",
+        "--no-verify",
+    ]);
+    assert!(code == 0 || code == 1, "exit {code}\n{err}");
+    assert!(tmp.path().join("out/summary.csv").is_file());
+}
+
+/// Comparisons that share a pool: none is refused for want of memory the others
+/// hold (they wait), and one larger than the whole pool is refused with the pool's
+/// size as the budget.
+#[test]
+fn comparisons_sharing_a_memory_pool_wait_for_each_other() {
+    use std::sync::Arc;
+    use tutti::memory::{Pool, SharedPool};
+    use tutti::sim::{check, CheckConfig, CheckError, Mode};
+    // 14 qubits in random mode: two states of 256 KiB each.
+    let mut body = String::new();
+    for q in 0..14 {
+        body.push_str(&format!("h q[{q}]; t q[{q}];\n"));
+        if q > 0 {
+            body.push_str(&format!("cx q[{}],q[{q}];\n", q - 1));
+        }
+    }
+    let p = common::program(&common::qasm(14, &body));
+    let needed = 2 * 16 << 14;
+    let pool = SharedPool(Arc::new(Pool::new(needed + needed / 2)));
+    let cfg = CheckConfig {
+        mode: Mode::Random,
+        trials: 2,
+        pool: Some(pool.clone()),
+        ..CheckConfig::default()
+    };
+    let verdicts: Vec<_> = std::thread::scope(|s| {
+        let handles: Vec<_> = (0..4).map(|_| s.spawn(|| check(&p, &p, &cfg))).collect();
+        handles.into_iter().map(|h| h.join().unwrap()).collect()
+    });
+    for v in verdicts {
+        assert!(v.unwrap().equivalent);
+    }
+    assert_eq!(pool.0.in_use(), 0, "every reservation was given back");
+    let small = CheckConfig {
+        pool: Some(SharedPool(Arc::new(Pool::new(needed - 1)))),
+        ..cfg
+    };
+    match check(&p, &p, &small) {
+        Err(CheckError::TooLarge {
+            budget, needed: n, ..
+        }) => {
+            assert_eq!(budget, needed - 1);
+            assert_eq!(n, needed);
+        }
+        other => panic!("{other:?}"),
+    }
+}

@@ -108,7 +108,7 @@ fn comparisons_sharing_a_memory_pool_wait_for_each_other() {
         }
     }
     let p = common::program(&common::qasm(14, &body));
-    let needed = 2 * 16 << 14;
+    let needed = (2 * 16) << 14;
     let pool = SharedPool(Arc::new(Pool::new(needed + needed / 2)));
     let cfg = CheckConfig {
         mode: Mode::Random,

@@ -10,8 +10,7 @@ use nalgebra::DMatrix;
 use num_complex::Complex64 as C64;
 use std::f64::consts::{FRAC_1_SQRT_2, PI};
 
-/// A 2x2 complex matrix, row-major.
-pub type Mat2 = [[C64; 2]; 2];
+pub use super::mat2::Mat2;
 
 macro_rules! gate_kinds {
     ($( $variant:ident => $name:literal, $params:literal, $qubits:literal; )*) => {

@@ -7,6 +7,7 @@
 //! back to an equal circuit.
 
 pub mod gates;
+pub mod mat2;
 
 pub use gates::{Gate, GateKind, Mat2};
 

@@ -61,22 +61,7 @@ fn g(kind: GateKind, params: &[f64]) -> Mat2 {
         .expect("single-qubit gate")
 }
 
-fn mul(a: &Mat2, b: &Mat2) -> Mat2 {
-    let mut o = [[C64::new(0.0, 0.0); 2]; 2];
-    for i in 0..2 {
-        for j in 0..2 {
-            o[i][j] = a[i][0] * b[0][j] + a[i][1] * b[1][j];
-        }
-    }
-    o
-}
-
-fn adjoint(a: &Mat2) -> Mat2 {
-    [
-        [a[0][0].conj(), a[1][0].conj()],
-        [a[0][1].conj(), a[1][1].conj()],
-    ]
-}
+use crate::circuit::mat2::{adjoint, mul};
 
 /// A square root of a 2x2 unitary: halves the rotation angle and the phase.
 fn sqrt2(m: &Mat2) -> Mat2 {

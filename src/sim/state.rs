@@ -183,7 +183,8 @@ impl StateVector {
         s
     }
 
-    /// A Haar-random state: normalised independent complex Gaussians (Box-Muller).
+    /// A Haar-random state: normalised independent complex Gaussians (real and
+    /// imaginary parts from `rand_distr`'s standard normal).
     pub fn haar_random(n: usize, rng: &mut impl rand::Rng) -> StateVector {
         StateVector::try_haar_random(n, rng).unwrap_or_else(|e| panic!("{e}"))
     }
@@ -195,10 +196,9 @@ impl StateVector {
     ) -> Result<StateVector, std::collections::TryReserveError> {
         let mut amps = try_zeroed_amps(1usize << n)?;
         for slot in amps.iter_mut() {
-            let u1: f64 = rng.gen::<f64>().max(f64::MIN_POSITIVE);
-            let u2: f64 = rng.gen();
-            let r = (-2.0 * u1.ln()).sqrt();
-            *slot = C64::from_polar(r, std::f64::consts::TAU * u2);
+            let re: f64 = rng.sample(rand_distr::StandardNormal);
+            let im: f64 = rng.sample(rand_distr::StandardNormal);
+            *slot = C64::new(re, im);
         }
         let norm = amps.iter().map(|a| a.norm_sqr()).sum::<f64>().sqrt();
         amps.iter_mut().for_each(|a| *a /= norm);

@@ -121,15 +121,7 @@ fn single_qubit_cliffords() -> &'static Vec<(Vec<Cliff>, Mat2)> {
     })
 }
 
-fn mul(a: &Mat2, b: &Mat2) -> Mat2 {
-    let mut out = [[C64::new(0.0, 0.0); 2]; 2];
-    for i in 0..2 {
-        for j in 0..2 {
-            out[i][j] = a[i][0] * b[0][j] + a[i][1] * b[1][j];
-        }
-    }
-    out
-}
+use crate::circuit::mat2::mul;
 
 /// Divides by the phase of the first entry of modulus above one half.
 fn normalise(m: &Mat2) -> Mat2 {

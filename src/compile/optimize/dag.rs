@@ -9,7 +9,6 @@
 
 use crate::circuit::Mat2;
 use crate::compile::lower::Canon;
-use num_complex::Complex64 as C64;
 use petgraph::stable_graph::{NodeIndex, StableDiGraph};
 use petgraph::Direction;
 
@@ -79,16 +78,7 @@ pub fn qubits(op: &Canon) -> smallvec::SmallVec<[u32; 2]> {
     }
 }
 
-/// `a b` (apply `b` first).
-pub fn mul(a: &Mat2, b: &Mat2) -> Mat2 {
-    let mut o = [[C64::new(0.0, 0.0); 2]; 2];
-    for i in 0..2 {
-        for j in 0..2 {
-            o[i][j] = a[i][0] * b[0][j] + a[i][1] * b[1][j];
-        }
-    }
-    o
-}
+pub use crate::circuit::mat2::mul;
 
 pub fn is_diagonal(m: &Mat2) -> bool {
     m[0][1].norm() <= ZERO && m[1][0].norm() <= ZERO

@@ -400,26 +400,4 @@ fn merge_single_qubit_runs(ks: &[Kernel], n: usize) -> Vec<Kernel> {
     out
 }
 
-pub(super) fn identity2() -> Mat2 {
-    [
-        [C64::new(1.0, 0.0), C64::new(0.0, 0.0)],
-        [C64::new(0.0, 0.0), C64::new(1.0, 0.0)],
-    ]
-}
-
-pub(super) fn mul2(a: &Mat2, b: &Mat2) -> Mat2 {
-    let mut o = [[C64::new(0.0, 0.0); 2]; 2];
-    for i in 0..2 {
-        for j in 0..2 {
-            o[i][j] = a[i][0] * b[0][j] + a[i][1] * b[1][j];
-        }
-    }
-    o
-}
-
-pub(super) fn adjoint2(a: &Mat2) -> Mat2 {
-    [
-        [a[0][0].conj(), a[1][0].conj()],
-        [a[0][1].conj(), a[1][1].conj()],
-    ]
-}
+pub(super) use crate::circuit::mat2::{adjoint as adjoint2, identity as identity2, mul as mul2};

@@ -1,0 +1,173 @@
+//! The peephole after emission: adjacent collective rotations merged into one (with
+//! a free frame change), and each run of light shifts and frame changes rewritten
+//! with the common frame phase that leaves the fewest light shifts.
+
+use super::*;
+
+/// Peephole rewrites (see the module header), repeated until nothing changes.
+pub fn peephole(mut ops: Vec<NativeOp>, n: u32) -> Vec<NativeOp> {
+    loop {
+        let before = ops.len();
+        ops = merge_collective(ops);
+        ops = rephase_z_runs(ops, n);
+        if ops.len() >= before {
+            return ops;
+        }
+    }
+}
+
+/// Adjacent collective rotations become one rotation after a frame change:
+/// `M = Rz(b) Ry(g) Rz(d) = R(g, b + pi/2) Rz(b + d)` (up to phase).
+pub(super) fn merge_collective(ops: Vec<NativeOp>) -> Vec<NativeOp> {
+    let mut out: Vec<NativeOp> = Vec::with_capacity(ops.len());
+    let mut run: Option<Mat2> = None;
+    let flush = |out: &mut Vec<NativeOp>, m: Mat2| {
+        let (_, b, g, d) = zyz(&m);
+        let z = wrap(b + d);
+        if z.abs() > EPS {
+            out.push(NativeOp::VirtualZ { theta: z });
+        }
+        if g.abs() > EPS {
+            out.push(NativeOp::Collective {
+                theta: g,
+                phi: wrap(b + FRAC_PI_2),
+            });
+        }
+    };
+    let mut count = 0;
+    let mut first = None;
+    for op in ops {
+        if let NativeOp::Collective { theta, phi } = op {
+            let r = crate::native::rotation(theta, phi);
+            run = Some(match run {
+                Some(m) => crate::compile::optimize::dag::mul(&r, &m),
+                None => r,
+            });
+            count += 1;
+            first = Some(op);
+            continue;
+        }
+        if let Some(m) = run.take() {
+            if count == 1 {
+                out.push(first.expect("one rotation"));
+            } else {
+                flush(&mut out, m);
+            }
+            count = 0;
+        }
+        out.push(op);
+    }
+    if let Some(m) = run {
+        if count == 1 {
+            out.push(first.expect("one rotation"));
+        } else {
+            flush(&mut out, m);
+        }
+    }
+    out
+}
+
+/// Each run of light shifts and frame changes (they commute) becomes the frame
+/// change that the most ions share and a light shift on each other ion. Runs while
+/// an ion is hidden are left alone. Cost linear in the run, plus the ion count only
+/// when the chosen frame differs from the run's own.
+pub(super) fn rephase_z_runs(ops: Vec<NativeOp>, n: u32) -> Vec<NativeOp> {
+    let n = n as usize;
+    let mut out = Vec::with_capacity(ops.len());
+    let mut hidden = 0usize;
+    let mut angle = vec![0.0f64; n];
+    let mut seen = vec![false; n];
+    let mut touched: Vec<usize> = Vec::new();
+    let is_z =
+        |op: &NativeOp| matches!(op, NativeOp::LightShift { .. } | NativeOp::VirtualZ { .. });
+    let mut i = 0;
+    while i < ops.len() {
+        if hidden > 0 || !is_z(&ops[i]) {
+            match ops[i] {
+                NativeOp::Hide { .. } => hidden += 1,
+                NativeOp::Unhide { .. } => hidden = hidden.saturating_sub(1),
+                _ => {}
+            }
+            out.push(ops[i]);
+            i += 1;
+            continue;
+        }
+        let start = i;
+        while i < ops.len() && is_z(&ops[i]) {
+            i += 1;
+        }
+        let run = &ops[start..i];
+        if run.len() == 1 {
+            out.push(run[0]);
+            continue;
+        }
+        let mut frame = 0.0;
+        touched.clear();
+        for op in run {
+            match *op {
+                NativeOp::LightShift { ion, theta } => {
+                    let q = ion as usize;
+                    if !seen[q] {
+                        seen[q] = true;
+                        angle[q] = 0.0;
+                        touched.push(q);
+                    }
+                    angle[q] += theta;
+                }
+                NativeOp::VirtualZ { theta } => frame += theta,
+                _ => unreachable!("z run"),
+            }
+        }
+        touched.sort_unstable();
+        let untouched = n - touched.len();
+        // Candidate frames: the run's own (untouched ions need nothing), or the total
+        // of some touched ion; counted exactly.
+        let same = |x: f64, y: f64| wrap(x - y).abs() <= 1e-12;
+        let mut values: Vec<f64> = vec![wrap(frame)];
+        for &q in &touched {
+            let v = wrap(angle[q] + frame);
+            if !values.iter().any(|&x| same(x, v)) {
+                values.push(v);
+            }
+        }
+        let count = |g: f64| {
+            touched
+                .iter()
+                .filter(|&&q| same(angle[q] + frame, g))
+                .count()
+                + if same(frame, g) { untouched } else { 0 }
+        };
+        let mut g = values[0];
+        let mut best = count(g);
+        for &v in &values[1..] {
+            let c = count(v);
+            if c > best || (c == best && v.abs() < g.abs()) {
+                g = v;
+                best = c;
+            }
+        }
+        let mut rewritten = Vec::new();
+        if wrap(g).abs() > EPS {
+            rewritten.push(NativeOp::VirtualZ { theta: wrap(g) });
+        }
+        if same(frame, g) {
+            for &q in &touched {
+                push_shift(&mut rewritten, q as u32, angle[q] + frame - g);
+            }
+        } else {
+            for ion in 0..n {
+                let total = if seen[ion] { angle[ion] } else { 0.0 };
+                push_shift(&mut rewritten, ion as u32, total + frame - g);
+            }
+        }
+        for &q in &touched {
+            seen[q] = false;
+        }
+        if rewritten.len() <= run.len() {
+            out.extend(rewritten);
+        } else {
+            out.extend_from_slice(run);
+        }
+    }
+    out
+}

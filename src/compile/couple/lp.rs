@@ -31,7 +31,12 @@ pub(super) struct Lp {
 
 /// Solves `min sum t` over the columns `cols` (plus, if `artificial` is set, one
 /// pair of columns `+-e_p` of that cost per row, so the program is always feasible).
-pub(super) fn solve(c: &Coupling, cols: &[Vec<i8>], artificial: Option<f64>, deadline: Instant) -> Option<Lp> {
+pub(super) fn solve(
+    c: &Coupling,
+    cols: &[Vec<i8>],
+    artificial: Option<f64>,
+    deadline: Instant,
+) -> Option<Lp> {
     let rows = c.w.len();
     let n_art = if artificial.is_some() { 2 * rows } else { 0 };
     let ncols = cols.len() + n_art;

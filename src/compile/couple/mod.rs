@@ -36,7 +36,6 @@ use clarabel::solver::{
 use nalgebra::{DMatrix, DVector};
 use std::time::{Duration, Instant};
 
-
 mod constructions;
 mod lp;
 

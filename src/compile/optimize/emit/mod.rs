@@ -35,7 +35,6 @@ use rustc_hash::FxHashMap;
 use std::f64::consts::{FRAC_PI_2, PI};
 use std::sync::Arc;
 
-
 mod peephole;
 mod quiet;
 

@@ -1,0 +1,388 @@
+//! The whole job for one file: read (`input`), compile, verify, budget, write
+//! (`output`). With the front end's file reading (`qasm::read_file`, includes) and
+//! `batch` (which runs this per circuit and keeps its records and summaries), the
+//! only library code that touches the file system.
+
+use crate::circuit::Circuit;
+use crate::compile::optimize::{compile_optimized, BlockReport, Objective, OptConfig};
+use crate::compile::{compile_baseline_bounded, CompileError, Target, DEFAULT_MAX_STEPS};
+use crate::native::profile::Profile;
+use crate::native::qasm_out::{read_qasm_sequence, write_qasm};
+use crate::native::text::{read_json, read_pulses, write_json, write_pulses};
+use crate::native::Sequence;
+use crate::qasm::{self, Limits};
+use crate::report::budget::{budget, Budget};
+use crate::sim::program::{circuit_check_bytes, sequence_check_bytes};
+use crate::sim::SyncPoint;
+use crate::sim::{
+    check, check_windows_counted, sync_points_from_origin, CheckConfig, CheckError, Program,
+    Verdict, WindowVerdict, WorkCounter,
+};
+use std::path::Path;
+
+mod input;
+mod output;
+
+pub use input::{
+    load, load_program, load_traced, ErrorRecord, Format, LoadFailure, Loaded, SourceDigest,
+};
+pub use output::write_output;
+/// Settings of one compilation.
+#[derive(Debug, Clone)]
+pub struct CompileConfig {
+    pub target: Target,
+    /// Use the baseline compiler instead of the optimizer.
+    pub baseline: bool,
+    /// What the optimizer minimises.
+    pub objective: Objective,
+    /// Check the output against the input.
+    pub verify: bool,
+    pub check: CheckConfig,
+    /// Most steps the compiled sequence may have (`--max-pulses`).
+    pub max_steps: usize,
+}
+
+/// Most work of a whole-program verification in [`compile`], in amplitude updates
+/// (2^30: a few seconds); above it the sequence is verified window by window, which
+/// proves the same in linear time (measured: a 2,000-gate, 21-qubit circuit
+/// compiled to 850k pulses took 53 s whole at 2^34 and 0.17 s window by window).
+pub const VERIFY_WORK: f64 = (1u64 << 30) as f64;
+
+impl Default for CompileConfig {
+    fn default() -> CompileConfig {
+        CompileConfig {
+            target: Target::Collective,
+            baseline: false,
+            objective: Objective::default(),
+            verify: true,
+            max_steps: DEFAULT_MAX_STEPS,
+            check: CheckConfig {
+                max_work: VERIFY_WORK,
+                ..CheckConfig::default()
+            },
+        }
+    }
+}
+
+/// How a compiled sequence was proven equal to its circuit.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Verification {
+    /// The whole sequence against the whole circuit.
+    Whole(Verdict),
+    /// Window by window (each instruction against its pulses), when the whole
+    /// comparison would need more memory or work than the budget (large circuits
+    /// that are not Clifford).
+    Windowed(WindowVerdict),
+}
+
+impl Verification {
+    /// One line for the user.
+    pub fn describe(&self) -> String {
+        match self {
+            Verification::Whole(v) => format!(
+                "EQUIVALENT (mode {}, distance {} within tolerance {:.1e}, {} qubit(s) compared)",
+                v.mode.name(),
+                fmt_distance(v.distance),
+                v.tolerance,
+                v.compared_qubits
+            ),
+            Verification::Windowed(b) => format!(
+                "EQUIVALENT window by window ({} windows, mode {}, worst distance {} within tolerance {:.1e}, at most {} qubit(s) per window)",
+                b.windows,
+                b.mode.name(),
+                fmt_distance(b.distance),
+                b.tolerance,
+                b.compared_qubits
+            ),
+        }
+    }
+}
+
+/// A distance for a verdict line.
+pub fn fmt_distance(d: Option<f64>) -> String {
+    d.map_or_else(|| "not measured".into(), |d| format!("{d:.1e}"))
+}
+
+pub struct Compiled {
+    pub sequence: Sequence,
+    /// What each block of the optimizer cost (empty for the baseline).
+    pub blocks: Vec<BlockReport>,
+    pub budget: Budget,
+    /// `None` when verification was switched off.
+    pub verification: Option<Verification>,
+}
+
+#[derive(Debug, thiserror::Error)]
+pub enum DriverError {
+    #[error(transparent)]
+    Compile(#[from] CompileError),
+    #[error("verification could not run: {0}")]
+    Check(#[from] CheckError),
+    #[error("verification failed: the compiled sequence is NOT the input circuit ({0})")]
+    NotEquivalent(String),
+}
+
+impl DriverError {
+    /// The exit code of the CLI: 1 when the output is not the input (a failed
+    /// verification), 2 for every other error.
+    pub fn exit_code(&self) -> u8 {
+        match self {
+            DriverError::NotEquivalent(_) => 1,
+            _ => 2,
+        }
+    }
+}
+
+/// The stages of [`compile_with`], announced as each starts (for progress display).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Stage {
+    Compile,
+    /// The whole sequence against the whole circuit.
+    Verify,
+    /// Window by window, after the whole comparison was found too large.
+    VerifyWindows,
+    Budget,
+}
+
+impl Stage {
+    /// What the stage does, for a progress line.
+    pub fn describe(self) -> &'static str {
+        match self {
+            Stage::Compile => "compiling",
+            Stage::Verify => "verifying the sequence against the circuit",
+            Stage::VerifyWindows => "verifying window by window (too large to compare whole)",
+            Stage::Budget => "budgeting",
+        }
+    }
+}
+
+/// Most qubits one range of the optimizer may touch when the output is to be
+/// verified window by window (each window is then compared on at most this many
+/// qubits of the circuit).
+pub const WINDOW_QUBITS: usize = 8;
+
+/// The compiler a configuration runs, as provenance and messages name it:
+/// `baseline`, or `optimizer (objective NAME)`.
+pub fn compiler_name(cfg: &CompileConfig) -> String {
+    if cfg.baseline {
+        "baseline".into()
+    } else {
+        format!("optimizer (objective {})", cfg.objective.name())
+    }
+}
+
+/// One compile with the chosen compiler: the sequence, its sync points, and the
+/// optimizer's block reports.
+fn compile_one(
+    c: &Circuit,
+    profile: &Profile,
+    cfg: &CompileConfig,
+    window_qubits: Option<usize>,
+) -> Result<(Sequence, Vec<SyncPoint>, Vec<BlockReport>), DriverError> {
+    if cfg.baseline {
+        let (sequence, origin) = compile_baseline_bounded(c, profile, cfg.target, cfg.max_steps)?;
+        let sync = sync_points_from_origin(&origin, c.instrs.len())?;
+        return Ok((sequence, sync, Vec::new()));
+    }
+    let o = compile_optimized(
+        c,
+        profile,
+        &OptConfig {
+            target: cfg.target,
+            objective: cfg.objective,
+            max_steps: cfg.max_steps,
+            window_qubits,
+            ..OptConfig::default()
+        },
+    )?;
+    Ok((o.sequence, o.sync, o.blocks))
+}
+
+/// Compiles, verifies (unless switched off) and budgets one circuit. A failed
+/// verification is an error, never a silent success.
+pub fn compile(
+    c: &Circuit,
+    profile: &Profile,
+    cfg: &CompileConfig,
+) -> Result<Compiled, DriverError> {
+    compile_with(c, profile, cfg, &mut |_| {})
+}
+
+/// [`compile`], calling `on_stage` as each stage starts.
+pub fn compile_with(
+    c: &Circuit,
+    profile: &Profile,
+    cfg: &CompileConfig,
+    on_stage: &mut dyn FnMut(Stage),
+) -> Result<Compiled, DriverError> {
+    compile_counted(c, profile, cfg, on_stage, &WorkCounter::default())
+}
+
+/// [`compile_with`], also counting the windows of a window-by-window verification
+/// in `counter` (which another thread may read to show progress).
+pub fn compile_counted(
+    c: &Circuit,
+    profile: &Profile,
+    cfg: &CompileConfig,
+    on_stage: &mut dyn FnMut(Stage),
+    counter: &WorkCounter,
+) -> Result<Compiled, DriverError> {
+    on_stage(Stage::Compile);
+    let (mut sequence, mut sync, mut blocks) = compile_one(c, profile, cfg, None)?;
+    let verification = if cfg.verify {
+        let whole_bytes = sequence_check_bytes(sequence.steps.len(), sequence.n_ions as usize)
+            .saturating_add(circuit_check_bytes(c.instrs.len()));
+        let whole = if whole_bytes > cfg.check.memory_budget {
+            // Lowering the whole sequence would not fit: go window by window.
+            Err(CheckError::TooLarge {
+                qubits: c.n_qubits() as usize,
+                needed: whole_bytes,
+                budget: cfg.check.memory_budget,
+            })
+        } else {
+            on_stage(Stage::Verify);
+            let a = Program::from_circuit(c).map_err(CheckError::Lower)?;
+            let b = Program::from_sequence(&sequence);
+            check(&a, &b, &cfg.check)
+        };
+        match whole {
+            Ok(v) if v.equivalent => Some(Verification::Whole(v)),
+            Ok(v) => {
+                return Err(DriverError::NotEquivalent(format!(
+                    "mode {}, distance {} against tolerance {:.1e}: {}",
+                    v.mode.name(),
+                    fmt_distance(v.distance),
+                    v.tolerance,
+                    v.detail
+                )))
+            }
+            Err(CheckError::TooLarge { .. } | CheckError::TooSlow { .. }) => {
+                if !cfg.baseline {
+                    // Recompile in ranges of few qubits, so that every window is small
+                    // (the first output is freed first: it can be most of the memory).
+                    on_stage(Stage::Compile);
+                    drop(std::mem::take(&mut sequence.steps));
+                    (sequence, sync, blocks) = compile_one(c, profile, cfg, Some(WINDOW_QUBITS))?;
+                }
+                on_stage(Stage::VerifyWindows);
+                let b = check_windows_counted(c, &sequence, &sync, &cfg.check, counter)?;
+                if !b.equivalent {
+                    return Err(DriverError::NotEquivalent(b.detail));
+                }
+                Some(Verification::Windowed(b))
+            }
+            Err(e) => return Err(e.into()),
+        }
+    } else {
+        None
+    };
+    on_stage(Stage::Budget);
+    let budget = budget(&sequence, profile, c.n_qubits());
+    Ok(Compiled {
+        sequence,
+        budget,
+        verification,
+        blocks,
+    })
+}
+
+/// The budget of a sequence as it is written (a hand-built or compiled one), on
+/// `profile`. The sequence may use fewer ions than the device has, never more.
+pub fn budget_sequence(seq: &Sequence, profile: &Profile) -> Result<Budget, String> {
+    if seq.n_ions > profile.device.ions {
+        return Err(format!(
+            "error: the sequence is for {} ions, but the device `{}` has {}\n",
+            seq.n_ions, profile.device.name, profile.device.ions
+        ));
+    }
+    Ok(budget(seq, profile, seq.addressed_ion_count()))
+}
+
+/// The profile with `ions` of its ions loaded (`None`: all of them); more than the
+/// profile has is an error.
+pub fn loaded_ions(profile: Profile, ions: Option<u32>) -> Result<Profile, String> {
+    match ions {
+        None => Ok(profile),
+        Some(0) => Err("error: --ions must be at least 1\n".into()),
+        Some(n) if n > profile.device.ions => Err(format!(
+            "error: --ions {n} is more than the {} ions of the device `{}`\n",
+            profile.device.ions, profile.device.name
+        )),
+        Some(n) => Ok(profile.with_ions(n)),
+    }
+}
+
+/// The SHA-256 of `bytes`, in hex.
+pub fn sha256_hex(bytes: &[u8]) -> String {
+    use sha2::Digest;
+    sha2::Sha256::digest(bytes)
+        .iter()
+        .map(|b| format!("{b:02x}"))
+        .collect()
+}
+
+/// Where a compiled sequence came from: the source file (name and hash of its
+/// bytes), the device profile (name and hash of its TOML text), target, compiler,
+/// tool version and how it was verified.
+pub fn provenance(
+    source: &Path,
+    device_spec: &str,
+    target: Target,
+    compiler: &str,
+    verification: Option<&Verification>,
+) -> crate::native::Provenance {
+    let hash_of = |bytes: std::io::Result<Vec<u8>>| {
+        bytes.map_or_else(|e| format!("unreadable ({e})"), |b| sha256_hex(&b))
+    };
+    let (device, device_sha256) = if device_spec == "demo" {
+        (
+            Profile::demo().device.name,
+            sha256_hex(crate::native::profile::DEMO_TOML.as_bytes()),
+        )
+    } else {
+        let name = load_profile(device_spec)
+            .map(|p| p.device.name)
+            .unwrap_or_else(|_| device_spec.to_string());
+        (name, hash_of(std::fs::read(device_spec)))
+    };
+    crate::native::Provenance {
+        source: source.display().to_string(),
+        source_sha256: hash_of(std::fs::read(source)),
+        device,
+        device_sha256,
+        target: target.name().into(),
+        compiler: compiler.into(),
+        tool: format!("tutti {}", env!("CARGO_PKG_VERSION")),
+        verified: match verification {
+            Some(Verification::Whole(_)) => "whole".into(),
+            Some(Verification::Windowed(_)) => "window by window".into(),
+            None => "no".into(),
+        },
+    }
+}
+
+/// Reads a device profile: `demo` is the embedded one, anything else a TOML file.
+pub fn load_profile(spec: &str) -> Result<Profile, String> {
+    if spec == "demo" {
+        return Ok(Profile::demo());
+    }
+    let text = std::fs::read_to_string(spec)
+        .map_err(|e| format!("error: cannot read profile {spec}: {e}\n"))?;
+    Profile::from_toml(spec, &text).map_err(|e| format!("error: {e}\n"))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn a_failed_verification_exits_with_1_and_other_errors_with_2() {
+        assert_eq!(DriverError::NotEquivalent("x".into()).exit_code(), 1);
+        let too_few = CompileError::TooFewIons {
+            needed: 3,
+            ions: 2,
+            device: "d".into(),
+        };
+        assert_eq!(DriverError::Compile(too_few).exit_code(), 2);
+    }
+}

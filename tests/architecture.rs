@@ -53,14 +53,19 @@ fn every_module_imports_only_from_modules_before_it() {
     let mut violations = Vec::new();
     let mut checked = 0;
     for (rank, module) in order.iter().enumerate() {
+        let paths_of_main = [root.join("src/main.rs"), root.join("src/cli")];
         let (path, prefix) = if *module == "main" {
-            (root.join("src/main.rs"), "tutti::")
+            (paths_of_main[0].clone(), "tutti::")
         } else if root.join("src").join(module).is_dir() {
             (root.join("src").join(module), "crate::")
         } else {
             (root.join("src").join(format!("{module}.rs")), "crate::")
         };
-        for file in rust_files(&path) {
+        let mut files = rust_files(&path);
+        if *module == "main" {
+            files.extend(rust_files(&paths_of_main[1]));
+        }
+        for file in files {
             let text = std::fs::read_to_string(&file).unwrap();
             for name in referenced(&text, prefix) {
                 checked += 1;

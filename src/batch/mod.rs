@@ -2,6 +2,8 @@
 //! device, a target and a compiler with its objective), in parallel, with one
 //! memory budget for all jobs, records that let a re-run skip finished work, a
 //! deterministic part of the suite per shard, and summaries (`summary`, `chart`).
+//! Finding the circuits is `discover`; the records, their checks and `merge` are
+//! `records`; this module holds the settings and the run itself.
 //!
 //! Layout of an output folder `DIR`:
 //! - `DIR/batch.json`: the manifest (settings in order, options, shard);
@@ -19,6 +21,14 @@
 //! budget is in use; the parallel kernels of the checker run on rayon's global pool
 //! (the command line sizes it to `jobs`). Each file is read on its job's thread.
 
+mod discover;
+mod records;
+
+pub use discover::{discover, Input};
+pub use records::merge;
+use records::{
+    current_record, options_digest, record_path, remove_stale_temporaries, write_record, Record,
+};
 pub mod chart;
 pub mod summary;
 
@@ -195,111 +205,6 @@ pub fn tool_identity() -> String {
     format!("tutti {} ({exe})", env!("CARGO_PKG_VERSION"))
 }
 
-/// One circuit of the suite.
-#[derive(Debug, Clone, PartialEq, Eq)]
-pub struct Input {
-    /// Where to read it.
-    pub path: PathBuf,
-    /// Its place in the output tree: the path below the parent of the argument it
-    /// was found under, with `/` between parts.
-    pub key: String,
-}
-
-/// The `.qasm` files under `paths` (files given directly are taken whatever their
-/// extension), sorted by key. Folders are searched recursively; a symbolic link is
-/// followed only when it stays inside the folder searched, and a file reached twice
-/// is taken once. Two different files that would land on the same output are an
-/// error.
-pub fn discover(paths: &[PathBuf]) -> Result<(Vec<Input>, Vec<String>), String> {
-    let mut found: Vec<Input> = Vec::new();
-    let mut notes = Vec::new();
-    let mut seen = std::collections::HashSet::new();
-    for arg in paths {
-        let meta =
-            std::fs::metadata(arg).map_err(|e| format!("cannot read {}: {e}", arg.display()))?;
-        let base = arg.parent().map(Path::to_path_buf).unwrap_or_default();
-        if meta.is_file() {
-            let canonical =
-                std::fs::canonicalize(arg).map_err(|e| format!("{}: {e}", arg.display()))?;
-            if seen.insert(canonical) {
-                found.push(Input {
-                    path: arg.clone(),
-                    key: key_of(arg, &base),
-                });
-            }
-            continue;
-        }
-        let root = std::fs::canonicalize(arg).map_err(|e| format!("{}: {e}", arg.display()))?;
-        let mut stack = vec![arg.clone()];
-        while let Some(dir) = stack.pop() {
-            let mut entries: Vec<PathBuf> = std::fs::read_dir(&dir)
-                .map_err(|e| format!("cannot list {}: {e}", dir.display()))?
-                .filter_map(|e| e.ok().map(|e| e.path()))
-                .collect();
-            entries.sort();
-            for path in entries {
-                let Ok(link) = std::fs::symlink_metadata(&path) else {
-                    continue;
-                };
-                let Ok(canonical) = std::fs::canonicalize(&path) else {
-                    notes.push(format!("skipped {}: a broken link", path.display()));
-                    continue;
-                };
-                if link.file_type().is_symlink() && !canonical.starts_with(&root) {
-                    notes.push(format!(
-                        "skipped {}: a link out of {}",
-                        path.display(),
-                        arg.display()
-                    ));
-                    continue;
-                }
-                let Ok(meta) = std::fs::metadata(&path) else {
-                    continue;
-                };
-                if meta.is_dir() {
-                    // A link to a folder inside the tree would visit it twice (or
-                    // loop): its files are reached through the real folder.
-                    if !link.file_type().is_symlink() {
-                        stack.push(path);
-                    }
-                } else if meta.is_file()
-                    && path.extension().is_some_and(|e| e == "qasm")
-                    && seen.insert(canonical)
-                {
-                    found.push(Input {
-                        key: key_of(&path, &base),
-                        path,
-                    });
-                }
-            }
-        }
-    }
-    found.sort_by(|a, b| a.key.cmp(&b.key));
-    for w in found.windows(2) {
-        if w[0].key == w[1].key {
-            return Err(format!(
-                "{} and {} would both be written as {}; give them from different folders",
-                w[0].path.display(),
-                w[1].path.display(),
-                w[0].key
-            ));
-        }
-    }
-    Ok((found, notes))
-}
-
-/// The path of `path` below `base`, `/`-separated, without `..` or a root.
-fn key_of(path: &Path, base: &Path) -> String {
-    let rel = path.strip_prefix(base).unwrap_or(path);
-    rel.components()
-        .filter_map(|c| match c {
-            std::path::Component::Normal(s) => Some(s.to_string_lossy().into_owned()),
-            _ => None,
-        })
-        .collect::<Vec<_>>()
-        .join("/")
-}
-
 /// What a run reports as it goes (to draw progress).
 #[derive(Debug, Clone)]
 pub enum Event<'a> {
@@ -346,38 +251,6 @@ pub struct Manifest {
     pub chart: Figure,
 }
 
-/// A finished job: its row, and what it was computed from.
-#[derive(Debug, Clone, serde::Serialize, serde::Deserialize)]
-struct Record {
-    options: String,
-    sources: Vec<SourceDigest>,
-    output: Option<String>,
-    row: Row,
-}
-
-/// The digest of everything but the inputs that a job's result depends on.
-fn options_digest(cfg: &BatchConfig, setting: &Setting) -> String {
-    let profile = if setting.device == "demo" {
-        driver::sha256_hex(crate::native::profile::DEMO_TOML.as_bytes())
-    } else {
-        std::fs::read(&setting.device)
-            .map(|b| driver::sha256_hex(&b))
-            .unwrap_or_else(|e| format!("unreadable: {e}"))
-    };
-    let text = serde_json::json!({
-        "tool": cfg.tool,
-        "setting": setting,
-        "profile": profile,
-        "verify": cfg.verify,
-        "max_steps": cfg.max_steps,
-        "limits": format!("{:?}", Limits { max_threads: 1, ..cfg.limits }),
-        "memory": cfg.memory_given.then_some(cfg.memory),
-        "format": cfg.format.name(),
-    })
-    .to_string();
-    driver::sha256_hex(text.as_bytes())
-}
-
 fn extension(format: Format) -> &'static str {
     match format {
         Format::Qasm => "qasm",
@@ -393,12 +266,6 @@ pub fn output_path(out: &Path, setting: &str, key: &str, format: Format) -> Path
     p
 }
 
-fn record_path(out: &Path, setting: &str, key: &str) -> PathBuf {
-    let mut p = out.join("records").join(setting).join(key);
-    p.set_extension("json");
-    p
-}
-
 /// Writes `text` to `path` atomically, making its folders.
 pub(crate) fn write_atomic(path: &Path, text: &str) -> Result<(), String> {
     if let Some(dir) = path.parent() {
@@ -407,27 +274,6 @@ pub(crate) fn write_atomic(path: &Path, text: &str) -> Result<(), String> {
     }
     let input = Path::new("");
     driver::write_output(path, text, input, true).map_err(|e| e.trim_end().to_string())
-}
-
-/// A record still valid: same options, every file read unchanged, output present.
-fn current_record(path: &Path, options: &str, out_dir: &Path) -> Option<Record> {
-    let text = std::fs::read_to_string(path).ok()?;
-    let record: Record = serde_json::from_str(&text).ok()?;
-    if record.options != options || record.row.status == Status::Failed {
-        return None;
-    }
-    for s in &record.sources {
-        let bytes = std::fs::read(&s.path).ok()?;
-        if driver::sha256_hex(&bytes) != s.sha256 {
-            return None;
-        }
-    }
-    if let Some(o) = &record.output {
-        if !out_dir.join(o).is_file() {
-            return None;
-        }
-    }
-    Some(record)
 }
 
 /// Runs the suite. Failed jobs are rows with their diagnostics, not errors; an
@@ -547,37 +393,6 @@ pub fn run(cfg: &BatchConfig, on_event: &(dyn Fn(Event) + Sync)) -> Result<Batch
         notes,
         written,
     })
-}
-
-/// Removes the temporary files (`.tutti-*.tmp`) a killed run left under `dir`:
-/// they were never renamed into place, so nothing finished is lost.
-fn remove_stale_temporaries(dir: &Path) {
-    let mut stack = vec![dir.to_path_buf()];
-    while let Some(d) = stack.pop() {
-        let Ok(entries) = std::fs::read_dir(&d) else {
-            continue;
-        };
-        for e in entries.flatten() {
-            let Ok(t) = e.file_type() else { continue };
-            let name = e.file_name();
-            let name = name.to_string_lossy();
-            if t.is_dir() {
-                stack.push(e.path());
-            } else if t.is_file() && name.starts_with(".tutti-") && name.ends_with(".tmp") {
-                let _ = std::fs::remove_file(e.path());
-            }
-        }
-    }
-}
-
-fn write_record(
-    cfg: &BatchConfig,
-    setting: &str,
-    key: &str,
-    record: &Record,
-) -> Result<(), String> {
-    let text = serde_json::to_string_pretty(record).map_err(|e| e.to_string())?;
-    write_atomic(&record_path(&cfg.out, setting, key), &(text + "\n"))
 }
 
 /// One job: read, compile, verify, budget, write the output. Never panics out: a
@@ -735,108 +550,4 @@ fn job_body(
         }
     }
     Ok(())
-}
-
-/// Joins the outputs of several runs (shards) into `out`: every row and output
-/// copied, and one summary. The runs must have the same settings; a job present in
-/// two runs must have the same row (but for timing).
-pub fn merge(dirs: &[PathBuf], out: &Path) -> Result<BatchOutcome, String> {
-    let mut manifest: Option<Manifest> = None;
-    let mut records: Vec<(String, Record, PathBuf)> = Vec::new();
-    for dir in dirs {
-        let text = std::fs::read_to_string(dir.join("batch.json"))
-            .map_err(|e| format!("{}: not a batch output ({e})", dir.display()))?;
-        let m: Manifest = serde_json::from_str(&text)
-            .map_err(|e| format!("{}/batch.json: {e}", dir.display()))?;
-        match &manifest {
-            None => manifest = Some(m.clone()),
-            Some(first) if first.settings != m.settings => {
-                return Err(format!(
-                    "{} was run with other settings than {}; merge runs of one sweep only",
-                    dir.display(),
-                    dirs[0].display()
-                ))
-            }
-            Some(_) => {}
-        }
-        let root = dir.join("records");
-        let mut stack = vec![root.clone()];
-        while let Some(d) = stack.pop() {
-            let Ok(entries) = std::fs::read_dir(&d) else {
-                continue;
-            };
-            for e in entries.flatten() {
-                let p = e.path();
-                let Ok(t) = e.file_type() else { continue };
-                if t.is_dir() {
-                    stack.push(p);
-                } else if t.is_file() && p.extension().is_some_and(|x| x == "json") {
-                    let text =
-                        std::fs::read_to_string(&p).map_err(|e| format!("{}: {e}", p.display()))?;
-                    let rec: Record =
-                        serde_json::from_str(&text).map_err(|e| format!("{}: {e}", p.display()))?;
-                    let rel = p
-                        .strip_prefix(&root)
-                        .unwrap_or(&p)
-                        .to_string_lossy()
-                        .into_owned();
-                    records.push((rel, rec, dir.clone()));
-                }
-            }
-        }
-    }
-    let Some(mut manifest) = manifest else {
-        return Err("nothing to merge".into());
-    };
-    manifest.shard = None;
-    records.sort_by(|a, b| a.0.cmp(&b.0));
-    let mut kept: Vec<(String, Record, PathBuf)> = Vec::new();
-    for r in records {
-        if let Some(last) = kept.last() {
-            if last.0 == r.0 {
-                if !last.1.row.same_result(&r.1.row) {
-                    return Err(format!(
-                        "{} and {} hold different results for {} ({})",
-                        last.2.display(),
-                        r.2.display(),
-                        r.1.row.path,
-                        r.1.row.setting
-                    ));
-                }
-                continue;
-            }
-        }
-        kept.push(r);
-    }
-    std::fs::create_dir_all(out).map_err(|e| format!("cannot create {}: {e}", out.display()))?;
-    for (rel, rec, dir) in &kept {
-        if let Some(o) = &rec.output {
-            let from = dir.join(o);
-            let text =
-                std::fs::read_to_string(&from).map_err(|e| format!("{}: {e}", from.display()))?;
-            write_atomic(&out.join(o), &text)?;
-        }
-        let text = serde_json::to_string_pretty(rec).map_err(|e| e.to_string())?;
-        write_atomic(&out.join("records").join(rel), &(text + "\n"))?;
-    }
-    let text = serde_json::to_string_pretty(&manifest).map_err(|e| e.to_string())?;
-    write_atomic(&out.join("batch.json"), &(text + "\n"))?;
-    let order: Vec<String> = manifest.settings.iter().map(Setting::name).collect();
-    let mut rows: Vec<Row> = kept.into_iter().map(|(_, r, _)| r.row).collect();
-    rows.sort_by(|a, b| {
-        let pos = |r: &Row| {
-            order
-                .iter()
-                .position(|s| *s == r.setting)
-                .unwrap_or(usize::MAX)
-        };
-        a.path.cmp(&b.path).then(pos(a).cmp(&pos(b)))
-    });
-    let written = summary::write_all(out, &manifest, &rows)?;
-    Ok(BatchOutcome {
-        rows,
-        skipped: 0,
-        notes: Vec::new(),
-        written,
-    })
 }

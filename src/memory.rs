@@ -1,4 +1,6 @@
-//! Memory advice for large buffers (statevectors, the IR of large files).
+//! Memory: advice for large buffers (statevectors, the IR of large files), the
+//! default budget (what the process may really use), and the [`Pool`] that the
+//! comparisons of several jobs share.
 
 /// Asks the kernel to back the capacity of `v` with transparent huge pages, before
 /// it is first touched. Large passes over memory otherwise spend much of their time

@@ -101,3 +101,51 @@ fn the_scan_sees_a_reference_that_flows_backwards() {
     );
     assert_eq!(refs, ["sim", "memory"]);
 }
+
+/// Every page of the repository that the code, tests and docs cite (`docs/*.md`,
+/// `grammar/*.ebnf`, the top-level guides) exists: a source a header cites must be
+/// reachable from the repository.
+#[test]
+fn every_cited_page_of_the_repository_exists() {
+    let root = Path::new(env!("CARGO_MANIFEST_DIR"));
+    let mut files = rust_files(&root.join("src"));
+    files.extend(rust_files(&root.join("tests")));
+    for doc in ["README.md", "ARCHITECTURE.md", "DEVELOPERS.md"] {
+        files.push(root.join(doc));
+    }
+    for e in std::fs::read_dir(root.join("docs")).unwrap().flatten() {
+        files.push(e.path());
+    }
+    let mut missing = Vec::new();
+    let mut cited = 0;
+    for f in &files {
+        let text = std::fs::read_to_string(f).unwrap();
+        for prefix in ["docs/", "grammar/"] {
+            for (i, _) in text.match_indices(prefix) {
+                // Only a path that starts a word: not "tests/docs/..." or a URL.
+                if i > 0
+                    && text[..i].ends_with(|c: char| c.is_alphanumeric() || c == '/' || c == '.')
+                {
+                    continue;
+                }
+                let rest = &text[i..];
+                let end = rest
+                    .find(|c: char| !(c.is_ascii_alphanumeric() || "/-_.".contains(c)))
+                    .unwrap_or(rest.len());
+                let path = rest[..end].trim_end_matches('.');
+                if !(path.ends_with(".md") || path.ends_with(".ebnf")) {
+                    continue;
+                }
+                cited += 1;
+                if !root.join(path).is_file() {
+                    missing.push(format!("{} cites {path}", f.display()));
+                }
+            }
+        }
+    }
+    assert!(
+        cited > 20,
+        "only {cited} citations found: is the scan broken?"
+    );
+    assert!(missing.is_empty(), "{}", missing.join("\n"));
+}

@@ -206,7 +206,7 @@ fn tableau_decides_a_200_qubit_ghz_preparation_pair() {
     assert!(v.equivalent && v.mode == Mode::Tableau);
 }
 
-/// The sign-vector echo of DESIGN fact 6 on `n` ions for the pair (a, b).
+/// The sign-vector echo of gate-set fact 6 on `n` ions for the pair (a, b).
 fn echo_sequence(n: usize, a: usize, b: usize, theta: f64) -> Sequence {
     let h = tutti::compile::hadamard::smallest_hadamard(n - 1);
     let m = h.len();

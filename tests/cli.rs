@@ -650,7 +650,7 @@ fn ions_loads_part_of_the_chain_and_never_more_than_the_device_has() {
     let text = std::fs::read_to_string(&out).unwrap();
     assert!(text.lines().any(|l| l == "ions 5"), "{text}");
     // Four CNOTs, each a sign-vector echo of 4 pulses on 5 ions (Hadamard order 4):
-    // DESIGN fact 6 (derived there), and far fewer than the 40 per gate on 40 ions.
+    // gate-set fact 6 (derived in docs/gate-set.md), and far fewer than the 40 per gate on 40 ions.
     let (code, json, _) = tutti(&["budget", "circuits/ghz_5.qasm", "--ions", "5", "--json"]);
     assert_eq!(code, 0);
     let v: serde_json::Value = serde_json::from_str(&json).unwrap();
@@ -758,7 +758,7 @@ fn the_objective_and_the_compiler_show_in_the_output_and_change_the_budget() {
     assert_eq!(code, 0, "{err}");
     assert!(out.contains("# provenance compiler: baseline"), "{out}");
     // Minimising area never gives more area than minimising pulses, and the
-    // optimizer's area on this ring (two layers of disjoint pairs, DESIGN fact 7)
+    // optimizer's area on this ring (two layers of disjoint pairs, gate-set fact 7)
     // is a third of the baseline's six separate couplings.
     let area = |args: &[&str]| {
         let mut all = vec!["budget", "circuits/qaoa_ring_6.qasm", "--json"];

@@ -1,4 +1,4 @@
-//! Coupling synthesis against DESIGN section 1, facts 5 to 9, and against the
+//! Coupling synthesis against gate-set facts 5 to 9, docs/gate-set.md, and against the
 //! linear program it solves.
 
 use rand::{Rng, SeedableRng};
@@ -31,8 +31,8 @@ fn realised(n: usize, pulses: &[tutti::compile::couple::Pulse]) -> Vec<Vec<f64>>
     m
 }
 
-/// DESIGN fact 8 (Bassler et al., Quantum 7, 984, 2023; closed form derived in
-/// DESIGN): for n = 3 the optimum is max(a+b-c, a-b+c, -a+b+c, -a-b-c).
+/// gate-set fact 8 (Bassler et al., Quantum 7, 984, 2023; closed form derived
+/// for this project, docs/gate-set.md): for n = 3 the optimum is max(a+b-c, a-b+c, -a+b+c, -a-b-c).
 #[test]
 fn three_ions_reach_the_closed_form_optimum() {
     for (a, b, c, want) in [
@@ -45,7 +45,10 @@ fn three_ions_reach_the_closed_form_optimum() {
         let closed = [a + b - c, a - b + c, -a + b + c, -a - b - c]
             .into_iter()
             .fold(f64::MIN, f64::max);
-        assert!((closed - want).abs() < 1e-12, "DESIGN's listed value");
+        assert!(
+            (closed - want).abs() < 1e-12,
+            "the value docs/gate-set.md lists"
+        );
         let s = synthesize(&j, Budget::default());
         assert!(s.certifies(&j), "certificate for {a} {b} {c}");
         assert!(
@@ -82,7 +85,7 @@ fn three_ions_reach_the_closed_form_optimum() {
     }
 }
 
-/// DESIGN fact 7 (derived there; checked here for 3 pairs among 7 ions and more):
+/// gate-set fact 7 (derived in docs/gate-set.md; checked here for 3 pairs among 7 ions and more):
 /// k disjoint pairs of equal coupling among n ions cost total weight theta, not k theta.
 #[test]
 fn a_layer_of_disjoint_pairs_costs_one_gate() {
@@ -115,7 +118,7 @@ fn a_layer_of_disjoint_pairs_costs_one_gate() {
     }
 }
 
-/// DESIGN fact 9 (derived there; checked for 3 coupled and 5 idle ions): padding
+/// gate-set fact 9 (derived in docs/gate-set.md; checked for 3 coupled and 5 idle ions): padding
 /// with a Hadamard matrix decouples idle ions at unchanged total weight.
 #[test]
 fn idle_ions_are_decoupled_at_unchanged_weight() {
@@ -156,7 +159,7 @@ fn idle_ions_are_decoupled_at_unchanged_weight() {
     }
 }
 
-/// DESIGN fact 6: the per-coupling Hadamard fallback is exact, at total weight
+/// gate-set fact 6: the per-coupling Hadamard fallback is exact, at total weight
 /// sum |w|.
 #[test]
 fn the_hadamard_fallback_is_exact() {

@@ -135,7 +135,7 @@ fn cnot_rz_cnot_becomes_one_interaction() {
 }
 
 /// Each block's synthesis satisfies its certificate, recomputed here from the sign
-/// vectors and weights: sum_k t_k s_k s_k^T = J off the diagonal (DESIGN fact 5).
+/// vectors and weights: sum_k t_k s_k s_k^T = J off the diagonal (gate-set fact 5).
 #[test]
 fn block_certificates_hold() {
     let profile = Profile::demo();

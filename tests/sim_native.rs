@@ -1,5 +1,5 @@
 //! The native operations' unitaries and the facts of the native gate set that the
-//! compiler rests on (DESIGN section 1), checked against independent constructions.
+//! compiler rests on (docs/gate-set.md), checked against independent constructions.
 
 use nalgebra::DMatrix;
 use num_complex::Complex64 as C;
@@ -54,7 +54,7 @@ fn assert_equal_up_to_phase(a: &DMatrix<C>, b: &DMatrix<C>, what: &str) {
 
 #[test]
 fn native_unitaries_match_matrix_exponentials_of_their_hamiltonians() {
-    // DESIGN section 1 definitions, exponentiated by nalgebra (a general-purpose
+    // docs/gate-set.md definitions, exponentiated by nalgebra (a general-purpose
     // library), for 1 to 6 ions and random angles; phases included.
     let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(11);
     for n in 1..=6usize {
@@ -327,7 +327,7 @@ fn fact_5_light_shift_flips_change_the_signs_of_the_couplings() {
     }
 }
 
-/// The sign-vector echo of DESIGN fact 6: isolates the pair (a, b) with couplings
+/// The sign-vector echo of gate-set fact 6: isolates the pair (a, b) with couplings
 /// exp(-i theta/2 X_a X_b) among n ions using the rows of a Hadamard matrix.
 fn echo(n: usize, a: usize, b: usize, theta: f64) -> Vec<NativeOp> {
     let h = smallest_hadamard(n - 1);

@@ -1,10 +1,10 @@
-//! The baseline compiler of DESIGN section 5: every operation of the canonical form
+//! The baseline compiler of docs/budget.md: every operation of the canonical form
 //! compiled on its own, no scheduling and no merging.
 //!
 //! - Collective target: a single-qubit unitary `e^{ia} Rz(b) Ry(g) Rz(d)` on ion k is
-//!   `L_k(d)`, then `R(pi/2, 0) L_k(g) R(-pi/2, 0)` (DESIGN fact 4), then `L_k(b)`. A
+//!   `L_k(d)`, then `R(pi/2, 0) L_k(g) R(-pi/2, 0)` (gate-set fact 4), then `L_k(b)`. A
 //!   ZZ interaction is turned into XX by collective `Ry(-/+ pi/2)` pulses and made by
-//!   the sign-vector echo of DESIGN facts 5 and 6 over every ion of the device:
+//!   the sign-vector echo of gate-set facts 5 and 6 over every ion of the device:
 //!   `m` MS pulses of area `theta/m`, `m` the order of the smallest Hadamard matrix of
 //!   at least `n_ions - 1`.
 //! - Addressed target: addressed rotations and light shifts for single-qubit
@@ -288,7 +288,7 @@ fn zz_by_echo(e: &mut Emit, a: u32, b: u32, theta: f64, rows: &[Vec<i8>]) {
 }
 
 /// `exp(-i theta/2 Z_a Z_b)` on the addressed target. A pair MS of area theta is
-/// `exp(-i theta/2 X_a X_b)` up to phase (DESIGN fact 1 with two ions).
+/// `exp(-i theta/2 X_a X_b)` up to phase (gate-set fact 1 with two ions).
 fn zz_addressed(e: &mut Emit, a: u32, b: u32, theta: f64, profile: &Profile) {
     let caps = profile.capabilities;
     let to_x = |e: &mut Emit, sign: f64| {

@@ -1,5 +1,5 @@
 //! Lowering: every library gate becomes single-qubit unitaries and ZZ interactions
-//! (plus measure, reset and conditions), the canonical form of DESIGN section 2.
+//! (plus measure, reset and conditions), the canonical form of ARCHITECTURE.md.
 //!
 //! Invariant: the product of the canonical operations of a gate equals the gate up
 //! to a global phase (checked in tests by the statevector checker). Decompositions:

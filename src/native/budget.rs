@@ -1,4 +1,4 @@
-//! The budget of a native sequence: the figures of DESIGN section 5, computed from
+//! The budget of a native sequence: the figures of docs/budget.md, computed from
 //! the device profile without running anything.
 //!
 //! Error model (a model, not a measurement; documented in docs/budget.md):

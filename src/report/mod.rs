@@ -133,7 +133,7 @@ pub fn budget_table(b: &budget::Budget) -> String {
 }
 
 /// One line on the optimizer's coupling blocks: how many, their MS area, and its
-/// ratio to the sum of the blocks' certified lower bounds (DESIGN section 5: quality
+/// ratio to the sum of the blocks' certified lower bounds (docs/budget.md: quality
 /// per block against the optimum where it is computable). `None` for the baseline.
 pub fn blocks_line(blocks: &[crate::compile::optimize::BlockReport]) -> Option<String> {
     if blocks.is_empty() {

@@ -1,10 +1,10 @@
 //! Constructions with a closed form: the Hadamard construction that isolates each
-//! coupling (DESIGN fact 6, the fallback), disjoint pairs in one layer (fact 7,
+//! coupling (gate-set fact 6, the fallback), disjoint pairs in one layer (fact 7,
 //! generalised to unequal weights), and idle ions decoupled at no extra area (fact 9).
 
 use super::*;
 
-/// The Hadamard construction (DESIGN fact 6) for every non-zero coupling on its own:
+/// The Hadamard construction (gate-set fact 6) for every non-zero coupling on its own:
 /// `m` pulses of weight `|w|/m`, `m` the smallest Hadamard order `>= n - 1`.
 pub fn hadamard_each(c: &Coupling) -> Synthesis {
     let n = c.n;
@@ -54,7 +54,7 @@ pub fn hadamard_each(c: &Coupling) -> Synthesis {
     }
 }
 
-/// DESIGN fact 7: when the coupled pairs are disjoint and all of weight `|w|`, one
+/// gate-set fact 7: when the coupled pairs are disjoint and all of weight `|w|`, one
 /// Hadamard matrix of order `m >= pairs + others` gives every pair column `c_i`
 /// (the second ion with the coupling's sign) and every other ion its own column;
 /// its rows, each of weight `|w|/m`, realise the layer with total weight `|w|`.
@@ -114,7 +114,7 @@ pub fn matching(c: &Coupling) -> Option<Synthesis> {
     })
 }
 
-/// DESIGN fact 7 generalised to disjoint pairs of different weights: with the
+/// gate-set fact 7 generalised to disjoint pairs of different weights: with the
 /// weights sorted, `|w_1| >= |w_2| >= ...`, level `l` couples pairs 1 to l equally
 /// with weight `|w_l| - |w_{l+1}|` by fact 7 (the other ions idle); the total weight
 /// is `|w_1|`, the largest coupling, which is also a lower bound (no pulse adds more
@@ -164,7 +164,7 @@ pub fn matching_layers(c: &Coupling) -> Option<Synthesis> {
     })
 }
 
-/// DESIGN fact 9: the pulses of `s` (on the ions `active`, in that order) extended to
+/// gate-set fact 9: the pulses of `s` (on the ions `active`, in that order) extended to
 /// `n` ions so that every coupling touching another ion is zero, at unchanged total
 /// weight: each pulse becomes `m` pulses of a `m`-row Hadamard matrix (`m >= r + 1`
 /// for the `r` other ions), active ions on column 0 times the pulse's signs, the

@@ -1,6 +1,6 @@
 //! Coupling synthesis: a symmetric coupling `exp(-i sum_{i<j} w_ij X_i X_j)` as a
 //! product of sign-vector pulses `exp(-i t sum_{i<j} s_i s_j X_i X_j)`, `t >= 0`
-//! (DESIGN section 1, facts 5 to 9).
+//! (gate-set facts 5 to 9, docs/gate-set.md).
 //!
 //! The smallest total weight `sum t` is a linear program over the sign vectors
 //! (Bassler, Zipper, Cedzich, Heinrich, Huber, Johanning, Kliesch, Quantum 7, 984,
@@ -21,7 +21,7 @@
 //! - Every solution is moved to a vertex of its optimal face (a step along a null
 //!   vector of the support until a weight reaches zero, repeated), so it uses at
 //!   most one pulse per coupled pair, and re-solved exactly on that support.
-//! - The Hadamard construction of DESIGN fact 6 (each coupling isolated on its own)
+//! - The Hadamard construction of gate-set fact 6 (each coupling isolated on its own)
 //!   is the fallback when the solver fails or runs out of time.
 //!
 //! Invariant: every [`Synthesis`] satisfies `sum_k t_k s_k s_k^T = w` off the
@@ -116,9 +116,9 @@ pub enum Method {
     Exact,
     /// Column generation.
     Columns,
-    /// DESIGN fact 7: disjoint pairs of equal coupling share a Hadamard matrix.
+    /// gate-set fact 7: disjoint pairs of equal coupling share a Hadamard matrix.
     Matching,
-    /// DESIGN fact 6 for each coupling on its own (the fallback).
+    /// gate-set fact 6 for each coupling on its own (the fallback).
     Hadamard,
 }
 

@@ -1,4 +1,4 @@
-//! The optimizing compiler: one pipeline, data flowing one way (DESIGN section 2):
+//! The optimizing compiler: one pipeline, data flowing one way (ARCHITECTURE.md):
 //!
 //! ```text
 //! circuit --segments--> instruction ranges between fences (measure, reset,

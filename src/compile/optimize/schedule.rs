@@ -1,4 +1,4 @@
-//! Gathering ZZ interactions into blocks (DESIGN section 3, scheduling).
+//! Gathering ZZ interactions into blocks (docs/optimizer.md).
 //!
 //! The segment is walked in a topological order. Each qubit keeps the single-qubit
 //! unitary `pending` since it was last placed. A ZZ interaction commutes with a

@@ -1,13 +1,13 @@
 //! Per-target synthesis of a schedule into native operations, and the peephole
-//! rewrites that follow (DESIGN section 3).
+//! rewrites that follow (docs/optimizer.md).
 //!
 //! - Local layers: each qubit's unitary as ZYZ Euler angles `Rz(b) Ry(g) Rz(d)`; the
 //!   first Z is a light shift, the Y parts of all qubits share one collective
-//!   sandwich `R(pi/2, 0) L(g) R(-pi/2, 0)` (DESIGN fact 4), or addressed rotations
+//!   sandwich `R(pi/2, 0) L(g) R(-pi/2, 0)` (gate-set fact 4), or addressed rotations
 //!   where the profile makes those cheaper; the last Z commutes with the following
 //!   ZZ blocks and is carried into the qubit's next layer.
 //! - Blocks: Z to X by collective `R(pi/2, pi/2)` and back; the coupling by sign
-//!   vectors (module `couple`), with idle ions decoupled by DESIGN fact 9, or by
+//!   vectors (module `couple`), with idle ions decoupled by gate-set fact 9, or by
 //!   the layer construction of fact 7; on the addressed target also by pair MS
 //!   pulses, or by hiding the idle ions around global pulses. The candidate the
 //!   objective prefers, costed by the budget model, is taken.
@@ -223,7 +223,7 @@ impl<'a> Emitter<'a> {
             after.push((q, beta));
         }
         if !ys.is_empty() {
-            // One collective sandwich for the whole layer (DESIGN fact 4), or, where
+            // One collective sandwich for the whole layer (gate-set fact 4), or, where
             // the target and device allow, addressed rotations: whichever the
             // objective prefers under the budget model.
             let mut sandwich = vec![NativeOp::Collective {

@@ -4,7 +4,7 @@
 
 use super::*;
 
-/// One pulse of a block's synthesis spread over the non-quiet idle ions (DESIGN
+/// One pulse of a block's synthesis spread over the non-quiet idle ions (gate-set
 /// fact 9): `m` rows of weight `t/m`; the quiet ions hold the row's sign of one
 /// further Hadamard column, still to be multiplied by their own sign.
 #[derive(Clone)]

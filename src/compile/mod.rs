@@ -1,5 +1,7 @@
-//! Compilation from circuits to native sequences: lowering to the canonical form,
-//! then per-target synthesis.
+//! Compilation from circuits to native sequences: lowering to the canonical form
+//! (`lower`), the reference compiler (`baseline`), coupling synthesis over sign
+//! vectors (`couple`, with the Hadamard matrices of `hadamard`), and the optimizer
+//! (`optimize`, docs/optimizer.md).
 
 pub mod baseline;
 pub mod couple;

@@ -1,6 +1,7 @@
 //! Native operations of a collective-gate trapped-ion processor, as plain data.
 //!
-//! Conventions (fixed; see grammar/pulses.ebnf and ARCHITECTURE.md): with
+//! Conventions (fixed; docs/gate-set.md, and grammar/pulses.ebnf for the text form):
+//! with
 //! `sigma_phi = cos(phi) X + sin(phi) Y` and `S_phi` its sum over the ions that are
 //! not hidden,
 //! - `Collective(theta, phi)` = `exp(-i theta/2 S_phi)`,

@@ -298,6 +298,54 @@ fn run(cli: Cli) -> Result<ExitCode, Failure> {
             let outcome = outcome.map_err(|e| format!("error: {e}\n"))?;
             report_batch(&outcome, &cfg.out)
         }
+        Command::Draw {
+            file,
+            output,
+            device,
+            from,
+            to,
+            width,
+            force,
+            limits,
+        } => {
+            let seq = match driver::load(&file, &limits.limits())? {
+                (driver::Loaded::Sequence(seq), warnings) => {
+                    eprint!("{warnings}");
+                    seq
+                }
+                (driver::Loaded::Circuit(_), _) => {
+                    return Err(format!(
+                        "error: {} is a circuit; draw takes a pulse sequence (compile the circuit first)\n",
+                        file.display()
+                    )
+                    .into())
+                }
+            };
+            let profile = driver::load_profile(&device)?;
+            if seq.n_ions > profile.device.ions {
+                return Err(format!(
+                    "error: the sequence is for {} ions, but the device `{}` has {}\n",
+                    seq.n_ions, profile.device.name, profile.device.ions
+                )
+                .into());
+            }
+            let opts = tutti::report::draw::DrawOptions {
+                from_us: from,
+                to_us: to,
+                width,
+                ..Default::default()
+            };
+            let svg = tutti::report::draw::timeline_svg(&seq, &profile, &opts)
+                .map_err(|e| format!("error: {e}\n"))?;
+            match &output {
+                Some(path) => {
+                    driver::write_output(path, &svg, &file, force)?;
+                    eprintln!("wrote {}", path.display());
+                }
+                None => print!("{svg}"),
+            }
+            Ok(ExitCode::SUCCESS)
+        }
         Command::Merge { dirs, out } => {
             let outcome = tutti::batch::merge(&dirs, &out).map_err(|e| format!("error: {e}\n"))?;
             eprintln!("merged {} folder(s) into {}", dirs.len(), out.display());

@@ -231,6 +231,33 @@ pub(super) enum Command {
         #[command(flatten)]
         limits: LimitArgs,
     },
+    /// Draw a timeline of a pulse sequence (compiled or hand-written) as an SVG
+    /// picture: one lane per ion, widths to scale with the profile's durations.
+    Draw {
+        /// A sequence: pulse list, JSON, or tutti's QASM output.
+        file: PathBuf,
+        /// Where to write the SVG: a new file, an existing one with --force, or `-`
+        /// for standard output (also the default).
+        #[arg(short, long)]
+        output: Option<PathBuf>,
+        /// Device profile whose durations set the widths: `demo` or a TOML file.
+        #[arg(long, default_value = "demo")]
+        device: String,
+        /// Start of the range shown, in microseconds.
+        #[arg(long, value_name = "US")]
+        from: Option<f64>,
+        /// End of the range shown, in microseconds.
+        #[arg(long, value_name = "US")]
+        to: Option<f64>,
+        /// Width of the picture in pixels.
+        #[arg(long, default_value_t = 1200)]
+        width: u32,
+        /// Replace OUT if it exists.
+        #[arg(long)]
+        force: bool,
+        #[command(flatten)]
+        limits: LimitArgs,
+    },
     /// Join the output folders of several `tutti batch --shard` runs into one, with
     /// one summary.
     Merge {

@@ -171,3 +171,60 @@ pub fn budget(seq: &Sequence, profile: &Profile, active: u32) -> Budget {
         .collect();
     b
 }
+
+/// When one step runs, by the timing model of [`budget`], in microseconds.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Slot {
+    pub start_us: f64,
+    pub duration_us: f64,
+}
+
+/// The start and duration of every step of `seq` on `profile`, by the same timing
+/// model as [`budget`] (its `duration_us` is the largest end): operations one after
+/// another, except that a layer of light shifts on distinct ions (where the profile
+/// runs them at once) or of measurements shares one slot.
+pub fn timeline(seq: &Sequence, profile: &Profile) -> Vec<Slot> {
+    let mut out = Vec::with_capacity(seq.steps.len());
+    let mut now = 0.0f64;
+    // The open layer: its kind, its ions, its start.
+    let mut layer: Option<(bool, Vec<u32>, f64)> = None;
+    for step in &seq.steps {
+        let op = &step.op;
+        let dt = cost_of(&profile.durations_us, op);
+        let layered = match *op {
+            NativeOp::LightShift { ion, .. } if profile.capabilities.parallel_light_shifts => {
+                Some((false, ion))
+            }
+            NativeOp::Measure { ion, .. } => Some((true, ion)),
+            _ => None,
+        };
+        if let Some((is_measure, ion)) = layered {
+            match &mut layer {
+                Some((kind, ions, start)) if *kind == is_measure && !ions.contains(&ion) => {
+                    ions.push(ion);
+                    out.push(Slot {
+                        start_us: *start,
+                        duration_us: dt,
+                    });
+                    now = now.max(*start + dt);
+                }
+                _ => {
+                    layer = Some((is_measure, vec![ion], now));
+                    out.push(Slot {
+                        start_us: now,
+                        duration_us: dt,
+                    });
+                    now += dt;
+                }
+            }
+            continue;
+        }
+        layer = None;
+        out.push(Slot {
+            start_us: now,
+            duration_us: dt,
+        });
+        now += dt;
+    }
+    out
+}

@@ -4,6 +4,8 @@
 /// costs its candidates with it); re-exported here for the report tables.
 pub use crate::native::budget;
 
+pub mod draw;
+
 use crate::circuit::Summary;
 use crate::sim::Verdict;
 use std::fmt::Write;

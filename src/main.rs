@@ -130,6 +130,7 @@ fn run(cli: Cli) -> Result<ExitCode, Failure> {
             baseline,
             objective,
             no_verify,
+            compensate_crosstalk,
             force,
             max_pulses,
             ions,
@@ -143,6 +144,7 @@ fn run(cli: Cli) -> Result<ExitCode, Failure> {
                 objective: objective.into(),
                 verify: !no_verify,
                 max_steps: max_pulses,
+                compensate_crosstalk,
                 ..CompileConfig::default()
             };
             let (_, mut compiled) = compile_one(&file, &device, ions, &cfg, &limits)?;
@@ -172,6 +174,12 @@ fn run(cli: Cli) -> Result<ExitCode, Failure> {
             eprint!("{}", tutti::report::budget_table(&compiled.budget));
             if let Some(line) = tutti::report::blocks_line(&compiled.blocks) {
                 eprintln!("{line}");
+            }
+            if let Some(c) = compiled.crosstalk {
+                eprintln!(
+                    "crosstalk compensated: error {:.2e} without compensation, {:.2e} with it (verified as the sequence runs under the profile's crosstalk)",
+                    c.uncompensated, c.compensated
+                );
             }
             if let Some(path) = &output {
                 eprintln!("wrote {}", path.display());
@@ -360,17 +368,21 @@ fn run(cli: Cli) -> Result<ExitCode, Failure> {
             tolerance,
             memory,
             up_to_final_diagonal,
+            crosstalk,
             json,
             limits,
         } => {
+            let crosstalk = crosstalk.map(|d| driver::load_profile(&d)).transpose()?;
             let limits = limits.limits();
             let progress = Progress::start(&a);
             progress.stage("reading both sides");
             let defaults = CheckConfig::default();
             let memory_budget =
                 memory.map_or(defaults.memory_budget, |m| m.saturating_mul(1 << 20));
-            let loaded = driver::load_program(&a, &limits, memory_budget)
-                .and_then(|pa| Ok((pa, driver::load_program(&b, &limits, memory_budget)?)));
+            let load = |p: &Path| {
+                driver::load_program_under(p, &limits, memory_budget, crosstalk.as_ref())
+            };
+            let loaded = load(&a).and_then(|pa| Ok((pa, load(&b)?)));
             let ((pa, wa), (pb, wb)) = loaded.map_err(|e| progress.cleared(e))?;
             progress.0.suspend(|| eprint!("{wa}{wb}"));
             let cfg = CheckConfig {

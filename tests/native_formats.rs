@@ -122,6 +122,17 @@ fn angles_print_as_multiples_of_pi_and_read_back() {
     }
     let odd = 0.123456789012345;
     assert_eq!(parse_angle(&format_angle(odd)), Some(odd));
+    // Tiny angles (a crosstalk compensation's far commands) and angles a little off
+    // a multiple of pi read back to within a few units in the last place, not
+    // snapped to `0*pi` or to the multiple (a bug found by the crosstalk tests).
+    for v in [1e-12, -3.5e-13, PI + 3e-12, PI / 2.0 - 1e-13, 1e-300] {
+        let back = parse_angle(&format_angle(v)).unwrap();
+        assert!(
+            (back - v).abs() <= 4.0 * f64::EPSILON * v.abs(),
+            "{v} -> {}",
+            format_angle(v)
+        );
+    }
     for bad in ["", "pie", "2*pi/", "x", "pi/0"] {
         assert!(parse_angle(bad).is_none(), "{bad}");
     }

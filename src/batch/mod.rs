@@ -485,6 +485,7 @@ fn job_body(
         objective,
         verify: cfg.verify,
         max_steps: cfg.max_steps,
+        compensate_crosstalk: false,
         check: crate::sim::CheckConfig {
             memory_budget: cfg.memory,
             pool: Some(pool.clone()),

@@ -132,6 +132,11 @@ pub(super) enum Command {
         /// Skip the check of the output against the input.
         #[arg(long)]
         no_verify: bool,
+        /// Pre-compensate the profile's light-shift crosstalk: each layer of light
+        /// shifts is commanded so that, under the crosstalk, it does what was meant.
+        /// The output is verified as it runs under that crosstalk.
+        #[arg(long)]
+        compensate_crosstalk: bool,
         /// Replace OUT if it exists (the input is never replaced).
         #[arg(long)]
         force: bool,
@@ -296,6 +301,10 @@ pub(super) enum Command {
         /// Accept a difference by a diagonal on the qubits measured at the end.
         #[arg(long)]
         up_to_final_diagonal: bool,
+        /// Take each sequence as it runs under the light-shift crosstalk of this
+        /// device profile (`demo` or a TOML file); circuits are taken as they are.
+        #[arg(long, value_name = "PROFILE")]
+        crosstalk: Option<String>,
         /// Print one JSON object.
         #[arg(long)]
         json: bool,

@@ -263,7 +263,32 @@ pub fn load_program(
     limits: &Limits,
     memory_budget: usize,
 ) -> Result<(Program, String), LoadFailure> {
-    let (loaded, warnings) = load(path, limits)?;
+    load_program_under(path, limits, memory_budget, None)
+}
+
+/// [`load_program`]; a sequence is taken as it runs under the light-shift crosstalk
+/// of `crosstalk` (a device profile), when given. A circuit is taken as it is.
+pub fn load_program_under(
+    path: &Path,
+    limits: &Limits,
+    memory_budget: usize,
+    crosstalk: Option<&crate::native::profile::Profile>,
+) -> Result<(Program, String), LoadFailure> {
+    let (mut loaded, warnings) = load(path, limits)?;
+    if let (Loaded::Sequence(s), Some(profile)) = (&mut loaded, crosstalk) {
+        if s.n_ions > profile.device.ions {
+            return Err(LoadFailure::plain(
+                path,
+                "too-many-ions",
+                format!(
+                    "the sequence is for {} ions, but the device `{}` has {}",
+                    s.n_ions, profile.device.name, profile.device.ions
+                ),
+                None,
+            ));
+        }
+        *s = crate::native::crosstalk::apply(s, profile, &[]).0;
+    }
     let needed = match &loaded {
         Loaded::Circuit(c) => circuit_check_bytes(c.instrs.len()),
         Loaded::Sequence(s) => sequence_check_bytes(s.steps.len(), s.n_ions as usize),

@@ -11,7 +11,7 @@ use crate::native::qasm_out::{read_qasm_sequence, write_qasm};
 use crate::native::text::{read_json, read_pulses, write_json, write_pulses};
 use crate::native::Sequence;
 use crate::qasm::{self, Limits};
-use crate::report::budget::{budget, Budget};
+use crate::report::budget::{budget, with_crosstalk, Budget};
 use crate::sim::program::{circuit_check_bytes, sequence_check_bytes};
 use crate::sim::SyncPoint;
 use crate::sim::{
@@ -24,7 +24,8 @@ mod input;
 mod output;
 
 pub use input::{
-    load, load_program, load_traced, ErrorRecord, Format, LoadFailure, Loaded, SourceDigest,
+    load, load_program, load_program_under, load_traced, ErrorRecord, Format, LoadFailure, Loaded,
+    SourceDigest,
 };
 pub use output::write_output;
 /// Settings of one compilation.
@@ -40,6 +41,9 @@ pub struct CompileConfig {
     pub check: CheckConfig,
     /// Most steps the compiled sequence may have (`--max-pulses`).
     pub max_steps: usize,
+    /// Pre-compensate light-shift crosstalk of the profile (`--compensate-crosstalk`);
+    /// the output is then verified as it runs under that crosstalk.
+    pub compensate_crosstalk: bool,
 }
 
 /// Most work of a whole-program verification in [`compile`], in amplitude updates
@@ -56,6 +60,7 @@ impl Default for CompileConfig {
             objective: Objective::default(),
             verify: true,
             max_steps: DEFAULT_MAX_STEPS,
+            compensate_crosstalk: false,
             check: CheckConfig {
                 max_work: VERIFY_WORK,
                 ..CheckConfig::default()
@@ -107,6 +112,8 @@ pub struct Compiled {
     pub sequence: Sequence,
     /// What each block of the optimizer cost (empty for the baseline).
     pub blocks: Vec<BlockReport>,
+    /// With `compensate_crosstalk`: the crosstalk error without and with it.
+    pub crosstalk: Option<Compensation>,
     pub budget: Budget,
     /// `None` when verification was switched off.
     pub verification: Option<Verification>,
@@ -120,6 +127,8 @@ pub enum DriverError {
     Check(#[from] CheckError),
     #[error("verification failed: the compiled sequence is NOT the input circuit ({0})")]
     NotEquivalent(String),
+    #[error("crosstalk compensation failed: {0}")]
+    Crosstalk(String),
 }
 
 impl DriverError {
@@ -228,22 +237,29 @@ pub fn compile_counted(
     counter: &WorkCounter,
 ) -> Result<Compiled, DriverError> {
     on_stage(Stage::Compile);
-    let (mut sequence, mut sync, mut blocks) = compile_one(c, profile, cfg, None)?;
+    let mut out = compile_stage(c, profile, cfg, None)?;
     let verification = if cfg.verify {
-        let whole_bytes = sequence_check_bytes(sequence.steps.len(), sequence.n_ions as usize)
-            .saturating_add(circuit_check_bytes(c.instrs.len()));
-        let whole = if whole_bytes > cfg.check.memory_budget {
-            // Lowering the whole sequence would not fit: go window by window.
-            Err(CheckError::TooLarge {
-                qubits: c.n_qubits() as usize,
-                needed: whole_bytes,
-                budget: cfg.check.memory_budget,
-            })
-        } else {
-            on_stage(Stage::Verify);
-            let a = Program::from_circuit(c).map_err(CheckError::Lower)?;
-            let b = Program::from_sequence(&sequence);
-            check(&a, &b, &cfg.check)
+        let whole = {
+            // What the machine runs: with compensation, the sequence under crosstalk
+            // (the proof is then that the compensated program does the circuit on a
+            // machine with this crosstalk).
+            let applied = out.on_machine(profile, cfg);
+            let seq = applied.as_ref().map_or(&out.sequence, |(s, _)| s);
+            let whole_bytes = sequence_check_bytes(seq.steps.len(), seq.n_ions as usize)
+                .saturating_add(circuit_check_bytes(c.instrs.len()));
+            if whole_bytes > cfg.check.memory_budget {
+                // Lowering the whole sequence would not fit: go window by window.
+                Err(CheckError::TooLarge {
+                    qubits: c.n_qubits() as usize,
+                    needed: whole_bytes,
+                    budget: cfg.check.memory_budget,
+                })
+            } else {
+                on_stage(Stage::Verify);
+                let a = Program::from_circuit(c).map_err(CheckError::Lower)?;
+                let b = Program::from_sequence(seq);
+                check(&a, &b, &cfg.check)
+            }
         };
         match whole {
             Ok(v) if v.equivalent => Some(Verification::Whole(v)),
@@ -261,11 +277,15 @@ pub fn compile_counted(
                     // Recompile in ranges of few qubits, so that every window is small
                     // (the first output is freed first: it can be most of the memory).
                     on_stage(Stage::Compile);
-                    drop(std::mem::take(&mut sequence.steps));
-                    (sequence, sync, blocks) = compile_one(c, profile, cfg, Some(WINDOW_QUBITS))?;
+                    drop(std::mem::take(&mut out.sequence.steps));
+                    out = compile_stage(c, profile, cfg, Some(WINDOW_QUBITS))?;
                 }
                 on_stage(Stage::VerifyWindows);
-                let b = check_windows_counted(c, &sequence, &sync, &cfg.check, counter)?;
+                let applied = out.on_machine(profile, cfg);
+                let (seq, sync) = applied
+                    .as_ref()
+                    .map_or((&out.sequence, &out.sync), |(s, y)| (s, y));
+                let b = check_windows_counted(c, seq, sync, &cfg.check, counter)?;
                 if !b.equivalent {
                     return Err(DriverError::NotEquivalent(b.detail));
                 }
@@ -277,12 +297,83 @@ pub fn compile_counted(
         None
     };
     on_stage(Stage::Budget);
-    let budget = budget(&sequence, profile, c.n_qubits());
+    let mut budget = budget(&out.sequence, profile, c.n_qubits());
+    let crosstalk = match out.compensation {
+        Some(comp) => {
+            budget.crosstalk_error = Some(comp.compensated);
+            Some(comp)
+        }
+        None => {
+            budget = with_crosstalk(budget, &out.sequence, profile);
+            None
+        }
+    };
     Ok(Compiled {
-        sequence,
+        sequence: out.sequence,
         budget,
         verification,
+        blocks: out.blocks,
+        crosstalk,
+    })
+}
+
+/// What compensating a sequence's light-shift crosstalk changed: the error the
+/// crosstalk would leave without it, and what it leaves with it (pruned commands).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Compensation {
+    pub uncompensated: f64,
+    pub compensated: f64,
+}
+
+/// A compiled sequence with its sync points and block reports, compensated for
+/// crosstalk when asked.
+struct Stage1 {
+    sequence: Sequence,
+    sync: Vec<SyncPoint>,
+    blocks: Vec<BlockReport>,
+    compensation: Option<Compensation>,
+}
+
+impl Stage1 {
+    /// The sequence as the machine runs it, when that differs from the sequence
+    /// (compensated compiles).
+    fn on_machine(
+        &self,
+        profile: &Profile,
+        cfg: &CompileConfig,
+    ) -> Option<(Sequence, Vec<SyncPoint>)> {
+        cfg.compensate_crosstalk
+            .then(|| crate::native::crosstalk::apply(&self.sequence, profile, &self.sync))
+    }
+}
+
+fn compile_stage(
+    c: &Circuit,
+    profile: &Profile,
+    cfg: &CompileConfig,
+    window_qubits: Option<usize>,
+) -> Result<Stage1, DriverError> {
+    let (sequence, sync, blocks) = compile_one(c, profile, cfg, window_qubits)?;
+    if !cfg.compensate_crosstalk {
+        return Ok(Stage1 {
+            sequence,
+            sync,
+            blocks,
+            compensation: None,
+        });
+    }
+    let uncompensated = crate::native::crosstalk::stray_error(&sequence, profile);
+    let (sequence, sync, compensated) =
+        crate::native::crosstalk::compensate(&sequence, profile, &sync)
+            .map_err(DriverError::Crosstalk)?;
+    Ok(Stage1 {
+        sequence,
+        sync,
         blocks,
+        compensation: Some(Compensation {
+            uncompensated,
+            compensated,
+        }),
     })
 }
 
@@ -295,7 +386,11 @@ pub fn budget_sequence(seq: &Sequence, profile: &Profile) -> Result<Budget, Stri
             seq.n_ions, profile.device.name, profile.device.ions
         ));
     }
-    Ok(budget(seq, profile, seq.addressed_ion_count()))
+    Ok(with_crosstalk(
+        budget(seq, profile, seq.addressed_ion_count()),
+        seq,
+        profile,
+    ))
 }
 
 /// The profile with `ions` of its ions loaded (`None`: all of them); more than the

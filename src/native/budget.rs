@@ -38,6 +38,11 @@ pub struct Budget {
     pub measurements: usize,
     /// Idle time of each ion the circuit uses, in microseconds.
     pub idle_us: Vec<f64>,
+    /// The error light-shift crosstalk leaves (`native::crosstalk::stray_error`:
+    /// stray Z rotations of the other ions), when the profile has crosstalk; not
+    /// part of `est_error`. Of the sequence as written, unless the compile
+    /// compensated it (then what the compensation leaves).
+    pub crosstalk_error: Option<f64>,
 }
 
 /// What `op` costs by the table `t` (durations or errors) of the profile.
@@ -94,6 +99,9 @@ pub fn budget(seq: &Sequence, profile: &Profile, active: u32) -> Budget {
         hide_operations: 0,
         measurements: 0,
         idle_us: Vec::new(),
+        // Filled by `with_crosstalk` where wanted: the optimizer costs candidates
+        // with this function and does not need it.
+        crosstalk_error: None,
     };
     let mut hidden = vec![false; n];
     let mut busy = vec![0.0f64; n];
@@ -169,6 +177,14 @@ pub fn budget(seq: &Sequence, profile: &Profile, active: u32) -> Budget {
     b.idle_us = (0..active as usize)
         .map(|i| (t - busy[i]).max(0.0))
         .collect();
+    b
+}
+
+/// `b` with its crosstalk error: that of `seq` as written, when the profile has
+/// crosstalk.
+pub fn with_crosstalk(mut b: Budget, seq: &Sequence, profile: &Profile) -> Budget {
+    b.crosstalk_error = crate::native::crosstalk::present(profile)
+        .then(|| crate::native::crosstalk::stray_error(seq, profile));
     b
 }
 

@@ -16,6 +16,7 @@
 //! Invariant: every ion index of a [`Sequence`] is below `n_ions`.
 
 pub mod budget;
+pub mod crosstalk;
 pub mod profile;
 pub mod qasm_out;
 pub mod text;

@@ -122,6 +122,12 @@ pub fn budget_table(b: &budget::Budget) -> String {
         "  est_error          {:.4}  (model: docs/budget.md)",
         b.est_error
     );
+    if let Some(x) = b.crosstalk_error {
+        let _ = writeln!(
+            out,
+            "  crosstalk_error    {x:.2e}  (stray light shifts on other ions; not in est_error)"
+        );
+    }
     if !b.idle_us.is_empty() {
         let max = b.idle_us.iter().cloned().fold(0.0, f64::max);
         let min = b.idle_us.iter().cloned().fold(f64::INFINITY, f64::min);

@@ -14,8 +14,9 @@ use std::fmt::Write;
 mod json;
 
 pub use json::{read_json, write_json, JSON_VERSION};
-/// Writes an angle as a multiple of pi when it is one with a small denominator,
-/// otherwise as radians with full precision.
+/// Writes an angle as a multiple of pi when it is one with a small denominator (to
+/// within a few units in the last place), otherwise as radians with full precision.
+/// A tiny angle is never written as a multiple of pi: `1e-13` is not `0*pi`.
 pub fn format_angle(theta: f64) -> String {
     if theta == 0.0 {
         return "0".into();
@@ -23,7 +24,7 @@ pub fn format_angle(theta: f64) -> String {
     for den in 1..=64u32 {
         let k = theta / PI * den as f64;
         let kr = k.round();
-        if (k - kr).abs() < 1e-12 && kr.abs() < 1e6 {
+        if kr != 0.0 && (k - kr).abs() <= 1e-14 * kr.abs() && kr.abs() < 1e6 {
             let k = kr as i64;
             let num = match k {
                 1 => "pi".to_string(),

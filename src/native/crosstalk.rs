@@ -1,0 +1,263 @@
+//! Light-shift crosstalk: an addressed light shift of angle `theta` on ion `j` also
+//! shifts ion `i` by `C_ij theta`, with `C = I + X` and `X` from the profile's
+//! `[crosstalk]` section (nearest neighbours, all others, or a full matrix;
+//! docs/device-profile.md). Light shifts are Z rotations and commute, so the effect
+//! of a pulse is exact: `L_j(theta)` runs as `prod_i L_i(C_ij theta)`.
+//!
+//! - [`apply`]: the sequence as the machine runs it, to simulate and check.
+//! - [`compensate`]: every layer of light shifts (a run of consecutive light shifts
+//!   under one condition, or none, not crossing a sync point) commanded with `theta_cmd` solving
+//!   `C theta_cmd = theta_target` (nalgebra's LU), so that under crosstalk the layer
+//!   is what was meant.
+//! - [`stray_error`]: the error model of what crosstalk leaves: each layer's
+//!   residual `r = C theta_cmd - theta_meant` rotates ion `i` by `r_i` about Z, a
+//!   gate fidelity of `cos^2(r_i / 2)`; the error is one minus the product.
+//!
+//! Invariant: `apply(compensate(s))` has, layer by layer, the light shifts of `s`
+//! up to commands below [`PRUNE`] radians (checked by the statevector checker in
+//! tests/crosstalk.rs).
+
+use super::profile::Profile;
+use super::{NativeOp, Sequence, Step, SyncPoint};
+use nalgebra::{DMatrix, DVector};
+
+/// Commands smaller than this (radians) are left out of a compensated layer.
+pub const PRUNE: f64 = 1e-13;
+
+/// Whether the profile has any crosstalk.
+pub fn present(profile: &Profile) -> bool {
+    let c = &profile.crosstalk;
+    c.nearest.is_some_and(|x| x != 0.0)
+        || c.far.is_some_and(|x| x != 0.0)
+        || c.matrix
+            .as_ref()
+            .is_some_and(|m| m.iter().flatten().any(|x| *x != 0.0))
+}
+
+/// `C = I + X` on `n` ions.
+pub fn matrix(profile: &Profile, n: usize) -> DMatrix<f64> {
+    DMatrix::from_fn(
+        n,
+        n,
+        |i, j| {
+            if i == j {
+                1.0
+            } else {
+                profile.crosstalk(i, j)
+            }
+        },
+    )
+}
+
+/// The steps of a light shift of `theta` on `ion` as the machine runs it.
+fn spread(
+    c: &DMatrix<f64>,
+    ion: usize,
+    theta: f64,
+    condition: &Option<Box<super::Condition>>,
+) -> Vec<Step> {
+    (0..c.nrows())
+        .filter(|&i| c[(i, ion)] != 0.0)
+        .map(|i| Step {
+            op: NativeOp::LightShift {
+                ion: i as u32,
+                theta: c[(i, ion)] * theta,
+            },
+            condition: condition.clone(),
+        })
+        .collect()
+}
+
+/// Maps sync points through a rewrite that turned step `k` into the steps
+/// `starts[k]..starts[k + 1]`.
+fn remap(sync: &[SyncPoint], starts: &[usize]) -> Vec<SyncPoint> {
+    sync.iter()
+        .map(|s| SyncPoint {
+            instrs: s.instrs,
+            steps: starts[s.steps],
+        })
+        .collect()
+}
+
+/// The sequence as it runs under crosstalk, and the sync points moved with it.
+/// Each layer of light shifts (they commute) becomes one light shift per ion with
+/// its effective angle `(C theta)_i`; effective angles below [`PRUNE`] radians (what
+/// floating-point cancellation leaves of a compensated layer) are left out, which
+/// moves the unitary by less than `PRUNE / 2` per ion and layer, far below the
+/// checker's rounding floor. A conditioned light shift is spread on its own, with
+/// its condition.
+pub fn apply(seq: &Sequence, profile: &Profile, sync: &[SyncPoint]) -> (Sequence, Vec<SyncPoint>) {
+    let n = seq.n_ions as usize;
+    let c = matrix(profile, n);
+    let mut steps = Vec::with_capacity(seq.steps.len());
+    let mut starts = vec![0usize; seq.steps.len() + 1];
+    let mut next = 0;
+    let copy = |k: usize, steps: &mut Vec<Step>| {
+        let step = &seq.steps[k];
+        match step.op {
+            NativeOp::LightShift { ion, theta } if (ion as usize) < n => {
+                steps.extend(spread(&c, ion as usize, theta, &step.condition))
+            }
+            _ => steps.push(step.clone()),
+        }
+    };
+    for range in layers(seq, sync) {
+        for k in next..range.start {
+            starts[k] = steps.len();
+            copy(k, &mut steps);
+        }
+        for k in range.clone() {
+            starts[k] = steps.len();
+        }
+        let effective = &c * layer_angles(seq, range.clone(), n);
+        let condition = &seq.steps[range.start].condition;
+        for (ion, theta) in effective.iter().enumerate() {
+            if theta.abs() >= PRUNE {
+                steps.push(Step {
+                    op: NativeOp::LightShift {
+                        ion: ion as u32,
+                        theta: *theta,
+                    },
+                    condition: condition.clone(),
+                });
+            }
+        }
+        next = range.end;
+    }
+    for k in next..seq.steps.len() {
+        starts[k] = steps.len();
+        copy(k, &mut steps);
+    }
+    starts[seq.steps.len()] = steps.len();
+    let out = Sequence {
+        steps,
+        ..seq.clone()
+    };
+    (out, remap(sync, &starts))
+}
+
+/// The layers of `seq`: maximal runs of consecutive light shifts under the same
+/// condition (or none) that do not cross a sync point, as step ranges.
+fn layers(seq: &Sequence, sync: &[SyncPoint]) -> Vec<std::ops::Range<usize>> {
+    let cut: std::collections::HashSet<usize> = sync.iter().map(|s| s.steps).collect();
+    let mut out = Vec::new();
+    let mut start: Option<usize> = None;
+    for (k, step) in seq.steps.iter().enumerate() {
+        let shift = matches!(step.op, NativeOp::LightShift { .. });
+        let joins = start.is_some_and(|s| {
+            shift && !cut.contains(&k) && seq.steps[s].condition == step.condition
+        });
+        if !joins {
+            if let Some(s) = start.take() {
+                out.push(s..k);
+            }
+            if shift {
+                start = Some(k);
+            }
+        }
+    }
+    if let Some(s) = start {
+        out.push(s..seq.steps.len());
+    }
+    out
+}
+
+/// The angles a layer commands, per ion.
+fn layer_angles(seq: &Sequence, range: std::ops::Range<usize>, n: usize) -> DVector<f64> {
+    let mut v = DVector::zeros(n);
+    for step in &seq.steps[range] {
+        if let NativeOp::LightShift { ion, theta } = step.op {
+            if (ion as usize) < n {
+                v[ion as usize] += theta;
+            }
+        }
+    }
+    v
+}
+
+/// `1 - prod_i cos^2(r_i / 2)` accumulated over residuals.
+struct Fidelity(f64);
+
+impl Fidelity {
+    fn add(&mut self, r: &DVector<f64>) {
+        for x in r.iter() {
+            self.0 *= (x / 2.0).cos().powi(2);
+        }
+    }
+    fn error(&self) -> f64 {
+        1.0 - self.0
+    }
+}
+
+/// The error crosstalk leaves in `seq` when its light shifts are meant as written.
+pub fn stray_error(seq: &Sequence, profile: &Profile) -> f64 {
+    let n = seq.n_ions as usize;
+    let c = matrix(profile, n);
+    let mut f = Fidelity(1.0);
+    for range in layers(seq, &[]) {
+        let theta = layer_angles(seq, range, n);
+        f.add(&(&c * &theta - &theta));
+    }
+    f.error()
+}
+
+/// The compensated sequence (each layer commanded with `C^-1 theta_target`), its
+/// sync points, and the error its pruned commands leave under crosstalk. Fails when
+/// `C` is singular (a crosstalk of 100% or more).
+pub fn compensate(
+    seq: &Sequence,
+    profile: &Profile,
+    sync: &[SyncPoint],
+) -> Result<(Sequence, Vec<SyncPoint>, f64), String> {
+    let n = seq.n_ions as usize;
+    let c = matrix(profile, n);
+    let lu = c.clone().lu();
+    if !lu.is_invertible() {
+        return Err(
+            "the crosstalk matrix is singular: no light-shift commands can compensate it".into(),
+        );
+    }
+    let mut steps = Vec::with_capacity(seq.steps.len());
+    let mut starts = vec![0usize; seq.steps.len() + 1];
+    let mut f = Fidelity(1.0);
+    let mut next = 0;
+    for range in layers(seq, sync) {
+        for k in next..range.start {
+            starts[k] = steps.len();
+            steps.push(seq.steps[k].clone());
+        }
+        let target = layer_angles(seq, range.clone(), n);
+        let cmd = lu
+            .solve(&target)
+            .ok_or("the crosstalk matrix is singular")?
+            .map(|x| if x.abs() < PRUNE { 0.0 } else { x });
+        f.add(&(&c * &cmd - &target));
+        for k in range.clone() {
+            starts[k] = steps.len();
+        }
+        let condition = &seq.steps[range.start].condition;
+        for (ion, theta) in cmd.iter().enumerate() {
+            if *theta != 0.0 {
+                steps.push(Step {
+                    op: NativeOp::LightShift {
+                        ion: ion as u32,
+                        theta: *theta,
+                    },
+                    condition: condition.clone(),
+                });
+            }
+        }
+        next = range.end;
+    }
+    for k in next..seq.steps.len() {
+        starts[k] = steps.len();
+        steps.push(seq.steps[k].clone());
+    }
+    starts[seq.steps.len()] = steps.len();
+    // A sync point at the start of a layer maps to where that layer's commands begin.
+    let out = Sequence {
+        steps,
+        ..seq.clone()
+    };
+    Ok((out, remap(sync, &starts), f.error()))
+}

@@ -369,10 +369,30 @@ fn run(cli: Cli) -> Result<ExitCode, Failure> {
             memory,
             up_to_final_diagonal,
             crosstalk,
+            locate,
             json,
             limits,
         } => {
             let crosstalk = crosstalk.map(|d| driver::load_profile(&d)).transpose()?;
+            if locate {
+                let defaults = CheckConfig::default();
+                let cfg = CheckConfig {
+                    mode: mode.into(),
+                    trials,
+                    seed,
+                    tolerance,
+                    memory_budget: memory
+                        .map_or(defaults.memory_budget, |m| m.saturating_mul(1 << 20)),
+                    ..defaults
+                };
+                let found = driver::locate(&a, &b, &limits.limits(), &cfg)?;
+                print!("{}", tutti::report::located_text(&found, &a, &b));
+                return Ok(if found.verdict.equivalent {
+                    ExitCode::SUCCESS
+                } else {
+                    ExitCode::from(1)
+                });
+            }
             let limits = limits.limits();
             let progress = Progress::start(&a);
             progress.stage("reading both sides");

@@ -301,6 +301,11 @@ pub(super) enum Command {
         /// Accept a difference by a diagonal on the qubits measured at the end.
         #[arg(long)]
         up_to_final_diagonal: bool,
+        /// Name the first section where the two part: a circuit's barriers and a
+        /// sequence's checkpoints (matched in order) cut both into sections, compared
+        /// one by one; the first that differs is given with its lines on both sides.
+        #[arg(long)]
+        locate: bool,
         /// Take each sequence as it runs under the light-shift crosstalk of this
         /// device profile (`demo` or a TOML file); circuits are taken as they are.
         #[arg(long, value_name = "PROFILE")]

@@ -21,12 +21,14 @@ use crate::sim::{
 use std::path::Path;
 
 mod input;
+mod locate;
 mod output;
 
 pub use input::{
     load, load_program, load_program_under, load_traced, ErrorRecord, Format, LoadFailure, Loaded,
     SourceDigest,
 };
+pub use locate::{locate, Located, Section};
 pub use output::write_output;
 /// Settings of one compilation.
 #[derive(Debug, Clone)]
@@ -317,6 +319,27 @@ pub fn compile_counted(
     })
 }
 
+/// The step before which each barrier of `c` falls, from the sync points (every
+/// compile has one at each barrier: barriers are fences of the optimizer, and the
+/// baseline has one at every instruction). A barrier with no sync point on either
+/// side is left out.
+fn checkpoints_at_barriers(c: &Circuit, sync: &[SyncPoint]) -> Vec<usize> {
+    let at = |instrs: usize| {
+        if instrs == 0 {
+            return Some(0);
+        }
+        sync.binary_search_by_key(&instrs, |s| s.instrs)
+            .ok()
+            .map(|k| sync[k].steps)
+    };
+    c.instrs
+        .iter()
+        .enumerate()
+        .filter(|(_, i)| matches!(i.op, crate::circuit::Op::Barrier { .. }))
+        .filter_map(|(k, _)| at(k).or_else(|| at(k + 1)))
+        .collect()
+}
+
 /// What compensating a sequence's light-shift crosstalk changed: the error the
 /// crosstalk would leave without it, and what it leaves with it (pruned commands).
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -353,7 +376,8 @@ fn compile_stage(
     cfg: &CompileConfig,
     window_qubits: Option<usize>,
 ) -> Result<Stage1, DriverError> {
-    let (sequence, sync, blocks) = compile_one(c, profile, cfg, window_qubits)?;
+    let (mut sequence, sync, blocks) = compile_one(c, profile, cfg, window_qubits)?;
+    sequence.checkpoints = checkpoints_at_barriers(c, &sync);
     if !cfg.compensate_crosstalk {
         return Ok(Stage1 {
             sequence,

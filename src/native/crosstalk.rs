@@ -131,6 +131,7 @@ pub fn apply(seq: &Sequence, profile: &Profile, sync: &[SyncPoint]) -> (Sequence
     starts[seq.steps.len()] = steps.len();
     let out = Sequence {
         steps,
+        checkpoints: seq.checkpoints.iter().map(|&c| starts[c]).collect(),
         ..seq.clone()
     };
     (out, remap(sync, &starts))
@@ -257,6 +258,7 @@ pub fn compensate(
     // A sync point at the start of a layer maps to where that layer's commands begin.
     let out = Sequence {
         steps,
+        checkpoints: seq.checkpoints.iter().map(|&c| starts[c]).collect(),
         ..seq.clone()
     };
     Ok((out, remap(sync, &starts), f.error()))

@@ -152,6 +152,11 @@ pub struct Sequence {
     /// Where the sequence came from, when tutti compiled it. Written into every
     /// format and read back, never part of equivalence (the checker ignores it).
     pub provenance: Option<Provenance>,
+    /// Checkpoints, in order: checkpoint `k` lies before step `checkpoints[k]`
+    /// (non-decreasing; equal to the step count at the end). A compile puts one
+    /// where the circuit has a barrier; `check --locate` compares section by section
+    /// between them. Not part of the unitary.
+    pub checkpoints: Vec<usize>,
 }
 
 /// Where a compiled sequence came from: written as comments in the pulse list and
@@ -228,6 +233,7 @@ impl Sequence {
             cregs,
             steps: Vec::new(),
             provenance: None,
+            checkpoints: Vec::new(),
         }
     }
 

@@ -108,7 +108,11 @@ pub fn write_qasm(seq: &Sequence) -> String {
     }
     let mut hidden = vec![false; n as usize];
     let r = format_real;
-    for step in &seq.steps {
+    let mut checkpoints = seq.checkpoints.iter().peekable();
+    for (k, step) in seq.steps.iter().enumerate() {
+        while checkpoints.next_if(|&&c| c <= k).is_some() {
+            let _ = writeln!(out, "barrier q;");
+        }
         if let Some(c) = &step.condition {
             let _ = write!(out, "if({}=={}) ", seq.cregs[c.creg as usize].name, c.value);
         }
@@ -165,6 +169,9 @@ pub fn write_qasm(seq: &Sequence) -> String {
             NativeOp::Reset { ion } => writeln!(out, "reset q[{ion}];"),
         };
     }
+    for _ in checkpoints {
+        let _ = writeln!(out, "barrier q;");
+    }
     if let Some(p) = &seq.provenance {
         for (key, value) in p.fields() {
             let _ = writeln!(
@@ -212,7 +219,7 @@ pub fn read_qasm_sequence(text: &str) -> Option<Sequence> {
                 }
             }
             Stmt::Qreg { size, .. } if n_ions.is_none() => n_ions = Some(size.0),
-            Stmt::Qreg { .. } | Stmt::Barrier { .. } => return None,
+            Stmt::Qreg { .. } => return None,
             _ => {}
         }
     }
@@ -272,7 +279,16 @@ pub fn read_qasm_sequence(text: &str) -> Option<Sequence> {
                     }),
                 )
             }
-            Stmt::Barrier { .. } => return None,
+            // A barrier on the whole register is a checkpoint; any other is an edit.
+            Stmt::Barrier { args, .. } => {
+                let whole =
+                    matches!(args.as_slice(), [a] if a.reg.name == "q" && a.index.is_none());
+                if !whole {
+                    return None;
+                }
+                seq.checkpoints.push(seq.steps.len());
+                continue;
+            }
         };
         let ion = |a: &Arg| -> Option<u32> {
             let i = a.index?.0;

@@ -6,8 +6,9 @@
 //! pulses (collective rotations, MS pulses) are bars across every lane of an ion
 //! that takes part; MS pulses carry their area in units of pi/2; single-ion
 //! operations sit on their lane; a hidden ion's lane is hatched from its hiding to
-//! its return; frame changes are thin dashed rules. A legend names each mark by the
-//! operation names of the formats.
+//! its return; frame changes are thin dashed rules; checkpoints are numbered green
+//! dashed rules across all lanes. A legend names each mark by the operation names of
+//! the formats.
 //!
 //! A range (`from_us`, `to_us`) zooms in. When the range holds more operations than
 //! can be drawn one by one ([`DrawOptions::max_marks`]), the picture aggregates:
@@ -286,6 +287,23 @@ pub fn timeline_svg(
         draw_aggregated(&mut out, seq, &slots, t0, t1, plot_w, lane, &x_of, &y_of);
     } else {
         draw_marks(&mut out, seq, &slots, t0, t1, lane, &x_of, &y_of);
+    }
+    // Checkpoints: a rule across every lane, numbered from 1.
+    for (k, &pos) in seq.checkpoints.iter().enumerate() {
+        let t = slots.get(pos).map_or(end, |s| s.start_us);
+        if t < t0 || t > t1 {
+            continue;
+        }
+        let x = x_of(t);
+        let _ = writeln!(
+            out,
+            r##"<line class="checkpoint" x1="{x:.1}" y1="{:.1}" x2="{x:.1}" y2="{:.1}" stroke="#0B8A74" stroke-width="1.5" stroke-dasharray="6,3"/><text x="{:.1}" y="{:.1}" fill="#0B8A74">{}</text>"##,
+            TOP - 12.0,
+            TOP + lane * n as f64,
+            x + 2.0,
+            TOP - 3.0,
+            k + 1
+        );
     }
     // Time axis.
     let axis_y = TOP + lane * n as f64 + 4.0;

@@ -118,6 +118,9 @@ pub(super) struct JsonSequence {
     #[serde(default)]
     bits: Vec<JsonBits>,
     program: Vec<JsonStep>,
+    /// Checkpoint `k` lies before step `checkpoints[k]` (0-based).
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    checkpoints: Vec<usize>,
 }
 
 /// The version of the JSON shape this tutti writes and reads.
@@ -128,6 +131,7 @@ pub fn write_json(seq: &Sequence) -> String {
     let j = JsonSequence {
         tutti_sequence: JSON_VERSION,
         provenance: seq.provenance.clone(),
+        checkpoints: seq.checkpoints.clone(),
         ions: seq.n_ions,
         bits: seq
             .cregs
@@ -188,6 +192,21 @@ pub fn read_json(name: &str, text: &str) -> SeqOutcome {
     }
     let mut seq = Sequence::new(j.ions, vec![]);
     seq.provenance = j.provenance;
+    if j.checkpoints.windows(2).any(|w| w[0] > w[1])
+        || j.checkpoints.last().is_some_and(|&c| c > j.program.len())
+    {
+        return fail(
+            sources,
+            0,
+            format!(
+                "the checkpoints {:?} are not in order within the {} steps",
+                j.checkpoints,
+                j.program.len()
+            ),
+            "checkpoint k lies before step checkpoints[k]: non-decreasing, at most the step count",
+        );
+    }
+    seq.checkpoints = j.checkpoints;
     for r in j.bits {
         let offset = seq.n_clbits();
         seq.cregs.push(Register {

@@ -95,7 +95,11 @@ pub fn write_pulses(seq: &Sequence) -> String {
     for r in &seq.cregs {
         let _ = writeln!(out, "creg {}[{}]", r.name, r.size);
     }
-    for step in &seq.steps {
+    let mut checkpoints = seq.checkpoints.iter().peekable();
+    for (k, step) in seq.steps.iter().enumerate() {
+        while checkpoints.next_if(|&&c| c <= k).is_some() {
+            let _ = writeln!(out, "{CHECKPOINT}");
+        }
         if let Some(c) = &step.condition {
             out.push_str(&condition_text(seq, c));
         }
@@ -128,6 +132,9 @@ pub fn write_pulses(seq: &Sequence) -> String {
             NativeOp::Reset { ion } => format!("{} {ion}", step.op.name()),
         };
         let _ = writeln!(out, "{line}");
+    }
+    for _ in checkpoints {
+        let _ = writeln!(out, "{CHECKPOINT}");
     }
     out
 }
@@ -197,7 +204,14 @@ pub fn read_pulses(name: &str, text: &str) -> SeqOutcome {
 
 type LineError = (String, &'static str);
 
+/// The line of a pulse list that marks a checkpoint (numbered by its order).
+pub const CHECKPOINT: &str = "checkpoint";
+
 fn parse_line(content: &str, seq: &mut Sequence, have_ions: &mut bool) -> Result<(), LineError> {
+    if content == CHECKPOINT {
+        seq.checkpoints.push(seq.steps.len());
+        return Ok(());
+    }
     let mut words: Vec<&str> = content.split_whitespace().collect();
     let mut condition = None;
     if words[0] == "if" {

@@ -44,6 +44,8 @@ pub struct WindowVerdict {
     pub compared_qubits: usize,
     /// The first window that differs, when one does.
     pub detail: String,
+    /// Its index (0-based), when one does.
+    pub first_difference: Option<usize>,
 }
 
 /// Sync points at every instruction boundary, from `origin[k]`, the instruction
@@ -241,9 +243,10 @@ pub fn check_windows_counted(
         fidelity: 1.0,
         compared_qubits: 0,
         detail: String::new(),
+        first_difference: None,
     };
     let mut worst_ratio = -1.0;
-    for r in outcomes {
+    for (w, r) in outcomes.into_iter().enumerate() {
         let o = r?;
         if o.mode.rank() >= out.mode.rank() {
             out.mode = o.mode;
@@ -255,6 +258,7 @@ pub fn check_windows_counted(
         }
         if !o.equivalent {
             out.equivalent = false;
+            out.first_difference = Some(w);
             out.distance = o.distance;
             out.tolerance = o.tolerance;
             out.detail = o.detail;

@@ -1,0 +1,206 @@
+//! Checkpoints and `check --locate`: compiled outputs carry a checkpoint where the
+//! circuit has a barrier, in every format; a single wrong pulse in a hand-edited
+//! sequence on the 40-ion demo device, on an active or a spare ion, is located to
+//! the section that holds it, with lines on both sides.
+
+use std::path::{Path, PathBuf};
+use std::process::{Command, Output};
+
+fn tutti(args: &[&str]) -> Output {
+    Command::new(env!("CARGO_BIN_EXE_tutti"))
+        .args(args)
+        .output()
+        .expect("the binary runs")
+}
+
+fn text(b: &[u8]) -> String {
+    String::from_utf8_lossy(b).into_owned()
+}
+
+/// Three sections: a Bell pair, a rotation and a CNOT, a Hadamard; the second
+/// barrier names only part of the register (still a checkpoint).
+const CIRCUIT: &str = "OPENQASM 2.0;
+include \"qelib1.inc\";
+qreg q[3];
+h q[0];
+cx q[0],q[1];
+barrier q;
+rz(0.3) q[1];
+cx q[1],q[2];
+barrier q[0],q[1];
+h q[2];
+";
+
+fn setup(dir: &Path, format: &str) -> (PathBuf, PathBuf) {
+    let c = dir.join("three.qasm");
+    std::fs::write(&c, CIRCUIT).unwrap();
+    let out = dir.join(format!("three-out.{format}"));
+    let o = tutti(&["compile", c.to_str().unwrap(), "-o", out.to_str().unwrap()]);
+    assert_eq!(o.status.code(), Some(0), "{}", text(&o.stderr));
+    (c, out)
+}
+
+#[test]
+fn compiled_outputs_carry_the_barriers_as_checkpoints_in_every_format() {
+    let tmp = tempfile::tempdir().unwrap();
+    let mut seen = Vec::new();
+    for format in ["pulses", "json", "qasm"] {
+        let (c, out) = setup(tmp.path(), format);
+        let (loaded, _) = tutti::driver::load(&out, &Default::default()).unwrap();
+        let tutti::driver::Loaded::Sequence(seq) = loaded else {
+            panic!("{format}: read back as a circuit")
+        };
+        assert_eq!(seq.checkpoints.len(), 2, "{format}");
+        assert!(seq.checkpoints[0] < seq.checkpoints[1]);
+        seen.push(seq.checkpoints.clone());
+        let o = tutti(&[
+            "check",
+            c.to_str().unwrap(),
+            out.to_str().unwrap(),
+            "--locate",
+        ]);
+        assert_eq!(o.status.code(), Some(0), "{format}: {}", text(&o.stdout));
+        assert!(text(&o.stdout).contains("EQUIVALENT section by section (3 sections"));
+    }
+    // The same positions whatever the format.
+    assert!(seen.windows(2).all(|w| w[0] == w[1]), "{seen:?}");
+    // The baseline's output carries them too.
+    let c = tmp.path().join("three.qasm");
+    let b = tmp.path().join("base.pulses");
+    let o = tutti(&[
+        "compile",
+        c.to_str().unwrap(),
+        "--baseline",
+        "-o",
+        b.to_str().unwrap(),
+    ]);
+    assert_eq!(o.status.code(), Some(0));
+    let o = tutti(&[
+        "check",
+        c.to_str().unwrap(),
+        b.to_str().unwrap(),
+        "--locate",
+    ]);
+    assert_eq!(o.status.code(), Some(0), "{}", text(&o.stdout));
+}
+
+/// Rewrites the pulse list `lines` by `edit`, checks it against the circuit with
+/// `--locate`, and returns the section named and the report.
+fn located(dir: &Path, circuit: &Path, lines: &[String]) -> (Option<usize>, String) {
+    let f = dir.join("edited.pulses");
+    std::fs::write(&f, lines.join("\n")).unwrap();
+    let o = tutti(&[
+        "check",
+        circuit.to_str().unwrap(),
+        f.to_str().unwrap(),
+        "--locate",
+    ]);
+    let out = text(&o.stdout);
+    assert_eq!(
+        o.status.code(),
+        Some(1),
+        "not caught: {out}{}",
+        text(&o.stderr)
+    );
+    let section = out
+        .lines()
+        .next()
+        .and_then(|l| l.strip_prefix("NOT EQUIVALENT: they part in section "))
+        .and_then(|k| k.trim().parse().ok());
+    (section, out)
+}
+
+#[test]
+fn a_single_wrong_pulse_is_located_to_its_section_on_active_and_spare_ions() {
+    let tmp = tempfile::tempdir().unwrap();
+    let (c, out) = setup(tmp.path(), "pulses");
+    let lines: Vec<String> = std::fs::read_to_string(&out)
+        .unwrap()
+        .lines()
+        .map(str::to_string)
+        .collect();
+    let cps: Vec<usize> = (0..lines.len())
+        .filter(|&i| lines[i] == "checkpoint")
+        .collect();
+    assert_eq!(cps.len(), 2);
+    let section_of = |i: usize| cps.iter().filter(|&&c| c < i).count();
+    let find = |from: usize, to: usize, pred: &dyn Fn(&str) -> bool| {
+        (from..to)
+            .find(|&i| pred(&lines[i]))
+            .expect("a line to edit")
+    };
+    let mut cases: Vec<(&str, Vec<String>, usize)> = Vec::new();
+    // A wrong angle on an active ion, in section 0.
+    let i = find(0, cps[0], &|l| l.starts_with("light_shift 0 "));
+    let mut m = lines.clone();
+    m[i] = "light_shift 0 0.123".into();
+    cases.push(("wrong angle, active ion", m, section_of(i)));
+    // A light shift moved from an active ion to a spare one, in section 1.
+    let i = find(cps[0], cps[1], &|l| l.starts_with("light_shift 1 "));
+    let mut m = lines.clone();
+    m[i] = m[i].replace("light_shift 1 ", "light_shift 20 ");
+    cases.push(("wrong ion, to a spare ion", m, section_of(i)));
+    // A missing echo flip, in section 1.
+    let i = find(cps[0], cps[1], &|l| {
+        l.starts_with("light_shift") && l.ends_with(" pi")
+    });
+    let mut m = lines.clone();
+    m.remove(i);
+    cases.push(("missing flip", m, section_of(i)));
+    // An extra flip on a spare ion, in section 2.
+    let i = cps[1] + 3;
+    let mut m = lines.clone();
+    m.insert(i, "light_shift 25 pi".into());
+    cases.push(("extra flip, spare ion", m, 2));
+    // A wrong phase of a collective rotation, in section 2.
+    let i = find(cps[1], lines.len(), &|l| l.starts_with("chain_rotate"));
+    let mut m = lines.clone();
+    let mut words: Vec<String> = m[i].split_whitespace().map(str::to_string).collect();
+    words[2] = "0.2".into();
+    m[i] = words.join(" ");
+    cases.push(("wrong phase", m, section_of(i)));
+    for (what, m, want) in cases {
+        let (section, report) = located(tmp.path(), &c, &m);
+        assert_eq!(section, Some(want), "{what}: {report}");
+        // Lines on both sides: the circuit's section and the pulse list's.
+        assert!(report.contains("three.qasm: lines"), "{what}: {report}");
+        assert!(report.contains("edited.pulses: lines"), "{what}: {report}");
+    }
+}
+
+#[test]
+fn checkpoint_counts_must_match_and_two_circuits_are_not_located() {
+    let tmp = tempfile::tempdir().unwrap();
+    let (c, out) = setup(tmp.path(), "pulses");
+    let text_of = std::fs::read_to_string(&out).unwrap();
+    let fewer = tmp.path().join("fewer.pulses");
+    std::fs::write(&fewer, text_of.replacen("checkpoint\n", "", 1)).unwrap();
+    let o = tutti(&[
+        "check",
+        c.to_str().unwrap(),
+        fewer.to_str().unwrap(),
+        "--locate",
+    ]);
+    assert_eq!(o.status.code(), Some(2));
+    assert!(text(&o.stderr).contains("2 barrier(s) and the sequence 1 checkpoint(s)"));
+    let o = tutti(&[
+        "check",
+        c.to_str().unwrap(),
+        c.to_str().unwrap(),
+        "--locate",
+    ]);
+    assert_eq!(o.status.code(), Some(2));
+    // Without --locate the same files compare whole (checkpoints are not part of
+    // the unitary).
+    let o = tutti(&["check", c.to_str().unwrap(), fewer.to_str().unwrap()]);
+    assert_eq!(o.status.code(), Some(0), "{}", text(&o.stdout));
+}
+
+#[test]
+fn draw_marks_the_checkpoints() {
+    let tmp = tempfile::tempdir().unwrap();
+    let (_, out) = setup(tmp.path(), "json");
+    let o = tutti(&["draw", out.to_str().unwrap()]);
+    assert_eq!(o.status.code(), Some(0));
+    assert_eq!(text(&o.stdout).matches("class=\"checkpoint\"").count(), 2);
+}

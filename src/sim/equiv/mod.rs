@@ -21,6 +21,7 @@ mod frame;
 mod modes;
 mod prepass;
 mod windowed;
+mod witness;
 
 pub use modes::{derived_tolerance, random_tolerance, ROUNDING_PER_TOUCH, TOLERANCE_FLOOR};
 pub use windowed::{
@@ -42,6 +43,10 @@ pub enum Mode {
     Unitary,
     Random,
     Tableau,
+    /// Not chosen: what a verdict reports when a difference was proven by an exact
+    /// bound without simulating (module `witness`: a qubit one program leaves alone
+    /// and the other leaves coupled).
+    Bound,
 }
 
 impl Mode {
@@ -51,6 +56,7 @@ impl Mode {
             Mode::Unitary => "unitary",
             Mode::Random => "random",
             Mode::Tableau => "tableau",
+            Mode::Bound => "bound",
         }
     }
 
@@ -59,6 +65,7 @@ impl Mode {
             Mode::Auto | Mode::Tableau => 0,
             Mode::Unitary => 1,
             Mode::Random => 2,
+            Mode::Bound => 3,
         }
     }
 }

@@ -109,6 +109,7 @@ pub(super) fn compare(
             })
         }
     };
+    let (original_p, original_q, original_n) = (p, q, n);
     let (p, q, n, slack) = (
         prepared.p.as_slice(),
         prepared.q.as_slice(),
@@ -124,6 +125,37 @@ pub(super) fn compare(
                     "qubit {qubit} is coupled by one program only (stray coupling of total weight {weight:.3e}); distance {distance:.3e} is above the tolerance {tolerance:.3e}"
                 )
             })
+    };
+    // Where the comparison would be refused (too large, too slow, not Clifford), an
+    // exact proof of difference may still be at hand (module `witness`). Not with a
+    // final diagonal allowed: a coupling is diagonal.
+    let or_witness = |refusal: CheckError| -> Result<SegResult, CheckError> {
+        if diagonal.is_some() {
+            return Err(refusal);
+        }
+        // On the programs as given (the pre-passes renumber qubits), each in the
+        // interaction picture where that applies, its slack counted.
+        let framed = |ks: &[Kernel]| {
+            super::frame::interaction_picture(ks, original_n).unwrap_or_else(|| (ks.to_vec(), 0.0))
+        };
+        let ((fp, sp), (fq, sq)) = (framed(original_p), framed(original_q));
+        let slack = sp + sq;
+        match super::witness::coupled_idle_qubit(&fp, &fq, original_n, tolerance + slack) {
+            Some(w) => Ok(SegResult {
+                compared: original_n,
+                equal: false,
+                mode: Mode::Bound,
+                distance: Some(w.bound - slack),
+                tolerance,
+                fidelity: 0.0,
+                phase: None,
+                reason: Some(format!(
+                    "qubit {} is left coupled to qubit {} by the {} program only (net Z-Z angle {:.9} rad, not a multiple of pi/2), so the programs differ by at least {:.3e} in operator norm: an exact bound, without simulating (the full comparison was refused: {refusal})",
+                    w.qubit, w.partner, w.side, w.weight, w.bound - slack
+                )),
+            }),
+            None => Err(refusal),
+        }
     };
     let want_tableau = matches!(cfg.mode, Mode::Auto | Mode::Tableau) && diagonal.is_none();
     if want_tableau {
@@ -155,13 +187,13 @@ pub(super) fn compare(
                     });
                 }
                 if cfg.mode == Mode::Tableau {
-                    return Err(CheckError::NotClifford(format!(
+                    return or_witness(CheckError::NotClifford(format!(
                         "its operations are Clifford only within {bound:.3e}, more than the tolerance {tolerance:.3e}"
                     )));
                 }
             }
             (Err(k), _) | (_, Err(k)) if cfg.mode == Mode::Tableau => {
-                return Err(CheckError::NotClifford(format!(
+                return or_witness(CheckError::NotClifford(format!(
                     "{k} is not a Clifford operation (within {CLIFFORD_EPS:e} per coefficient)"
                 )));
             }
@@ -185,7 +217,7 @@ pub(super) fn compare(
         state_bytes(n).saturating_mul(2)
     };
     if needed > cfg.memory_budget || n >= 48 || (use_unitary && n >= 24) {
-        return Err(too_large(n, needed, cfg.memory_budget));
+        return or_witness(too_large(n, needed, cfg.memory_budget));
     }
     let operations = p.len() + q.len();
     let work = if use_unitary {
@@ -194,7 +226,7 @@ pub(super) fn compare(
         operations as f64 * 2f64.powi(n as i32) * cfg.trials.max(1) as f64
     };
     if work > cfg.max_work {
-        return Err(CheckError::TooSlow {
+        return or_witness(CheckError::TooSlow {
             qubits: n,
             operations,
             work,

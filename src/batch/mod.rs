@@ -18,8 +18,9 @@
 //! at any point leaves finished jobs whole and nothing half-written.
 //!
 //! Threads: jobs run on `jobs` threads of their own, which wait for memory when the
-//! budget is in use; the parallel kernels of the checker run on rayon's global pool
-//! (the command line sizes it to `jobs`). Each file is read on its job's thread.
+//! budget is in use; the parallel kernels of the checker and the front end's reading
+//! ahead of large files run as tasks of rayon's global pool (the command line sizes
+//! it to `jobs`), the one pool of the run.
 
 mod discover;
 mod records;
@@ -447,10 +448,9 @@ fn job_body(
     sources: &mut Vec<SourceDigest>,
     output: &mut Option<String>,
 ) -> Result<(), summary::Failure> {
-    let limits = Limits {
-        max_threads: 1,
-        ..cfg.limits
-    };
+    // A large file is read ahead in chunks as tasks of the same rayon pool as
+    // everything else (its size is the number of jobs): no threads of its own.
+    let limits = cfg.limits;
     let started = Instant::now();
     let (loaded, _warnings, digests) =
         driver::load_traced(&input.path, &limits).map_err(summary::Failure::from_load)?;

@@ -2,8 +2,11 @@
 //!
 //! The file is cut into chunks at line ends that follow a `;`. The first thread reads
 //! the start of the file (where registers and gates are declared in practice), then
-//! each other thread reads one chunk ahead with a copy of the names in scope, while
-//! the first thread goes on with chunk 0.
+//! the other chunks are read ahead, as tasks of rayon's pool (the one pool every
+//! parallel part of tutti shares), each with a copy of the names in scope, while the
+//! first thread goes on with chunk 0. A chunk whose task has not started when the
+//! first thread reaches it is read ahead by that thread itself, in the same way, so
+//! which chunks are used does not depend on how the pool schedules the tasks.
 //!
 //! Invariant: the outcome never depends on the cut. A chunk read ahead is used only
 //! when reading on serially would have given exactly the same: the serial reader
@@ -36,7 +39,7 @@ impl<'l> Elaborator<'l> {
     /// How many chunks a file of `len` bytes is read in.
     pub(super) fn n_chunks(&self, len: usize) -> usize {
         let threads = match self.limits.max_threads {
-            0 => std::thread::available_parallelism().map_or(1, |n| n.get()),
+            0 => rayon::current_num_threads(),
             n => n,
         };
         threads.min(len / self.limits.min_chunk_bytes.max(1)).max(1)
@@ -123,32 +126,44 @@ impl<'l> Elaborator<'l> {
             }
         }
         let cancel = AtomicBool::new(false);
-        std::thread::scope(|scope| {
-            let mut handles = Vec::new();
-            for (i, r) in aheads.into_iter().enumerate() {
+        let slots: Vec<Slot<'a, 'l>> = aheads
+            .into_iter()
+            .enumerate()
+            .map(|(i, r)| {
                 let stop = firsts.get(i + 1).copied().unwrap_or(u32::MAX);
                 let len = stop.min(text.len() as u32) - firsts[i];
-                let worker = self.fork(len as usize / 16);
+                Slot::new(Work {
+                    worker: self.fork(len as usize / 16),
+                    reader: r,
+                    stop,
+                })
+            })
+            .collect();
+        // The chunks are read ahead as tasks of rayon's pool, the one every parallel
+        // part of tutti shares. When the serial reader reaches a chunk whose task has
+        // not started, it reads that chunk ahead itself, the same way; it waits only
+        // for a task that is running on another thread. So the outcome, and which
+        // chunks are used, do not depend on the scheduling.
+        rayon::in_place_scope(|scope| {
+            for slot in &slots {
                 let cancel = &cancel;
-                handles.push(scope.spawn(move || worker.read_ahead(r, stop, cancel)));
+                scope.spawn(move |_| slot.run_task(cancel));
             }
-            let mut unused = Vec::new();
-            let mut handles = handles.into_iter();
-            for (handle, &first) in handles.by_ref().zip(&firsts) {
+            for (i, &first) in firsts.iter().enumerate() {
                 let fill = self.run(reading, first, sources, None);
                 if self.stopped || fill == Fill::End {
-                    unused.push(handle);
                     break;
                 }
                 let usable = reading.reader.next_start() == first
                     && reading.reader.last_ok()
                     && self.scope_changes == snapshot;
                 if !usable {
-                    unused.push(handle);
+                    slots[i].claim();
                     continue;
                 }
-                // A reader that panicked (a bug) only costs its chunk being reread.
-                let Ok(ahead) = handle.join() else { continue };
+                let Some(ahead) = slots[i].result(&cancel) else {
+                    continue;
+                };
                 let fits = self.circuit.instrs.len() + ahead.instrs.len() <= self.limits.max_ops
                     && self.circuit.instrs.try_reserve(ahead.instrs.len()).is_ok();
                 // A chunk that does not fit in memory is reread, where the one-thread
@@ -161,11 +176,103 @@ impl<'l> Elaborator<'l> {
             }
             // Chunks not used by now are of no use any more.
             cancel.store(true, Ordering::Relaxed);
-            for handle in unused.into_iter().chain(handles) {
-                // Its outcome is not needed; a panic there only cost the work ahead.
-                let _ = handle.join();
+            for slot in &slots {
+                slot.claim();
             }
         });
+    }
+}
+
+/// What reading a chunk ahead needs: an elaborator with the names in scope, the
+/// reader at the chunk's start, and where the chunk ends.
+struct Work<'a, 'l> {
+    worker: Elaborator<'l>,
+    reader: StmtReader<'a>,
+    stop: u32,
+}
+
+impl<'a> Work<'a, '_> {
+    /// Reads the chunk; a reader that panics (a bug) gives nothing, and the chunk
+    /// is then reread serially.
+    fn run(self, cancel: &AtomicBool) -> Option<Ahead<'a>> {
+        std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| {
+            self.worker.read_ahead(self.reader, self.stop, cancel)
+        }))
+        .ok()
+    }
+}
+
+/// A chunk's place between its task and the serial reader.
+struct Slot<'a, 'l> {
+    state: std::sync::Mutex<SlotState<'a, 'l>>,
+    done: std::sync::Condvar,
+}
+
+enum SlotState<'a, 'l> {
+    /// Not started: whoever comes first (the task or the reader) reads it.
+    Pending(Box<Work<'a, 'l>>),
+    Running,
+    /// Finished (`None`: the reading panicked).
+    Done(Option<Ahead<'a>>),
+    /// Taken or given up: nothing more to do.
+    Claimed,
+}
+
+impl<'a, 'l> Slot<'a, 'l> {
+    fn new(work: Work<'a, 'l>) -> Self {
+        Slot {
+            state: std::sync::Mutex::new(SlotState::Pending(Box::new(work))),
+            done: std::sync::Condvar::new(),
+        }
+    }
+
+    fn lock(&self) -> std::sync::MutexGuard<'_, SlotState<'a, 'l>> {
+        self.state.lock().unwrap_or_else(|e| e.into_inner())
+    }
+
+    /// The task: reads the chunk unless the reader has taken or given it up.
+    fn run_task(&self, cancel: &AtomicBool) {
+        let work = {
+            let mut s = self.lock();
+            match std::mem::replace(&mut *s, SlotState::Running) {
+                SlotState::Pending(work) => work,
+                other => {
+                    *s = other;
+                    return;
+                }
+            }
+        };
+        let ahead = work.run(cancel);
+        *self.lock() = SlotState::Done(ahead);
+        self.done.notify_all();
+    }
+
+    /// The reader: the chunk read ahead, by its task (waiting while that runs) or,
+    /// when the task has not started, by the reader itself now.
+    fn result(&self, cancel: &AtomicBool) -> Option<Ahead<'a>> {
+        let mut s = self.lock();
+        loop {
+            match std::mem::replace(&mut *s, SlotState::Claimed) {
+                SlotState::Pending(work) => {
+                    drop(s);
+                    return work.run(cancel);
+                }
+                SlotState::Done(ahead) => return ahead,
+                SlotState::Claimed => return None,
+                SlotState::Running => {
+                    *s = SlotState::Running;
+                    s = self.done.wait(s).unwrap_or_else(|e| e.into_inner());
+                }
+            }
+        }
+    }
+
+    /// Gives up a chunk that has not started.
+    fn claim(&self) {
+        let mut s = self.lock();
+        if matches!(*s, SlotState::Pending(_)) {
+            *s = SlotState::Claimed;
+        }
     }
 }
 

@@ -213,7 +213,7 @@ enum SlotState<'a, 'l> {
     Pending(Box<Work<'a, 'l>>),
     Running,
     /// Finished (`None`: the reading panicked).
-    Done(Option<Ahead<'a>>),
+    Done(Option<Box<Ahead<'a>>>),
     /// Taken or given up: nothing more to do.
     Claimed,
 }
@@ -243,7 +243,7 @@ impl<'a, 'l> Slot<'a, 'l> {
             }
         };
         let ahead = work.run(cancel);
-        *self.lock() = SlotState::Done(ahead);
+        *self.lock() = SlotState::Done(ahead.map(Box::new));
         self.done.notify_all();
     }
 
@@ -257,7 +257,7 @@ impl<'a, 'l> Slot<'a, 'l> {
                     drop(s);
                     return work.run(cancel);
                 }
-                SlotState::Done(ahead) => return ahead,
+                SlotState::Done(ahead) => return ahead.map(|a| *a),
                 SlotState::Claimed => return None,
                 SlotState::Running => {
                     *s = SlotState::Running;

@@ -386,7 +386,7 @@ fn run(cli: Cli) -> Result<ExitCode, Failure> {
                     ..defaults
                 };
                 let found = driver::locate(&a, &b, &limits.limits(), &cfg)?;
-                print!("{}", tutti::report::located_text(&found, &a, &b));
+                print!("{}", driver::located_text(&found, &a, &b));
                 return Ok(if found.verdict.equivalent {
                     ExitCode::SUCCESS
                 } else {

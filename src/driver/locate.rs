@@ -6,6 +6,7 @@
 //! the first that differs is named with its lines on both sides.
 
 use super::*;
+use std::fmt::Write as _;
 
 /// Where two programs part, or that they do not.
 #[derive(Debug, Clone, PartialEq)]
@@ -147,4 +148,53 @@ pub fn locate(a: &Path, b: &Path, limits: &Limits, cfg: &CheckConfig) -> Result<
         verdict,
         section,
     })
+}
+
+/// What `check --locate` prints: equal section by section, or the first section
+/// that differs, with its lines in each file and what differs.
+pub fn located_text(
+    l: &crate::driver::Located,
+    a: &std::path::Path,
+    b: &std::path::Path,
+) -> String {
+    let mut out = String::new();
+    let v = &l.verdict;
+    if v.equivalent {
+        let _ = writeln!(
+            out,
+            "EQUIVALENT section by section ({} sections between checkpoints, mode {}, worst distance {})",
+            l.sections,
+            v.mode.name(),
+            fmt_distance(v.distance)
+        );
+        return out;
+    }
+    let _ = writeln!(
+        out,
+        "NOT EQUIVALENT: they part in section {}",
+        l.section.map_or(0, |s| s.index)
+    );
+    if let Some(Section {
+        index: k,
+        first: la,
+        second: lb,
+    }) = &l.section
+    {
+        let place = |p: &std::path::Path, lines: &Option<(usize, usize)>| match lines {
+            Some((x, y)) => format!("{}: lines {x} to {y}", p.display()),
+            None => format!("{}: between checkpoints {k} and {}", p.display(), k + 1),
+        };
+        let what = if *k == 0 {
+            "before the first checkpoint".to_string()
+        } else if *k + 1 == l.sections {
+            format!("after checkpoint {k} (the last)")
+        } else {
+            format!("between checkpoints {k} and {}", k + 1)
+        };
+        let _ = writeln!(out, "  section      {k}: {what}");
+        let _ = writeln!(out, "  first        {}", place(a, la));
+        let _ = writeln!(out, "  second       {}", place(b, lb));
+    }
+    let _ = writeln!(out, "  detail       {}", v.detail);
+    out
 }

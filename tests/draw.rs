@@ -210,3 +210,40 @@ fn the_timeline_ends_where_the_budget_says() {
         }
     }
 }
+
+/// Hostile sizes: a width out of range is a usage error; the widest picture of the
+/// longest chain the formats allow, aggregated, stays within bounded memory.
+#[test]
+fn hostile_sizes_are_refused_or_bounded() {
+    let tmp = tempfile::tempdir().unwrap();
+    let seq = tmp.path().join("hand.pulses");
+    std::fs::write(&seq, HAND).unwrap();
+    for w in ["0", "299", "20001", "4000000000"] {
+        let o = tutti(&["draw", seq.to_str().unwrap(), "--width", w]);
+        assert_eq!(o.status.code(), Some(2), "--width {w}");
+    }
+    use tutti::native::{NativeOp, Sequence};
+    let mut long = Sequence::new(4096, vec![]);
+    for k in 0..3500u32 {
+        long.push(NativeOp::LightShift {
+            ion: k % 4096,
+            theta: 0.1,
+        });
+        long.push(NativeOp::Collective {
+            theta: 0.2,
+            phi: 0.0,
+        });
+    }
+    let profile = tutti::native::profile::Profile::demo();
+    let opts = tutti::report::draw::DrawOptions {
+        width: u32::MAX,
+        ..Default::default()
+    };
+    let svg = tutti::report::draw::timeline_svg(&long, &profile, &opts).unwrap();
+    assert!(svg.contains("aggregated"));
+    assert_eq!(svg.matches("class=\"lane\"").count(), 4096);
+    assert!(
+        svg.contains("width=\"20000\""),
+        "the width is held to the maximum"
+    );
+}

@@ -352,8 +352,10 @@ pub fn run(cfg: &BatchConfig, on_event: &(dyn Fn(Event) + Sync)) -> Result<Batch
     let results: Mutex<Vec<(usize, Row)>> = Mutex::new(Vec::new());
     let fatal: Mutex<Option<String>> = Mutex::new(None);
     std::thread::scope(|scope| {
-        for _ in 0..cfg.jobs.max(1).min(todo.len().max(1)) {
-            scope.spawn(|| loop {
+        for k in 0..cfg.jobs.max(1).min(todo.len().max(1)) {
+            // A thread the system will not give is one job slot fewer, not a crash
+            // (the first one is required).
+            let spawned = std::thread::Builder::new().spawn_scoped(scope, || loop {
                 let i = next.fetch_add(1, Ordering::Relaxed);
                 let Some(&(slot, input, s)) = todo.get(i) else {
                     break;
@@ -378,6 +380,14 @@ pub fn run(cfg: &BatchConfig, on_event: &(dyn Fn(Event) + Sync)) -> Result<Batch
                     r.push((slot, row));
                 }
             });
+            if let Err(e) = spawned {
+                if k == 0 {
+                    if let Ok(mut f) = fatal.lock() {
+                        f.get_or_insert(format!("cannot start a job thread: {e}"));
+                    }
+                }
+                break;
+            }
         }
     });
     if let Some(e) = fatal.into_inner().unwrap_or_else(|e| e.into_inner()) {

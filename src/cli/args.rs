@@ -254,8 +254,9 @@ pub(super) enum Command {
         /// End of the range shown, in microseconds.
         #[arg(long, value_name = "US")]
         to: Option<f64>,
-        /// Width of the picture in pixels.
-        #[arg(long, default_value_t = 1200)]
+        /// Width of the picture in pixels (300 to 20000).
+        #[arg(long, default_value_t = 1200,
+              value_parser = clap::value_parser!(u32).range(300..=20_000))]
         width: u32,
         /// Replace OUT if it exists.
         #[arg(long)]

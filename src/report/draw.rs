@@ -29,7 +29,7 @@ pub struct DrawOptions {
     pub from_us: Option<f64>,
     /// End of the range shown (default: the end of the sequence).
     pub to_us: Option<f64>,
-    /// Width of the picture in pixels.
+    /// Width of the picture in pixels (held to [`MIN_WIDTH`, `MAX_WIDTH`]).
     pub width: u32,
     /// Most operations drawn one by one; above it the range is aggregated.
     pub max_marks: usize,
@@ -109,6 +109,14 @@ impl Kind {
     }
 }
 
+/// The narrowest and widest pictures drawn.
+pub const MIN_WIDTH: u32 = 300;
+pub const MAX_WIDTH: u32 = 20_000;
+
+/// Most cells (lanes times columns) of an aggregated picture: bounds its memory
+/// (seven sums per cell) for long chains.
+const MAX_CELLS: usize = 2_000_000;
+
 const LEFT: f64 = 64.0;
 const RIGHT: f64 = 16.0;
 const TOP: f64 = 74.0;
@@ -183,7 +191,7 @@ pub fn timeline_svg(
     }
     let n = seq.n_ions;
     let lane = lane_height(n);
-    let width = opts.width.max(300) as f64;
+    let width = opts.width.clamp(MIN_WIDTH, MAX_WIDTH) as f64;
     let plot_w = width - LEFT - RIGHT;
     let height = TOP + lane * n as f64 + AXIS;
     let x_of = |t: f64| LEFT + ((t - t0) / (t1 - t0)).clamp(0.0, 1.0) * plot_w;
@@ -284,7 +292,7 @@ pub fn timeline_svg(
         }
     }
     if aggregate {
-        draw_aggregated(&mut out, seq, &slots, t0, t1, plot_w, lane, &x_of, &y_of);
+        draw_aggregated(&mut out, seq, &slots, t0, t1, plot_w, lane, &x_of, &y_of)?;
     } else {
         draw_marks(&mut out, seq, &slots, t0, t1, lane, &x_of, &y_of);
     }
@@ -511,13 +519,18 @@ fn draw_aggregated(
     lane: f64,
     x_of: &dyn Fn(f64) -> f64,
     y_of: &dyn Fn(u32) -> f64,
-) {
+) -> Result<(), String> {
     let n = seq.n_ions as usize;
-    let cells = (plot_w / 2.0).floor().max(1.0) as usize;
+    let cells = ((plot_w / 2.0).floor().max(1.0) as usize)
+        .min(MAX_CELLS / n.max(1))
+        .max(1);
     let cell_us = (t1 - t0) / cells as f64;
     // Time per (ion, cell, kind).
     let kinds = Kind::ALL.len();
-    let mut busy = vec![0.0f64; n * cells * kinds];
+    let mut busy: Vec<f64> = Vec::new();
+    busy.try_reserve_exact(n * cells * kinds)
+        .map_err(|_| format!("not enough memory to aggregate {n} lanes of {cells} cells"))?;
+    busy.resize(n * cells * kinds, 0.0);
     let mut hidden = vec![false; n];
     for (step, slot) in seq.steps.iter().zip(slots) {
         let op = &step.op;
@@ -600,4 +613,5 @@ fn draw_aggregated(
         }
         flush(out, run, cells);
     }
+    Ok(())
 }

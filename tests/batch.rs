@@ -3,19 +3,12 @@
 //! resumed equals an uninterrupted one; a sweep's comparison and its chart, drawn by
 //! a real SVG renderer (resvg).
 
+mod common;
+
+use common::{render_svg, run_tutti as tutti, text, walk};
+
 use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
-
-fn tutti(args: &[&str]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_tutti"))
-        .args(args)
-        .output()
-        .expect("the binary runs")
-}
-
-fn text(b: &[u8]) -> String {
-    String::from_utf8_lossy(b).into_owned()
-}
+use std::process::Command;
 
 /// A suite of small circuits from circuits/ in `dir`, some in a subfolder.
 fn small_suite(dir: &Path, names: &[&str]) {
@@ -395,38 +388,6 @@ fn a_run_killed_part_way_and_resumed_gives_the_uninterrupted_summary() {
         .starts_with(".tutti-")));
 }
 
-fn walk(dir: &Path) -> Vec<PathBuf> {
-    let mut out = Vec::new();
-    let mut stack = vec![dir.to_path_buf()];
-    while let Some(d) = stack.pop() {
-        let Ok(entries) = std::fs::read_dir(&d) else {
-            continue;
-        };
-        for e in entries.flatten() {
-            if e.file_type().unwrap().is_dir() {
-                stack.push(e.path());
-            } else {
-                out.push(e.path());
-            }
-        }
-    }
-    out
-}
-
-/// Renders an SVG with resvg into RGBA pixels.
-fn render(svg: &str) -> resvg::tiny_skia::Pixmap {
-    let tree =
-        resvg::usvg::Tree::from_str(svg, &resvg::usvg::Options::default()).expect("a valid SVG");
-    let size = tree.size().to_int_size();
-    let mut pixmap = resvg::tiny_skia::Pixmap::new(size.width(), size.height()).unwrap();
-    resvg::render(
-        &tree,
-        resvg::tiny_skia::Transform::default(),
-        &mut pixmap.as_mut(),
-    );
-    pixmap
-}
-
 #[test]
 fn a_two_setting_sweep_gives_the_comparison_and_a_chart_a_renderer_draws() {
     let tmp = tempfile::tempdir().unwrap();
@@ -472,11 +433,7 @@ fn a_two_setting_sweep_gives_the_comparison_and_a_chart_a_renderer_draws() {
     assert!(pulses_ratio < 1.0, "{opt}");
 
     let svg = std::fs::read_to_string(out.join("summary.svg")).unwrap();
-    let pixmap = render(&svg);
-    // To look at the picture: TUTTI_CHART_PNG=/some/file.png.
-    if let Ok(path) = std::env::var("TUTTI_CHART_PNG") {
-        pixmap.save_png(path).unwrap();
-    }
+    let pixmap = render_svg(&svg, "summary-chart");
     let pixels = pixmap.pixels();
     let non_white = pixels
         .iter()

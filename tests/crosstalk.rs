@@ -3,19 +3,11 @@
 //! order of magnitude for addressed beams (a value of the trade, not from a
 //! particular machine); the profiles here are invented examples.
 
+mod common;
+
+use common::{run_tutti as tutti, text};
+
 use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
-
-fn tutti(args: &[&str]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_tutti"))
-        .args(args)
-        .output()
-        .expect("the binary runs")
-}
-
-fn text(b: &[u8]) -> String {
-    String::from_utf8_lossy(b).into_owned()
-}
 
 /// The demo profile with `ions` ions and nearest-neighbour crosstalk `nearest`
 /// only.

@@ -2,32 +2,11 @@
 //! (resvg): not blank, one lane per ion, aggregated when long, zoomable; and its
 //! timing model is the budget's.
 
+mod common;
+
+use common::{render_svg, run_tutti as tutti};
+
 use std::path::Path;
-use std::process::{Command, Output};
-
-fn tutti(args: &[&str]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_tutti"))
-        .args(args)
-        .output()
-        .expect("the binary runs")
-}
-
-fn render(svg: &str) -> resvg::tiny_skia::Pixmap {
-    let tree =
-        resvg::usvg::Tree::from_str(svg, &resvg::usvg::Options::default()).expect("a valid SVG");
-    let size = tree.size().to_int_size();
-    let mut pixmap = resvg::tiny_skia::Pixmap::new(size.width(), size.height()).unwrap();
-    resvg::render(
-        &tree,
-        resvg::tiny_skia::Transform::default(),
-        &mut pixmap.as_mut(),
-    );
-    if let Ok(dir) = std::env::var("TUTTI_DRAW_PNG_DIR") {
-        let name = format!("{}x{}.png", size.width(), size.height());
-        pixmap.save_png(Path::new(&dir).join(name)).unwrap();
-    }
-    pixmap
-}
 
 /// The runs of lane-grey pixels (the even lanes' fill) down the column `x`, as
 /// (first row, height).
@@ -95,7 +74,7 @@ fn a_hand_written_sequence_draws_one_lane_per_ion_with_its_marks() {
     assert!(svg.contains("ion 4 hidden from"), "{svg}");
     // The MS bar covers ions 0..3 only: ion 4 is hidden.
     assert!(svg.contains("step 5: chain_ms"), "{svg}");
-    let p = render(&svg);
+    let p = render_svg(&svg, "timeline-1");
     assert!(
         non_white(&p) > (p.width() * p.height()) as usize / 10,
         "nearly blank"
@@ -137,7 +116,7 @@ fn a_compiled_forty_ion_sequence_is_aggregated_and_a_range_zooms_in() {
         "a sequence of thousands of steps is aggregated"
     );
     assert_eq!(svg.matches("class=\"lane\"").count(), 40);
-    let p = render(&svg);
+    let p = render_svg(&svg, "timeline-2");
     assert!(non_white(&p) > (p.width() * p.height()) as usize / 10);
     assert_eq!(grey_runs(&p, 3).len(), 20, "40 lanes, every other one grey");
     // The first 300 us hold few enough steps to draw one by one.
@@ -146,7 +125,7 @@ fn a_compiled_forty_ion_sequence_is_aggregated_and_a_range_zooms_in() {
     let svg = String::from_utf8(zoom.stdout).unwrap();
     assert!(!svg.contains("aggregated"));
     assert!(svg.contains("step 1: "), "marks carry their step numbers");
-    let p = render(&svg);
+    let p = render_svg(&svg, "timeline-3");
     assert_eq!(grey_runs(&p, 3).len(), 20);
 }
 

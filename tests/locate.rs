@@ -3,19 +3,11 @@
 //! sequence on the 40-ion demo device, on an active or a spare ion, is located to
 //! the section that holds it, with lines on both sides.
 
+mod common;
+
+use common::{run_tutti as tutti, text};
+
 use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
-
-fn tutti(args: &[&str]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_tutti"))
-        .args(args)
-        .output()
-        .expect("the binary runs")
-}
-
-fn text(b: &[u8]) -> String {
-    String::from_utf8_lossy(b).into_owned()
-}
 
 /// Three sections: a Bell pair, a rotation and a CNOT, a Hadamard; the second
 /// barrier names only part of the register (still a checkpoint).

@@ -113,3 +113,56 @@ pub fn read_ok_str(text: &str) -> tutti::circuit::Circuit {
         None => panic!("did not read:\n{}", outcome.render()),
     }
 }
+
+/// Runs the tutti binary with `args`.
+pub fn run_tutti(args: &[&str]) -> std::process::Output {
+    std::process::Command::new(env!("CARGO_BIN_EXE_tutti"))
+        .args(args)
+        .output()
+        .expect("the binary runs")
+}
+
+/// Bytes of a process's output as text.
+pub fn text(b: &[u8]) -> String {
+    String::from_utf8_lossy(b).into_owned()
+}
+
+/// Every file below `dir` (none when it does not exist).
+pub fn walk(dir: &Path) -> Vec<PathBuf> {
+    let mut out = Vec::new();
+    let mut stack = vec![dir.to_path_buf()];
+    while let Some(d) = stack.pop() {
+        let Ok(entries) = std::fs::read_dir(&d) else {
+            continue;
+        };
+        for e in entries.flatten() {
+            if e.file_type().is_ok_and(|t| t.is_dir()) {
+                stack.push(e.path());
+            } else {
+                out.push(e.path());
+            }
+        }
+    }
+    out
+}
+
+/// Renders an SVG with resvg (a well-kept pure-Rust renderer) into RGBA pixels.
+/// With `TUTTI_PNG_DIR` set, the picture is also saved there as `LABEL.png`, to
+/// look at.
+pub fn render_svg(svg: &str, label: &str) -> resvg::tiny_skia::Pixmap {
+    let tree =
+        resvg::usvg::Tree::from_str(svg, &resvg::usvg::Options::default()).expect("a valid SVG");
+    let size = tree.size().to_int_size();
+    let mut pixmap = resvg::tiny_skia::Pixmap::new(size.width(), size.height()).unwrap();
+    resvg::render(
+        &tree,
+        resvg::tiny_skia::Transform::default(),
+        &mut pixmap.as_mut(),
+    );
+    if let Ok(dir) = std::env::var("TUTTI_PNG_DIR") {
+        pixmap
+            .save_png(Path::new(&dir).join(format!("{label}.png")))
+            .unwrap();
+    }
+    pixmap
+}

@@ -107,9 +107,7 @@ pub fn budget(seq: &Sequence, profile: &Profile, active: u32) -> Budget {
     let mut busy = vec![0.0f64; n];
     let mut depth = vec![0usize; n];
     let mut fidelity = 1.0f64;
-    // The open layer of parallel light shifts or measurements: its kind, its ions and
-    // its length so far.
-    let mut layer: Option<(bool, Vec<u32>, f64)> = None;
+    let mut clock = Clock::new(profile);
     for step in &seq.steps {
         let op = &step.op;
         let dt = cost_of(&profile.durations_us, op);
@@ -141,33 +139,9 @@ pub fn budget(seq: &Sequence, profile: &Profile, active: u32) -> Budget {
             NativeOp::Unhide { ion } => hidden[ion as usize] = false,
             _ => {}
         }
-        // Timing, with layers of light shifts and of measurements.
-        let layered = match *op {
-            NativeOp::LightShift { ion, .. } if profile.capabilities.parallel_light_shifts => {
-                Some((false, ion))
-            }
-            NativeOp::Measure { ion, .. } => Some((true, ion)),
-            _ => None,
-        };
-        if let Some((is_measure, ion)) = layered {
-            match &mut layer {
-                Some((kind, ions, len)) if *kind == is_measure && !ions.contains(&ion) => {
-                    ions.push(ion);
-                    if dt > *len {
-                        b.duration_us += dt - *len;
-                        *len = dt;
-                    }
-                }
-                _ => {
-                    layer = Some((is_measure, vec![ion], dt));
-                    b.duration_us += dt;
-                }
-            }
-            continue;
-        }
-        layer = None;
-        b.duration_us += dt;
+        clock.place(op, dt);
     }
+    b.duration_us = clock.now;
     let t = b.duration_us;
     let c = profile.coherence;
     for _ in 0..active {
@@ -195,52 +169,62 @@ pub struct Slot {
     pub duration_us: f64,
 }
 
-/// The start and duration of every step of `seq` on `profile`, by the same timing
-/// model as [`budget`] (its `duration_us` is the largest end): operations one after
-/// another, except that a layer of light shifts on distinct ions (where the profile
+/// The timing model (the module header): places each operation after the one
+/// before, except that a layer of light shifts on distinct ions (where the profile
 /// runs them at once) or of measurements shares one slot.
-pub fn timeline(seq: &Sequence, profile: &Profile) -> Vec<Slot> {
-    let mut out = Vec::with_capacity(seq.steps.len());
-    let mut now = 0.0f64;
-    // The open layer: its kind, its ions, its start.
-    let mut layer: Option<(bool, Vec<u32>, f64)> = None;
-    for step in &seq.steps {
-        let op = &step.op;
-        let dt = cost_of(&profile.durations_us, op);
+struct Clock {
+    parallel_light_shifts: bool,
+    /// The end of everything placed so far.
+    now: f64,
+    /// The open layer: measurements or light shifts, its ions, its start.
+    layer: Option<(bool, Vec<u32>, f64)>,
+}
+
+impl Clock {
+    fn new(profile: &Profile) -> Clock {
+        Clock {
+            parallel_light_shifts: profile.capabilities.parallel_light_shifts,
+            now: 0.0,
+            layer: None,
+        }
+    }
+
+    /// Places `op`, taking `dt` microseconds; returns its slot.
+    fn place(&mut self, op: &NativeOp, dt: f64) -> Slot {
         let layered = match *op {
-            NativeOp::LightShift { ion, .. } if profile.capabilities.parallel_light_shifts => {
-                Some((false, ion))
-            }
+            NativeOp::LightShift { ion, .. } if self.parallel_light_shifts => Some((false, ion)),
             NativeOp::Measure { ion, .. } => Some((true, ion)),
             _ => None,
         };
-        if let Some((is_measure, ion)) = layered {
-            match &mut layer {
-                Some((kind, ions, start)) if *kind == is_measure && !ions.contains(&ion) => {
-                    ions.push(ion);
-                    out.push(Slot {
-                        start_us: *start,
-                        duration_us: dt,
-                    });
-                    now = now.max(*start + dt);
-                }
-                _ => {
-                    layer = Some((is_measure, vec![ion], now));
-                    out.push(Slot {
-                        start_us: now,
-                        duration_us: dt,
-                    });
-                    now += dt;
-                }
+        match (layered, &mut self.layer) {
+            (Some((kind, ion)), Some((open, ions, start)))
+                if *open == kind && !ions.contains(&ion) =>
+            {
+                ions.push(ion);
+                self.now = self.now.max(*start + dt);
+                return Slot {
+                    start_us: *start,
+                    duration_us: dt,
+                };
             }
-            continue;
+            (Some((kind, ion)), _) => self.layer = Some((kind, vec![ion], self.now)),
+            (None, _) => self.layer = None,
         }
-        layer = None;
-        out.push(Slot {
-            start_us: now,
+        let slot = Slot {
+            start_us: self.now,
             duration_us: dt,
-        });
-        now += dt;
+        };
+        self.now += dt;
+        slot
     }
-    out
+}
+
+/// The start and duration of every step of `seq` on `profile`, by the timing model
+/// of [`budget`] (its `duration_us` is the largest end).
+pub fn timeline(seq: &Sequence, profile: &Profile) -> Vec<Slot> {
+    let mut clock = Clock::new(profile);
+    seq.steps
+        .iter()
+        .map(|step| clock.place(&step.op, cost_of(&profile.durations_us, &step.op)))
+        .collect()
 }

@@ -49,25 +49,6 @@ pub fn matrix(profile: &Profile, n: usize) -> DMatrix<f64> {
     )
 }
 
-/// The steps of a light shift of `theta` on `ion` as the machine runs it.
-fn spread(
-    c: &DMatrix<f64>,
-    ion: usize,
-    theta: f64,
-    condition: &Option<Box<super::Condition>>,
-) -> Vec<Step> {
-    (0..c.nrows())
-        .filter(|&i| c[(i, ion)] != 0.0)
-        .map(|i| Step {
-            op: NativeOp::LightShift {
-                ion: i as u32,
-                theta: c[(i, ion)] * theta,
-            },
-            condition: condition.clone(),
-        })
-        .collect()
-}
-
 /// Maps sync points through a rewrite that turned step `k` into the steps
 /// `starts[k]..starts[k + 1]`.
 fn remap(sync: &[SyncPoint], starts: &[usize]) -> Vec<SyncPoint> {
@@ -84,39 +65,50 @@ fn remap(sync: &[SyncPoint], starts: &[usize]) -> Vec<SyncPoint> {
 /// its effective angle `(C theta)_i`; effective angles below [`PRUNE`] radians (what
 /// floating-point cancellation leaves of a compensated layer) are left out, which
 /// moves the unitary by less than `PRUNE / 2` per ion and layer, far below the
-/// checker's rounding floor. A conditioned light shift is spread on its own, with
-/// its condition.
+/// checker's rounding floor.
 pub fn apply(seq: &Sequence, profile: &Profile, sync: &[SyncPoint]) -> (Sequence, Vec<SyncPoint>) {
+    let c = matrix(profile, seq.n_ions as usize);
+    match relayer(seq, sync, |theta| {
+        Ok::<_, std::convert::Infallible>(&c * theta)
+    }) {
+        Ok(out) => out,
+        Err(never) => match never {},
+    }
+}
+
+/// `seq` with each layer of light shifts replaced by one light shift per ion of the
+/// angles `angles(theta)` gives for the layer's angles `theta` (those below
+/// [`PRUNE`] left out, the layer's condition kept), and the sync points and
+/// checkpoints moved with it.
+fn relayer<E>(
+    seq: &Sequence,
+    sync: &[SyncPoint],
+    mut angles: impl FnMut(&DVector<f64>) -> Result<DVector<f64>, E>,
+) -> Result<(Sequence, Vec<SyncPoint>), E> {
     let n = seq.n_ions as usize;
-    let c = matrix(profile, n);
     let mut steps = Vec::with_capacity(seq.steps.len());
+    // Step k of `seq` becomes the steps from starts[k] on.
     let mut starts = vec![0usize; seq.steps.len() + 1];
     let mut next = 0;
-    let copy = |k: usize, steps: &mut Vec<Step>| {
-        let step = &seq.steps[k];
-        match step.op {
-            NativeOp::LightShift { ion, theta } if (ion as usize) < n => {
-                steps.extend(spread(&c, ion as usize, theta, &step.condition))
-            }
-            _ => steps.push(step.clone()),
+    let mut copy_to = |end: usize, next: &mut usize, steps: &mut Vec<Step>| {
+        for k in *next..end {
+            starts[k] = steps.len();
+            steps.push(seq.steps[k].clone());
         }
+        *next = end;
     };
+    let mut layer_starts = Vec::new();
     for range in layers(seq, sync) {
-        for k in next..range.start {
-            starts[k] = steps.len();
-            copy(k, &mut steps);
-        }
-        for k in range.clone() {
-            starts[k] = steps.len();
-        }
-        let effective = &c * layer_angles(seq, range.clone(), n);
+        copy_to(range.start, &mut next, &mut steps);
+        layer_starts.push((range.clone(), steps.len()));
+        let theta = angles(&layer_angles(seq, range.clone(), n))?;
         let condition = &seq.steps[range.start].condition;
-        for (ion, theta) in effective.iter().enumerate() {
-            if theta.abs() >= PRUNE {
+        for (ion, t) in theta.iter().enumerate() {
+            if t.abs() >= PRUNE {
                 steps.push(Step {
                     op: NativeOp::LightShift {
                         ion: ion as u32,
-                        theta: *theta,
+                        theta: *t,
                     },
                     condition: condition.clone(),
                 });
@@ -124,9 +116,12 @@ pub fn apply(seq: &Sequence, profile: &Profile, sync: &[SyncPoint]) -> (Sequence
         }
         next = range.end;
     }
-    for k in next..seq.steps.len() {
-        starts[k] = steps.len();
-        copy(k, &mut steps);
+    copy_to(seq.steps.len(), &mut next, &mut steps);
+    // Every step of a layer maps to where the layer's new shifts begin.
+    for (range, at) in layer_starts {
+        for k in range {
+            starts[k] = at;
+        }
     }
     starts[seq.steps.len()] = steps.len();
     let out = Sequence {
@@ -134,7 +129,7 @@ pub fn apply(seq: &Sequence, profile: &Profile, sync: &[SyncPoint]) -> (Sequence
         checkpoints: seq.checkpoints.iter().map(|&c| starts[c]).collect(),
         ..seq.clone()
     };
-    (out, remap(sync, &starts))
+    Ok((out, remap(sync, &starts)))
 }
 
 /// The layers of `seq`: maximal runs of consecutive light shifts under the same
@@ -218,48 +213,14 @@ pub fn compensate(
             "the crosstalk matrix is singular: no light-shift commands can compensate it".into(),
         );
     }
-    let mut steps = Vec::with_capacity(seq.steps.len());
-    let mut starts = vec![0usize; seq.steps.len() + 1];
     let mut f = Fidelity(1.0);
-    let mut next = 0;
-    for range in layers(seq, sync) {
-        for k in next..range.start {
-            starts[k] = steps.len();
-            steps.push(seq.steps[k].clone());
-        }
-        let target = layer_angles(seq, range.clone(), n);
+    let (out, sync) = relayer(seq, sync, |target| {
         let cmd = lu
-            .solve(&target)
+            .solve(target)
             .ok_or("the crosstalk matrix is singular")?
             .map(|x| if x.abs() < PRUNE { 0.0 } else { x });
-        f.add(&(&c * &cmd - &target));
-        for k in range.clone() {
-            starts[k] = steps.len();
-        }
-        let condition = &seq.steps[range.start].condition;
-        for (ion, theta) in cmd.iter().enumerate() {
-            if *theta != 0.0 {
-                steps.push(Step {
-                    op: NativeOp::LightShift {
-                        ion: ion as u32,
-                        theta: *theta,
-                    },
-                    condition: condition.clone(),
-                });
-            }
-        }
-        next = range.end;
-    }
-    for k in next..seq.steps.len() {
-        starts[k] = steps.len();
-        steps.push(seq.steps[k].clone());
-    }
-    starts[seq.steps.len()] = steps.len();
-    // A sync point at the start of a layer maps to where that layer's commands begin.
-    let out = Sequence {
-        steps,
-        checkpoints: seq.checkpoints.iter().map(|&c| starts[c]).collect(),
-        ..seq.clone()
-    };
-    Ok((out, remap(sync, &starts), f.error()))
+        f.add(&(&c * &cmd - target));
+        Ok::<_, String>(cmd)
+    })?;
+    Ok((out, sync, f.error()))
 }

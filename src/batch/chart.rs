@@ -9,6 +9,7 @@
 //! on has no marker for it; one whose reference value is 0 is marked "no reference".
 
 use super::summary::{Figure, Row};
+use crate::report::xml_escape as escape;
 use std::fmt::Write as _;
 
 const PALETTE: [&str; 8] = [
@@ -18,13 +19,6 @@ const ROW_H: f64 = 18.0;
 const TOP: f64 = 70.0;
 const PLOT_W: f64 = 520.0;
 const RIGHT_W: f64 = 120.0;
-
-fn escape(s: &str) -> String {
-    s.replace('&', "&amp;")
-        .replace('<', "&lt;")
-        .replace('>', "&gt;")
-        .replace('"', "&quot;")
-}
 
 /// A marker of shape `k` centred at (x, y).
 fn marker(out: &mut String, k: usize, x: f64, y: f64, title: &str) {
@@ -74,22 +68,17 @@ fn marker(out: &mut String, k: usize, x: f64, y: f64, title: &str) {
 
 /// The chart of `figure` for `rows` across `settings` (the first is the reference).
 pub fn svg(settings: &[String], rows: &[Row], figure: Figure) -> String {
-    let mut paths: Vec<&str> = rows.iter().map(|r| r.path.as_str()).collect();
-    paths.dedup();
-    let value = |p: &str, s: &str| {
-        rows.iter()
-            .find(|r| r.path == p && r.setting == s)
-            .and_then(|r| r.figures)
-            .map(|f| figure.value(&f))
-    };
+    let table = super::summary::grid(settings, rows);
+    let paths: Vec<&str> = table.iter().map(|(p, _)| *p).collect();
+    let value = |i: usize, k: usize| table[i].1[k].map(|f| figure.value(&f));
     // The axis: powers of two covering every ratio, at least 1/2 .. 2.
     let mut span: f64 = 1.0;
-    for p in &paths {
-        let Some(base) = value(p, &settings[0]).filter(|b| *b > 0.0) else {
+    for i in 0..paths.len() {
+        let Some(base) = value(i, 0).filter(|b| *b > 0.0) else {
             continue;
         };
-        for s in &settings[1..] {
-            if let Some(v) = value(p, s).filter(|v| *v > 0.0) {
+        for k in 1..settings.len() {
+            if let Some(v) = value(i, k).filter(|v| *v > 0.0) {
                 span = span.max((v / base).log2().abs().ceil());
             }
         }
@@ -185,7 +174,7 @@ pub fn svg(settings: &[String], rows: &[Row], figure: Figure) -> String {
             y + 4.0,
             escape(p)
         );
-        let base = value(p, &settings[0]);
+        let base = value(i, 0);
         let right = match base {
             Some(b) => figure.format(b),
             None => "failed".into(),
@@ -199,7 +188,7 @@ pub fn svg(settings: &[String], rows: &[Row], figure: Figure) -> String {
         match base {
             Some(b) if b > 0.0 => {
                 for (k, s) in settings.iter().enumerate() {
-                    let Some(v) = value(p, s) else { continue };
+                    let Some(v) = value(i, k) else { continue };
                     let ratio = if v > 0.0 { v / b } else { 2f64.powf(-span) };
                     let title = format!(
                         "{p}, {s}: {} ({:.3} of the reference)",

@@ -310,14 +310,31 @@ pub struct Comparison {
     pub circuits: Vec<usize>,
 }
 
+/// The figures of each circuit under each setting, in row order (rows come grouped
+/// by circuit): one entry per circuit, the figures of setting `k` at index `k`
+/// (`None` where the job failed or is not in the rows).
+pub(super) type Grid<'r> = Vec<(&'r str, Vec<Option<Figures>>)>;
+
+pub(super) fn grid<'r>(settings: &[String], rows: &'r [Row]) -> Grid<'r> {
+    let index: std::collections::HashMap<&str, usize> = settings
+        .iter()
+        .enumerate()
+        .map(|(k, s)| (s.as_str(), k))
+        .collect();
+    let mut out: Grid<'r> = Vec::new();
+    for r in rows {
+        if out.last().map_or(true, |(p, _)| *p != r.path) {
+            out.push((r.path.as_str(), vec![None; settings.len()]));
+        }
+        if let (Some(&k), Some(last)) = (index.get(r.setting.as_str()), out.last_mut()) {
+            last.1[k] = r.figures;
+        }
+    }
+    out
+}
+
 pub fn compare(settings: &[String], rows: &[Row]) -> Vec<Comparison> {
-    let mut paths: Vec<&str> = rows.iter().map(|r| r.path.as_str()).collect();
-    paths.dedup();
-    let find = |p: &str, s: &str| {
-        rows.iter()
-            .find(|r| r.path == p && r.setting == s)
-            .and_then(|r| r.figures)
-    };
+    let table = grid(settings, rows);
     let mut out: Vec<Comparison> = settings
         .iter()
         .map(|s| Comparison {
@@ -338,10 +355,10 @@ pub fn compare(settings: &[String], rows: &[Row]) -> Vec<Comparison> {
         // The circuits with a positive value of f in every setting.
         let mut logs = vec![0.0; settings.len()];
         let mut count = 0;
-        for p in &paths {
-            let values: Option<Vec<f64>> = settings
+        for (_, figures) in &table {
+            let values: Option<Vec<f64>> = figures
                 .iter()
-                .map(|s| find(p, s).map(|x| f.value(&x)).filter(|v| *v > 0.0))
+                .map(|x| x.map(|x| f.value(&x)).filter(|v| *v > 0.0))
                 .collect();
             if let Some(v) = values {
                 for (l, x) in logs.iter_mut().zip(v) {

@@ -19,6 +19,7 @@
 use crate::native::budget::{timeline, Slot};
 use crate::native::profile::Profile;
 use crate::native::{names, NativeOp, Sequence};
+use crate::report::xml_escape as escape;
 use std::f64::consts::FRAC_PI_2;
 use std::fmt::Write as _;
 
@@ -136,12 +137,6 @@ fn tick_step(span: f64, target: f64) -> f64 {
         .map(|m| m * p)
         .find(|s| *s >= raw)
         .unwrap_or(10.0 * p)
-}
-
-fn escape(s: &str) -> String {
-    s.replace('&', "&amp;")
-        .replace('<', "&lt;")
-        .replace('>', "&gt;")
 }
 
 /// The ions each step acts on, given who is hidden, and the hidden spans of every

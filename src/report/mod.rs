@@ -10,6 +10,14 @@ use crate::circuit::Summary;
 use crate::sim::Verdict;
 use std::fmt::Write;
 
+/// Text made safe for SVG/XML content and attribute values.
+pub fn xml_escape(s: &str) -> String {
+    s.replace('&', "&amp;")
+        .replace('<', "&lt;")
+        .replace('>', "&gt;")
+        .replace('"', "&quot;")
+}
+
 /// The table `tutti inspect` prints.
 pub fn inspect_table(name: &str, s: &Summary) -> String {
     let mut out = String::new();

@@ -248,7 +248,7 @@ fn run(cli: Cli) -> Result<ExitCode, Failure> {
             objectives,
             jobs,
             no_verify,
-            shard,
+            part,
             format,
             chart,
             memory,
@@ -263,10 +263,10 @@ fn run(cli: Cli) -> Result<ExitCode, Failure> {
             let _ = rayon::ThreadPoolBuilder::new()
                 .num_threads(jobs)
                 .build_global();
-            let shard = shard
-                .map(|s| batch::Shard::parse(&s))
+            let part = part
+                .map(|s| batch::Part::parse(&s))
                 .transpose()
-                .map_err(|e| format!("error: --shard: {e}\n"))?;
+                .map_err(|e| format!("error: --part: {e}\n"))?;
             let chart = Figure::from_name(&chart).ok_or_else(|| {
                 let names: Vec<&str> = Figure::ALL.iter().map(|f| f.name()).collect();
                 format!(
@@ -290,7 +290,7 @@ fn run(cli: Cli) -> Result<ExitCode, Failure> {
                 settings: Setting::sweep(&devices, &targets, &compiler_list),
                 jobs,
                 verify: !no_verify,
-                shard,
+                part,
                 limits: limits.limits(),
                 max_steps: max_pulses,
                 memory: memory

@@ -1,5 +1,5 @@
 //! `tutti batch` and `tutti merge`, through the command line: rows, diagnostics and
-//! exit codes of a mixed suite; shards merged equal the whole run; a killed run
+//! exit codes of a mixed suite; parts merged equal the whole run; a killed run
 //! resumed equals an uninterrupted one; a sweep's comparison and its chart, drawn by
 //! a real SVG renderer (resvg).
 
@@ -220,7 +220,7 @@ fn every_job_succeeding_exits_0_and_a_rerun_skips_them_all() {
 }
 
 #[test]
-fn merged_shards_equal_the_whole_run_whatever_the_jobs() {
+fn merged_parts_equal_the_whole_run_whatever_the_jobs() {
     let tmp = tempfile::tempdir().unwrap();
     let suite = tmp.path().join("suite");
     small_suite(&suite, &SMALL);
@@ -235,9 +235,9 @@ fn merged_shards_equal_the_whole_run_whatever_the_jobs() {
         .concat(),
     );
     assert_eq!(o.status.code(), Some(0), "{}", text(&o.stderr));
-    let mut shards: Vec<PathBuf> = Vec::new();
+    let mut parts: Vec<PathBuf> = Vec::new();
     for k in 1..=3 {
-        let dir = tmp.path().join(format!("shard{k}"));
+        let dir = tmp.path().join(format!("part{k}"));
         let spec = format!("{k}/3");
         let o = tutti(
             &[
@@ -248,7 +248,7 @@ fn merged_shards_equal_the_whole_run_whatever_the_jobs() {
                     dir.to_str().unwrap(),
                     "--jobs",
                     "1",
-                    "--shard",
+                    "--part",
                     &spec,
                 ][..],
                 &sweep,
@@ -261,12 +261,12 @@ fn merged_shards_equal_the_whole_run_whatever_the_jobs() {
             .lines()
             .count()
             - 1;
-        assert_eq!(rows, 6, "three circuits, two settings per shard");
-        shards.push(dir);
+        assert_eq!(rows, 6, "three circuits, two settings per part");
+        parts.push(dir);
     }
     let merged = tmp.path().join("merged");
     let mut args = vec!["merge".to_string()];
-    args.extend(shards.iter().map(|d| d.display().to_string()));
+    args.extend(parts.iter().map(|d| d.display().to_string()));
     args.extend(["--out".to_string(), merged.display().to_string()]);
     let args: Vec<&str> = args.iter().map(String::as_str).collect();
     let o = tutti(&args);
@@ -296,13 +296,13 @@ fn merged_shards_equal_the_whole_run_whatever_the_jobs() {
         s,
         "--out",
         other.to_str().unwrap(),
-        "--shard",
+        "--part",
         "1/3",
     ]);
     assert_eq!(o.status.code(), Some(0));
     let o = tutti(&[
         "merge",
-        shards[1].to_str().unwrap(),
+        parts[1].to_str().unwrap(),
         other.to_str().unwrap(),
         "--out",
         tmp.path().join("bad").to_str().unwrap(),
@@ -488,11 +488,11 @@ fn hostile_arguments_are_usage_errors_and_lose_nothing() {
             s,
             "--out",
             tmp.path().join("o").to_str().unwrap(),
-            "--shard",
+            "--part",
             bad,
         ]);
-        assert_eq!(o.status.code(), Some(2), "--shard {bad}");
-        assert!(text(&o.stderr).contains("--shard"), "{}", text(&o.stderr));
+        assert_eq!(o.status.code(), Some(2), "--part {bad}");
+        assert!(text(&o.stderr).contains("--part"), "{}", text(&o.stderr));
     }
     let o = tutti(&[
         "batch",

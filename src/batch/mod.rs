@@ -1,12 +1,12 @@
 //! Compiling a whole suite: every circuit under some paths, for every setting (a
 //! device, a target and a compiler with its objective), in parallel, with one
 //! memory budget for all jobs, records that let a re-run skip finished work, a
-//! deterministic part of the suite per shard, and summaries (`summary`, `chart`).
+//! deterministic part of the suite per part, and summaries (`summary`, `chart`).
 //! Finding the circuits is `discover`; the records, their checks and `merge` are
 //! `records`; this module holds the settings and the run itself.
 //!
 //! Layout of an output folder `DIR`:
-//! - `DIR/batch.json`: the manifest (settings in order, options, shard);
+//! - `DIR/batch.json`: the manifest (settings in order, options, part);
 //! - `DIR/<setting>/<input path>.pulses` (or `.json`, `.qasm`): each compiled
 //!   sequence, in folders that mirror the inputs;
 //! - `DIR/records/<setting>/<input path>.json`: each job's row and what it was
@@ -137,18 +137,18 @@ impl Setting {
     }
 }
 
-/// A part of a suite: shard `index` (1-based) of `count`.
+/// A part of a suite: part `index` (1-based) of `count`.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
-pub struct Shard {
+pub struct Part {
     pub index: usize,
     pub count: usize,
 }
 
-impl Shard {
+impl Part {
     /// Reads `K/N` with 1 <= K <= N.
-    pub fn parse(text: &str) -> Result<Shard, String> {
+    pub fn parse(text: &str) -> Result<Part, String> {
         let (k, n) = text.split_once('/').ok_or_else(|| {
-            format!("`{text}` is not K/N (say 2/8 for the second of eight shards)")
+            format!("`{text}` is not K/N (say 2/8 for the second of eight parts)")
         })?;
         let k: usize = k
             .trim()
@@ -159,13 +159,13 @@ impl Shard {
             .parse()
             .map_err(|_| format!("`{n}` in `{text}` is not a number"))?;
         if n == 0 || k == 0 || k > n {
-            return Err(format!("shard {k}/{n}: K must be between 1 and N"));
+            return Err(format!("part {k}/{n}: K must be between 1 and N"));
         }
-        Ok(Shard { index: k, count: n })
+        Ok(Part { index: k, count: n })
     }
 
-    /// Whether the circuit at position `i` of the sorted suite is in this shard:
-    /// circuits are dealt round-robin, every setting of a circuit in one shard.
+    /// Whether the circuit at position `i` of the sorted suite is in this part:
+    /// circuits are dealt round-robin, every setting of a circuit in one part.
     pub fn holds(&self, i: usize) -> bool {
         i % self.count == self.index - 1
     }
@@ -180,7 +180,7 @@ pub struct BatchConfig {
     /// Jobs at once (at least 1).
     pub jobs: usize,
     pub verify: bool,
-    pub shard: Option<Shard>,
+    pub part: Option<Part>,
     pub limits: Limits,
     pub max_steps: usize,
     /// The one memory budget of all jobs together, in bytes.
@@ -248,7 +248,7 @@ impl BatchOutcome {
 pub struct Manifest {
     pub tool: String,
     pub settings: Vec<Setting>,
-    pub shard: Option<Shard>,
+    pub part: Option<Part>,
     pub chart: Figure,
 }
 
@@ -299,7 +299,7 @@ pub fn run(cfg: &BatchConfig, on_event: &(dyn Fn(Event) + Sync)) -> Result<Batch
     let inputs: Vec<Input> = inputs
         .into_iter()
         .enumerate()
-        .filter(|(i, _)| cfg.shard.map_or(true, |s| s.holds(*i)))
+        .filter(|(i, _)| cfg.part.map_or(true, |s| s.holds(*i)))
         .map(|(_, x)| x)
         .collect();
     std::fs::create_dir_all(&cfg.out)
@@ -308,7 +308,7 @@ pub fn run(cfg: &BatchConfig, on_event: &(dyn Fn(Event) + Sync)) -> Result<Batch
     let manifest = Manifest {
         tool: cfg.tool.clone(),
         settings: cfg.settings.clone(),
-        shard: cfg.shard,
+        part: cfg.part,
         chart: cfg.chart,
     };
     let manifest_text = serde_json::to_string_pretty(&manifest).map_err(|e| e.to_string())?;

@@ -94,7 +94,7 @@ pub(super) fn write_record(
     write_atomic(&record_path(&cfg.out, setting, key), &(text + "\n"))
 }
 
-/// Joins the outputs of several runs (shards) into `out`: every row and output
+/// Joins the outputs of several runs (parts) into `out`: every row and output
 /// copied, and one summary. The runs must have the same settings; a job present in
 /// two runs must have the same row (but for timing).
 pub fn merge(dirs: &[PathBuf], out: &Path) -> Result<BatchOutcome, String> {
@@ -145,7 +145,7 @@ pub fn merge(dirs: &[PathBuf], out: &Path) -> Result<BatchOutcome, String> {
     let Some(mut manifest) = manifest else {
         return Err("nothing to merge".into());
     };
-    manifest.shard = None;
+    manifest.part = None;
     records.sort_by(|a, b| a.0.cmp(&b.0));
     let mut kept: Vec<(String, Record, PathBuf)> = Vec::new();
     for r in records {

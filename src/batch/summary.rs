@@ -4,7 +4,7 @@
 //! Invariant: the summaries depend only on the rows and the manifest, rows come in a
 //! fixed order (circuit key, then setting as given), and numbers are printed with a
 //! fixed number of places, so everything but the timing columns (`compile_s`,
-//! `verify_s`) is byte-identical whatever the number of jobs or shards.
+//! `verify_s`) is byte-identical whatever the number of jobs or parts.
 
 use super::{chart, Manifest};
 use crate::native::budget::Budget;
@@ -434,8 +434,8 @@ pub fn markdown(manifest: &Manifest, rows: &[Row]) -> String {
     for s in &manifest.settings {
         let _ = writeln!(out, "- {}", s.name());
     }
-    if let Some(sh) = manifest.shard {
-        let _ = writeln!(out, "\nShard {} of {}.", sh.index, sh.count);
+    if let Some(sh) = manifest.part {
+        let _ = writeln!(out, "\nPart {} of {}.", sh.index, sh.count);
     }
     let failed = rows.iter().filter(|r| r.status == Status::Failed).count();
     let _ = writeln!(out, "\n{} job(s), {} failed.\n", rows.len(), failed);
@@ -595,7 +595,7 @@ pub fn json(manifest: &Manifest, rows: &[Row]) -> Result<String, String> {
     let value = serde_json::json!({
         "tool": manifest.tool,
         "settings": names,
-        "shard": manifest.shard,
+        "part": manifest.part,
         "rows": rows,
         "comparison": compare(&names, rows),
     });

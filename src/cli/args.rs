@@ -219,7 +219,7 @@ pub(super) enum Command {
         /// Run only part K of N of the suite (circuits dealt round-robin in path
         /// order), for a job array on a cluster; join the parts with `tutti merge`.
         #[arg(long, value_name = "K/N")]
-        shard: Option<String>,
+        part: Option<String>,
         /// Format of the compiled sequences.
         #[arg(long, value_enum, default_value_t = FormatArg::Pulses)]
         format: FormatArg,
@@ -264,10 +264,10 @@ pub(super) enum Command {
         #[command(flatten)]
         limits: LimitArgs,
     },
-    /// Join the output folders of several `tutti batch --shard` runs into one, with
+    /// Join the output folders of several `tutti batch --part` runs into one, with
     /// one summary.
     Merge {
-        /// Output folders of the shards.
+        /// Output folders of the parts.
         #[arg(required = true)]
         dirs: Vec<PathBuf>,
         /// Folder for the joined outputs and summary.

@@ -144,6 +144,16 @@ fn a_single_wrong_pulse_is_located_to_its_section_on_active_and_spare_ions() {
     let mut m = lines.clone();
     m.insert(i, "light_shift 25 pi".into());
     cases.push(("extra flip, spare ion", m, 2));
+    // A changed MS angle inside the echo of section 1: every ion's couplings stop
+    // cancelling. Proven with the spare ions held as fields (no 2^40 statevector),
+    // and the ions left coupled are named.
+    let i = find(cps[0], cps[1], &|l| l.starts_with("chain_ms "));
+    let mut m = lines.clone();
+    let mut words: Vec<String> = m[i].split_whitespace().map(str::to_string).collect();
+    let area: f64 = words[1].parse().expect("a plain number");
+    words[1] = format!("{}", area + 1e-3);
+    m[i] = words.join(" ");
+    cases.push(("changed MS angle", m, section_of(i)));
     // A wrong phase of a collective rotation, in section 2.
     let i = find(cps[1], lines.len(), &|l| l.starts_with("chain_rotate"));
     let mut m = lines.clone();
@@ -157,6 +167,10 @@ fn a_single_wrong_pulse_is_located_to_its_section_on_active_and_spare_ions() {
         // Lines on both sides: the circuit's section and the pulse list's.
         assert!(report.contains("three.qasm: lines"), "{what}: {report}");
         assert!(report.contains("edited.pulses: lines"), "{what}: {report}");
+        if what == "changed MS angle" {
+            assert!(report.contains("are left coupled"), "{report}");
+            assert!(report.contains("held as fixed fields"), "{report}");
+        }
     }
 }
 

@@ -260,7 +260,13 @@ pub fn compile_counted(
                 on_stage(Stage::Verify);
                 let a = Program::from_circuit(c).map_err(CheckError::Lower)?;
                 let b = Program::from_sequence(seq);
-                check(&a, &b, &cfg.check)
+                // A refusal here is followed by the window-by-window proof, which
+                // also finds any difference: no separate search for one.
+                let whole = CheckConfig {
+                    seek_difference: false,
+                    ..cfg.check.clone()
+                };
+                check(&a, &b, &whole)
             }
         };
         match whole {
@@ -274,7 +280,7 @@ pub fn compile_counted(
                     v.detail
                 )))
             }
-            Err(CheckError::TooLarge { .. } | CheckError::TooSlow { .. }) => {
+            Err(e) if e.beyond_budget() => {
                 if !cfg.baseline {
                     // Recompile in ranges of few qubits, so that every window is small
                     // (the first output is freed first: it can be most of the memory).

@@ -17,6 +17,7 @@
 //! verdict reports the worst distance and the tolerance it was held against.
 
 mod cuts;
+mod fields;
 mod frame;
 mod modes;
 mod prepass;
@@ -97,6 +98,11 @@ pub struct CheckConfig {
     /// (`tutti batch`): each state or unitary is also reserved there, waiting while
     /// the others hold too much. `memory_budget` still bounds one comparison.
     pub pool: Option<crate::memory::SharedPool>,
+    /// When a comparison is refused (too large, too slow, not Clifford), look for an
+    /// exact proof that the programs differ (modules `witness` and `fields`). On by
+    /// default; a caller that falls back to smaller comparisons anyway (the compile
+    /// driver, window by window) turns it off rather than spend the work twice.
+    pub seek_difference: bool,
 }
 
 impl Default for CheckConfig {
@@ -111,6 +117,7 @@ impl Default for CheckConfig {
             up_to_final_diagonal: false,
             max_work: f64::INFINITY,
             pool: None,
+            seek_difference: true,
         }
     }
 }
@@ -210,6 +217,33 @@ pub enum CheckError {
     Windows(String),
     #[error("{0}")]
     Unsupported(String),
+    /// A refusal after which a proof of difference was looked for and not found:
+    /// what was tried, and what is too large.
+    #[error("{refusal}; {tried}")]
+    Undecided {
+        refusal: Box<CheckError>,
+        tried: String,
+    },
+}
+
+impl CheckError {
+    /// Whether the comparison was refused for its size (memory or work), so that
+    /// smaller comparisons (window by window) may still decide it.
+    pub fn beyond_budget(&self) -> bool {
+        match self {
+            CheckError::TooLarge { .. } | CheckError::TooSlow { .. } => true,
+            CheckError::Undecided { refusal, .. } => refusal.beyond_budget(),
+            _ => false,
+        }
+    }
+
+    /// The refusal itself, without what was tried after it.
+    pub fn refusal(&self) -> &CheckError {
+        match self {
+            CheckError::Undecided { refusal, .. } => refusal.refusal(),
+            e => e,
+        }
+    }
 }
 
 /// Compares two programs. See the module documentation for the modes.

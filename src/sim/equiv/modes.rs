@@ -130,7 +130,7 @@ pub(super) fn compare(
     // exact proof of difference may still be at hand (module `witness`). Not with a
     // final diagonal allowed: a coupling is diagonal.
     let or_witness = |refusal: CheckError| -> Result<SegResult, CheckError> {
-        if diagonal.is_some() {
+        if diagonal.is_some() || !cfg.seek_difference {
             return Err(refusal);
         }
         // On the programs as given (the pre-passes renumber qubits), each in the
@@ -140,8 +140,9 @@ pub(super) fn compare(
         };
         let ((fp, sp), (fq, sq)) = (framed(original_p), framed(original_q));
         let slack = sp + sq;
-        match super::witness::coupled_idle_qubit(&fp, &fq, original_n, tolerance + slack) {
-            Some(w) => Ok(SegResult {
+        if let Some(w) = super::witness::coupled_idle_qubit(&fp, &fq, original_n, tolerance + slack)
+        {
+            return Ok(SegResult {
                 compared: original_n,
                 equal: false,
                 mode: Mode::Bound,
@@ -153,8 +154,29 @@ pub(super) fn compare(
                     "qubit {} is left coupled to qubit {} by the {} program only (net Z-Z angle {:.9} rad, not a multiple of pi/2), so the programs differ by at least {:.3e} in operator norm: an exact bound, without simulating (the full comparison was refused: {refusal})",
                     w.qubit, w.partner, w.side, w.weight, w.bound - slack
                 )),
+            });
+        }
+        match super::fields::held_fields(original_p, original_q, original_n, cfg, tolerance) {
+            super::fields::Search::Proven(w) => Ok(SegResult {
+                compared: w.simulated,
+                equal: false,
+                mode: Mode::Bound,
+                distance: Some(w.bound),
+                tolerance,
+                fidelity: 0.0,
+                phase: None,
+                reason: Some(format!(
+                    "{}; proven by simulating {} qubit(s) with the other {} held as fixed fields (each stays an eigenstate of every interaction it takes part in): the programs differ by at least {:.3e} in operator norm (the full comparison was refused: {refusal})",
+                    w.describe(),
+                    w.simulated,
+                    w.held,
+                    w.bound
+                )),
             }),
-            None => Err(refusal),
+            super::fields::Search::Tried(tried) => Err(CheckError::Undecided {
+                refusal: Box::new(refusal),
+                tried,
+            }),
         }
     };
     let want_tableau = matches!(cfg.mode, Mode::Auto | Mode::Tableau) && diagonal.is_none();

@@ -76,14 +76,15 @@ fn compiled_outputs_carry_the_barriers_as_checkpoints_in_every_format() {
     assert_eq!(o.status.code(), Some(0), "{}", text(&o.stdout));
 }
 
-/// Rewrites the pulse list `lines` by `edit`, checks it against the circuit with
-/// `--locate`, and returns the section named and the report.
-fn located(dir: &Path, circuit: &Path, lines: &[String]) -> (Option<usize>, String) {
+/// Writes the pulse list `lines`, checks it against `reference` (the circuit, or the
+/// sequence compiled from it) with `--locate`, and returns the section named and the
+/// report.
+fn located(dir: &Path, reference: &Path, lines: &[String]) -> (Option<usize>, String) {
     let f = dir.join("edited.pulses");
     std::fs::write(&f, lines.join("\n")).unwrap();
     let o = tutti(&[
         "check",
-        circuit.to_str().unwrap(),
+        reference.to_str().unwrap(),
         f.to_str().unwrap(),
         "--locate",
     ]);
@@ -121,29 +122,47 @@ fn a_single_wrong_pulse_is_located_to_its_section_on_active_and_spare_ions() {
             .find(|&i| pred(&lines[i]))
             .expect("a line to edit")
     };
-    let mut cases: Vec<(&str, Vec<String>, usize)> = Vec::new();
+    // Each case: what, the edited list, its section, where the changed pulse is when
+    // the edited list is compared with the compiled one (which file, its line), and
+    // the ions that pulse names.
+    type Case<'a> = (&'a str, Vec<String>, usize, (&'a str, usize), String);
+    let mut cases: Vec<Case> = Vec::new();
+    let (compiled, edited) = ("three-out.pulses", "edited.pulses");
     // A wrong angle on an active ion, in section 0.
     let i = find(0, cps[0], &|l| l.starts_with("light_shift 0 "));
     let mut m = lines.clone();
     m[i] = "light_shift 0 0.123".into();
-    cases.push(("wrong angle, active ion", m, section_of(i)));
+    cases.push((
+        "wrong angle, active ion",
+        m,
+        section_of(i),
+        (edited, i + 1),
+        "0".into(),
+    ));
     // A light shift moved from an active ion to a spare one, in section 1.
     let i = find(cps[0], cps[1], &|l| l.starts_with("light_shift 1 "));
     let mut m = lines.clone();
     m[i] = m[i].replace("light_shift 1 ", "light_shift 20 ");
-    cases.push(("wrong ion, to a spare ion", m, section_of(i)));
+    cases.push((
+        "wrong ion, to a spare ion",
+        m,
+        section_of(i),
+        (edited, i + 1),
+        "1, 20".into(),
+    ));
     // A missing echo flip, in section 1.
     let i = find(cps[0], cps[1], &|l| {
         l.starts_with("light_shift") && l.ends_with(" pi")
     });
     let mut m = lines.clone();
+    let ion = lines[i].split_whitespace().nth(1).unwrap().to_string();
     m.remove(i);
-    cases.push(("missing flip", m, section_of(i)));
+    cases.push(("missing flip", m, section_of(i), (compiled, i + 1), ion));
     // An extra flip on a spare ion, in section 2.
     let i = cps[1] + 3;
     let mut m = lines.clone();
     m.insert(i, "light_shift 25 pi".into());
-    cases.push(("extra flip, spare ion", m, 2));
+    cases.push(("extra flip, spare ion", m, 2, (edited, i + 1), "25".into()));
     // A changed MS angle inside the echo of section 1: every ion's couplings stop
     // cancelling. Proven with the spare ions held as fields (no 2^40 statevector),
     // and the ions left coupled are named.
@@ -153,15 +172,35 @@ fn a_single_wrong_pulse_is_located_to_its_section_on_active_and_spare_ions() {
     let area: f64 = words[1].parse().expect("a plain number");
     words[1] = format!("{}", area + 1e-3);
     m[i] = words.join(" ");
-    cases.push(("changed MS angle", m, section_of(i)));
+    let every = "every ion (a whole-chain pulse)".to_string();
+    cases.push((
+        "changed MS angle",
+        m,
+        section_of(i),
+        (edited, i + 1),
+        every.clone(),
+    ));
     // A wrong phase of a collective rotation, in section 2.
     let i = find(cps[1], lines.len(), &|l| l.starts_with("chain_rotate"));
     let mut m = lines.clone();
     let mut words: Vec<String> = m[i].split_whitespace().map(str::to_string).collect();
     words[2] = "0.2".into();
     m[i] = words.join(" ");
-    cases.push(("wrong phase", m, section_of(i)));
-    for (what, m, want) in cases {
+    cases.push(("wrong phase", m, section_of(i), (edited, i + 1), every));
+    for (what, m, want, (file, line), ions) in cases {
+        // Against the compiled sequence: the same section, the changed pulse's line
+        // and its ions.
+        let (section, report) = located(tmp.path(), &out, &m);
+        assert_eq!(section, Some(want), "{what}: {report}");
+        assert!(
+            report.contains(&format!("{file}: line {line} (step")),
+            "{what}: want {file} line {line}: {report}"
+        );
+        assert!(
+            report.contains(&format!("  ions         {ions}\n")),
+            "{what}: want ions {ions}: {report}"
+        );
+        // Against the circuit.
         let (section, report) = located(tmp.path(), &c, &m);
         assert_eq!(section, Some(want), "{what}: {report}");
         // Lines on both sides: the circuit's section and the pulse list's.
@@ -200,6 +239,63 @@ fn checkpoint_counts_must_match_and_two_circuits_are_not_located() {
     // the unitary).
     let o = tutti(&["check", c.to_str().unwrap(), fewer.to_str().unwrap()]);
     assert_eq!(o.status.code(), Some(0), "{}", text(&o.stdout));
+    // Two sequences: their checkpoint counts must match too.
+    let o = tutti(&[
+        "check",
+        out.to_str().unwrap(),
+        fewer.to_str().unwrap(),
+        "--locate",
+    ]);
+    assert_eq!(o.status.code(), Some(2));
+    assert!(text(&o.stderr).contains("the first sequence has 2 checkpoint(s) and the second 1"));
+}
+
+/// Two compilations of the same circuit (the optimizer's, in JSON, and the
+/// baseline's pulse list) are equal section by section; the same sequence with one
+/// flip removed is not, and the section, the step and the ion are named (JSON has
+/// no lines: steps only).
+#[test]
+fn two_sequences_are_located_against_each_other() {
+    let tmp = tempfile::tempdir().unwrap();
+    let (c, json) = setup(tmp.path(), "json");
+    let base = tmp.path().join("base.pulses");
+    let o = tutti(&[
+        "compile",
+        c.to_str().unwrap(),
+        "--baseline",
+        "-o",
+        base.to_str().unwrap(),
+    ]);
+    assert_eq!(o.status.code(), Some(0));
+    let o = tutti(&[
+        "check",
+        json.to_str().unwrap(),
+        base.to_str().unwrap(),
+        "--locate",
+    ]);
+    assert_eq!(o.status.code(), Some(0), "{}", text(&o.stdout));
+    assert!(text(&o.stdout).contains("EQUIVALENT section by section (3 sections"));
+    let (_, pulses) = setup(tmp.path(), "pulses");
+    let lines: Vec<String> = std::fs::read_to_string(&pulses)
+        .unwrap()
+        .lines()
+        .map(str::to_string)
+        .collect();
+    let first_cp = lines.iter().position(|l| l == "checkpoint").unwrap();
+    let i = (first_cp..lines.len())
+        .find(|&i| lines[i].starts_with("light_shift") && lines[i].ends_with(" pi"))
+        .unwrap();
+    let ion = lines[i].split_whitespace().nth(1).unwrap().to_string();
+    let mut m = lines.clone();
+    m.remove(i);
+    let (section, report) = located(tmp.path(), &json, &m);
+    assert_eq!(section, Some(1), "{report}");
+    assert!(report.contains("three-out.json: step "), "{report}");
+    assert!(report.contains("edited.pulses: no step"), "{report}");
+    assert!(
+        report.contains(&format!("  ions         {ion}\n")),
+        "{report}"
+    );
 }
 
 #[test]

@@ -305,6 +305,9 @@ pub(super) enum Command {
         /// Name the first section where the two part: a circuit's barriers and a
         /// sequence's checkpoints (matched in order) cut both into sections, compared
         /// one by one; the first that differs is given with its lines on both sides.
+        /// Two sequences (a hand-edited one against the one compiled) are matched
+        /// checkpoint by checkpoint, and the steps that differ in that section are
+        /// named too, with their lines and ions.
         #[arg(long)]
         locate: bool,
         /// Take each sequence as it runs under the light-shift crosstalk of this

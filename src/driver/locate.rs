@@ -1,11 +1,13 @@
-//! `check --locate`: where a sequence first parts from its circuit. Checkpoints are
-//! the circuit's barriers and the sequence's checkpoint lines (pulse list
-//! `checkpoint`, QASM output `barrier q;`, JSON `checkpoints`), matched in order:
-//! the k-th of each side correspond. The sections between them are compared one by
+//! `check --locate`: where a sequence first parts from its circuit, or from another
+//! sequence (a hand-edited one from the one compiled). Checkpoints are the circuit's
+//! barriers and the sequence's checkpoint lines (pulse list `checkpoint`, QASM
+//! output `barrier q;`, JSON `checkpoints`), matched in order: the k-th of each
+//! side correspond. The sections between them are compared one by
 //! one (window by window, so a section equal on both sides is proven equal), and
 //! the first that differs is named with its lines on both sides.
 
 use super::*;
+use crate::native::NativeOp;
 use std::fmt::Write as _;
 
 /// Where two programs part, or that they do not.
@@ -17,6 +19,23 @@ pub struct Located {
     pub verdict: WindowVerdict,
     /// The first section that differs, when one does.
     pub section: Option<Section>,
+    /// Between two sequences: the steps of that section that differ (what is left
+    /// when the steps both sides share at its start and end are set aside).
+    pub changed: Option<Changed>,
+}
+
+/// The steps of a section that differ between two sequences: half-open step ranges
+/// on each side, their lines where the format has lines, and the ions they act on.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Changed {
+    pub first: (usize, usize),
+    pub second: (usize, usize),
+    pub first_lines: Option<(usize, usize)>,
+    pub second_lines: Option<(usize, usize)>,
+    /// Ions named by the differing steps; `every_ion` when one of them acts on the
+    /// whole chain (a collective rotation, a frame change, a chain MS pulse).
+    pub ions: Vec<u32>,
+    pub every_ion: bool,
 }
 
 /// A section of both files: its number (0: before the first checkpoint), and the
@@ -80,9 +99,12 @@ pub fn locate(a: &Path, b: &Path, limits: &Limits, cfg: &CheckConfig) -> Result<
     let (circuit, ctext, seq, spath, stext, swapped) = match (la, lb) {
         (Loaded::Circuit(c), Loaded::Sequence(s)) => (c, ta, s, b, tb, false),
         (Loaded::Sequence(s), Loaded::Circuit(c)) => (c, tb, s, a, ta, true),
-        _ => {
+        (Loaded::Sequence(sa), Loaded::Sequence(sb)) => {
+            return locate_sequences((&sa, a, &ta), (&sb, b, &tb), cfg)
+        }
+        (Loaded::Circuit(_), Loaded::Circuit(_)) => {
             return Err(
-                "error: --locate compares a circuit with a sequence (one of each); two circuits or two sequences are not supported yet\n"
+                "error: --locate compares a sequence with its circuit or with another sequence; two circuits are not supported\n"
                     .into(),
             )
         }
@@ -119,19 +141,7 @@ pub fn locate(a: &Path, b: &Path, limits: &Limits, cfg: &CheckConfig) -> Result<
         .map_err(|e| format!("error: {e}\n"))?;
     let section = verdict.first_difference.map(|k| {
         let c_lines = span(&lines_of(&ctext, "barrier", true), k, ctext.lines().count());
-        let s_lines = match Format::sniff(spath, &stext) {
-            Format::Json => None,
-            Format::Qasm => Some(span(
-                &lines_of(&stext, "barrier", true),
-                k,
-                stext.lines().count(),
-            )),
-            Format::Pulses => Some(span(
-                &lines_of(&stext, crate::native::text::CHECKPOINT, false),
-                k,
-                stext.lines().count(),
-            )),
-        };
+        let s_lines = sequence_lines(spath, &stext, k);
         let (first, second) = if swapped {
             (s_lines, Some(c_lines))
         } else {
@@ -147,7 +157,163 @@ pub fn locate(a: &Path, b: &Path, limits: &Limits, cfg: &CheckConfig) -> Result<
         sections: sync.len(),
         verdict,
         section,
+        changed: None,
     })
+}
+
+/// The lines section `k` spans in a sequence file (`None` for JSON, which has no
+/// lines to speak of).
+fn sequence_lines(path: &Path, text: &str, k: usize) -> Option<(usize, usize)> {
+    let word = match Format::sniff(path, text) {
+        Format::Json => return None,
+        Format::Qasm => "barrier",
+        Format::Pulses => crate::native::text::CHECKPOINT,
+    };
+    let qasm = word == "barrier";
+    Some(span(&lines_of(text, word, qasm), k, text.lines().count()))
+}
+
+/// Compares two sequences section by section, their k-th checkpoints matched.
+fn locate_sequences(
+    (sa, pa, ta): (&Sequence, &Path, &str),
+    (sb, pb, tb): (&Sequence, &Path, &str),
+    cfg: &CheckConfig,
+) -> Result<Located, String> {
+    if sa.checkpoints.len() != sb.checkpoints.len() {
+        return Err(format!(
+            "error: the first sequence has {} checkpoint(s) and the second {}; --locate matches the k-th of each, so they must be as many\n",
+            sa.checkpoints.len(),
+            sb.checkpoints.len()
+        ));
+    }
+    let mut cuts: Vec<(usize, usize)> = sa
+        .checkpoints
+        .iter()
+        .copied()
+        .zip(sb.checkpoints.iter().copied())
+        .collect();
+    cuts.push((sa.steps.len(), sb.steps.len()));
+    let verdict = crate::sim::check_sequence_windows(sa, sb, &cuts, cfg)
+        .map_err(|e| format!("error: {e}\n"))?;
+    let section = verdict.first_difference.map(|k| Section {
+        index: k,
+        first: sequence_lines(pa, ta, k),
+        second: sequence_lines(pb, tb, k),
+    });
+    let changed = verdict.first_difference.map(|k| {
+        let start = |c: &[usize], k: usize| if k == 0 { 0 } else { c[k - 1] };
+        let ra = (start(&sa.checkpoints, k), cuts[k].0);
+        let rb = (start(&sb.checkpoints, k), cuts[k].1);
+        changed_steps((sa, pa, ta, ra), (sb, pb, tb, rb))
+    });
+    Ok(Located {
+        sections: cuts.len(),
+        verdict,
+        section,
+        changed,
+    })
+}
+
+/// The differing steps of two step ranges: the ranges less their common start and
+/// common end.
+fn changed_steps(
+    (sa, pa, ta, ra): (&Sequence, &Path, &str, (usize, usize)),
+    (sb, pb, tb, rb): (&Sequence, &Path, &str, (usize, usize)),
+) -> Changed {
+    let (xa, xb) = (&sa.steps[ra.0..ra.1], &sb.steps[rb.0..rb.1]);
+    let head = xa.iter().zip(xb).take_while(|(x, y)| alike(x, y)).count();
+    let tail = xa[head..]
+        .iter()
+        .rev()
+        .zip(xb[head..].iter().rev())
+        .take_while(|(x, y)| alike(x, y))
+        .count();
+    let first = (ra.0 + head, ra.1 - tail);
+    let second = (rb.0 + head, rb.1 - tail);
+    let mut ions = Vec::new();
+    let mut every_ion = false;
+    for step in sa.steps[first.0..first.1]
+        .iter()
+        .chain(&sb.steps[second.0..second.1])
+    {
+        match step.op {
+            NativeOp::Collective { .. } | NativeOp::Ms { .. } | NativeOp::VirtualZ { .. } => {
+                every_ion = true
+            }
+            NativeOp::PairMs { a, b, .. } => ions.extend([a, b]),
+            NativeOp::LightShift { ion, .. }
+            | NativeOp::Addressed { ion, .. }
+            | NativeOp::Hide { ion }
+            | NativeOp::Unhide { ion }
+            | NativeOp::Measure { ion, .. }
+            | NativeOp::Reset { ion } => ions.push(ion),
+        }
+    }
+    ions.sort_unstable();
+    ions.dedup();
+    Changed {
+        first,
+        second,
+        first_lines: step_lines(pa, ta, first),
+        second_lines: step_lines(pb, tb, second),
+        ions,
+        every_ion,
+    }
+}
+
+/// Whether two steps are the same operation, angles within 1e-12 rad (the formats
+/// round-trip angles to about an ulp, so a file and its copy in another format may
+/// differ in the last digit). Used only to point at what changed, never for a
+/// verdict.
+fn alike(x: &crate::native::Step, y: &crate::native::Step) -> bool {
+    use NativeOp as N;
+    let near = |a: f64, b: f64| (a - b).abs() <= 1e-12;
+    let ops = match (x.op, y.op) {
+        (N::Collective { theta: a, phi: p }, N::Collective { theta: b, phi: q })
+        | (N::Ms { theta: a, phi: p }, N::Ms { theta: b, phi: q }) => near(a, b) && near(p, q),
+        (N::LightShift { ion: i, theta: a }, N::LightShift { ion: j, theta: b }) => {
+            i == j && near(a, b)
+        }
+        (N::VirtualZ { theta: a }, N::VirtualZ { theta: b }) => near(a, b),
+        (
+            N::PairMs {
+                a: i,
+                b: j,
+                theta: a,
+                phi: p,
+            },
+            N::PairMs {
+                a: k,
+                b: l,
+                theta: b,
+                phi: q,
+            },
+        ) => i == k && j == l && near(a, b) && near(p, q),
+        (
+            N::Addressed {
+                ion: i,
+                theta: a,
+                phi: p,
+            },
+            N::Addressed {
+                ion: j,
+                theta: b,
+                phi: q,
+            },
+        ) => i == j && near(a, b) && near(p, q),
+        (a, b) => a == b,
+    };
+    ops && x.condition == y.condition
+}
+
+/// The lines of a half-open step range in a pulse list (`None` for other formats,
+/// or for an empty range).
+fn step_lines(path: &Path, text: &str, (from, to): (usize, usize)) -> Option<(usize, usize)> {
+    if to <= from || Format::sniff(path, text) != Format::Pulses {
+        return None;
+    }
+    let lines = crate::native::text::pulse_step_lines(text);
+    Some((*lines.get(from)?, *lines.get(to - 1)?))
 }
 
 /// What `check --locate` prints: equal section by section, or the first section
@@ -194,6 +360,33 @@ pub fn located_text(
         let _ = writeln!(out, "  section      {k}: {what}");
         let _ = writeln!(out, "  first        {}", place(a, la));
         let _ = writeln!(out, "  second       {}", place(b, lb));
+    }
+    if let Some(c) = &l.changed {
+        let side =
+            |p: &std::path::Path, (from, to): (usize, usize), lines: Option<(usize, usize)>| {
+                let steps = match to - from {
+                    0 => "no step".to_string(),
+                    1 => format!("step {}", from + 1),
+                    _ => format!("steps {} to {}", from + 1, to),
+                };
+                match lines {
+                    Some((x, y)) if x == y => format!("{}: line {x} ({steps})", p.display()),
+                    Some((x, y)) => format!("{}: lines {x} to {y} ({steps})", p.display()),
+                    None => format!("{}: {steps}", p.display()),
+                }
+            };
+        let _ = writeln!(out, "  changed      {}", side(a, c.first, c.first_lines));
+        let _ = writeln!(out, "               {}", side(b, c.second, c.second_lines));
+        let mut ions: Vec<String> = c.ions.iter().take(12).map(|i| i.to_string()).collect();
+        if c.ions.len() > 12 {
+            ions.push(format!("and {} more", c.ions.len() - 12));
+        }
+        if c.every_ion {
+            ions.push("every ion (a whole-chain pulse)".into());
+        }
+        if !ions.is_empty() {
+            let _ = writeln!(out, "  ions         {}", ions.join(", "));
+        }
     }
     let _ = writeln!(out, "  detail       {}", v.detail);
     out

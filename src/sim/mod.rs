@@ -13,9 +13,9 @@ pub mod state;
 pub mod tableau;
 
 pub use equiv::{
-    check, check_counted, check_windows, check_windows_counted, derived_tolerance,
-    sync_points_from_origin, CheckConfig, CheckError, Mode, SyncPoint, Verdict, WindowVerdict,
-    WorkCounter,
+    check, check_counted, check_sequence_windows, check_windows, check_windows_counted,
+    derived_tolerance, sync_points_from_origin, CheckConfig, CheckError, Mode, SyncPoint, Verdict,
+    WindowVerdict, WorkCounter,
 };
 pub use program::{Item, Kernel, Program};
 pub use simd::set_vector_kernels;

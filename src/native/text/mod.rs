@@ -204,6 +204,25 @@ pub fn read_pulses(name: &str, text: &str) -> SeqOutcome {
 
 type LineError = (String, &'static str);
 
+/// The 1-based line of each step of a pulse list (as [`read_pulses`] reads it;
+/// lines that do not parse are skipped, so the list is meant for a file that reads).
+pub fn pulse_step_lines(text: &str) -> Vec<usize> {
+    let mut seq = Sequence::default();
+    let mut have_ions = false;
+    let mut out = Vec::new();
+    for (n, raw) in text.lines().enumerate() {
+        let content = raw.split('#').next().unwrap_or("").trim();
+        if content.is_empty() {
+            continue;
+        }
+        let before = seq.steps.len();
+        if parse_line(content, &mut seq, &mut have_ions).is_ok() && seq.steps.len() > before {
+            out.push(n + 1);
+        }
+    }
+    out
+}
+
 /// The line of a pulse list that marks a checkpoint (numbered by its order).
 pub const CHECKPOINT: &str = "checkpoint";
 

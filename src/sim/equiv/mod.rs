@@ -26,8 +26,8 @@ mod witness;
 
 pub use modes::{derived_tolerance, random_tolerance, ROUNDING_PER_TOUCH, TOLERANCE_FLOOR};
 pub use windowed::{
-    check_windows, check_windows_counted, sync_points_from_origin, SyncPoint, WindowVerdict,
-    WorkCounter,
+    check_sequence_windows, check_windows, check_windows_counted, sync_points_from_origin,
+    SyncPoint, WindowVerdict, WorkCounter,
 };
 
 use crate::sim::program::{LowerError, Program};

@@ -149,46 +149,9 @@ pub fn check_windows_counted(
     }
     let (program, starts) = Program::from_circuit_with_starts(circuit)?;
     let n_ions = seq.n_ions;
-    // Which ions are hidden at the start of each window: one sequential scan.
-    let mut hidden_at = Vec::with_capacity(bounds.len());
-    let mut hidden = Arc::new(vec![false; n_ions as usize]);
-    for w in bounds.windows(2) {
-        hidden_at.push(Arc::clone(&hidden));
-        for step in &seq.steps[w[0].steps..w[1].steps] {
-            match step.op {
-                NativeOp::Hide { ion } => Arc::make_mut(&mut hidden)[ion as usize] = true,
-                NativeOp::Unhide { ion } => Arc::make_mut(&mut hidden)[ion as usize] = false,
-                _ => {}
-            }
-        }
-    }
+    let hidden_at = hidden_at_starts(seq, bounds.windows(2).map(|w| (w[0].steps, w[1].steps)));
     let n_windows = bounds.len() - 1;
-    // Windows are compared on rayon's workers, where a shared pool cannot be waited
-    // for: the memory of as many windows as run at once is reserved here, on the
-    // caller's thread, and each window gets its share as its own budget.
-    let (cfg, _grant) = match &cfg.pool {
-        Some(pool) => {
-            let threads = rayon::current_num_threads().clamp(1, n_windows.max(1));
-            let share = WINDOW_MEMORY
-                .min(cfg.memory_budget)
-                .min(pool.0.total() / threads);
-            let grant = pool
-                .0
-                .reserve(share * threads)
-                .map_err(|_| CheckError::TooLarge {
-                    qubits: 0,
-                    needed: share * threads,
-                    budget: pool.0.total(),
-                })?;
-            let inner = CheckConfig {
-                pool: None,
-                memory_budget: share,
-                ..cfg.clone()
-            };
-            (inner, Some(grant))
-        }
-        None => (cfg.clone(), None),
-    };
+    let (cfg, _grant) = window_config(cfg, n_windows)?;
     let cfg = &cfg;
     counter.done.store(0, Ordering::Relaxed);
     counter.total.store(n_windows, Ordering::Relaxed);
@@ -209,34 +172,96 @@ pub fn check_windows_counted(
             }
             let v = check(&a, &b, cfg)?;
             counter.done.fetch_add(1, Ordering::Relaxed);
-            let place = if to.instrs == from.instrs + 1 {
-                format!("instruction {}", to.instrs)
-            } else {
-                format!("instructions {} to {}", from.instrs + 1, to.instrs)
-            };
-            Ok(Outcome {
-                equivalent: v.equivalent,
-                mode: v.mode,
-                distance: v.distance,
-                tolerance: v.tolerance,
-                fidelity: v.fidelity,
-                compared: v.compared_qubits,
-                detail: if v.equivalent {
-                    String::new()
+            Ok(outcome(v, || {
+                let place = if to.instrs == from.instrs + 1 {
+                    format!("instruction {}", to.instrs)
                 } else {
-                    format!(
-                        "{place} and steps {} to {} differ: {}",
-                        from.steps + 1,
-                        to.steps,
-                        v.detail
-                    )
-                },
-            })
+                    format!("instructions {} to {}", from.instrs + 1, to.instrs)
+                };
+                format!("{place} and steps {} to {}", from.steps + 1, to.steps)
+            }))
         })
         .collect();
+    fold(outcomes)
+}
+
+/// Which ions are hidden at the start of each window (`(from, to)` step ranges of
+/// `seq`, in order): one sequential scan.
+fn hidden_at_starts(
+    seq: &Sequence,
+    windows: impl Iterator<Item = (usize, usize)>,
+) -> Vec<Arc<Vec<bool>>> {
+    let mut out = Vec::new();
+    let mut hidden = Arc::new(vec![false; seq.n_ions as usize]);
+    for (from, to) in windows {
+        out.push(Arc::clone(&hidden));
+        for step in &seq.steps[from..to] {
+            match step.op {
+                NativeOp::Hide { ion } => Arc::make_mut(&mut hidden)[ion as usize] = true,
+                NativeOp::Unhide { ion } => Arc::make_mut(&mut hidden)[ion as usize] = false,
+                _ => {}
+            }
+        }
+    }
+    out
+}
+
+/// The configuration each window runs with. Windows are compared on rayon's
+/// workers, where a shared pool cannot be waited for: the memory of as many windows
+/// as run at once is reserved here, on the caller's thread, and each window gets its
+/// share as its own budget.
+fn window_config(
+    cfg: &CheckConfig,
+    n_windows: usize,
+) -> Result<(CheckConfig, Option<crate::memory::Grant<'_>>), CheckError> {
+    match &cfg.pool {
+        Some(pool) => {
+            let threads = rayon::current_num_threads().clamp(1, n_windows.max(1));
+            let share = WINDOW_MEMORY
+                .min(cfg.memory_budget)
+                .min(pool.0.total() / threads);
+            let grant = pool
+                .0
+                .reserve(share * threads)
+                .map_err(|_| CheckError::TooLarge {
+                    qubits: 0,
+                    needed: share * threads,
+                    budget: pool.0.total(),
+                })?;
+            let inner = CheckConfig {
+                pool: None,
+                memory_budget: share,
+                ..cfg.clone()
+            };
+            Ok((inner, Some(grant)))
+        }
+        None => Ok((cfg.clone(), None)),
+    }
+}
+
+/// One window's outcome from its verdict; `place` names the window in the detail.
+fn outcome(v: super::Verdict, place: impl FnOnce() -> String) -> Outcome {
+    Outcome {
+        equivalent: v.equivalent,
+        mode: v.mode,
+        distance: v.distance,
+        tolerance: v.tolerance,
+        fidelity: v.fidelity,
+        compared: v.compared_qubits,
+        detail: if v.equivalent {
+            String::new()
+        } else {
+            format!("{} differ: {}", place(), v.detail)
+        },
+    }
+}
+
+/// The verdict of all windows: equal when every window is, else the first that
+/// differs; the worst distance relative to its tolerance.
+fn fold(outcomes: Vec<Result<Outcome, CheckError>>) -> Result<WindowVerdict, CheckError> {
     let mut out = WindowVerdict {
         equivalent: true,
-        windows: n_windows,
+        windows: outcomes.len(),
         mode: Mode::Tableau,
         distance: Some(0.0),
         tolerance: super::TOLERANCE_FLOOR,
@@ -272,4 +297,69 @@ pub fn check_windows_counted(
         }
     }
     Ok(out)
+}
+
+/// Compares two sequences section by section: `cuts` are the step counts of each
+/// side at the end of each section (non-decreasing on both sides, the last covering
+/// both whole sequences). Hidden ions carry across sections on each side; an ion
+/// still hidden at the end is a fault.
+pub fn check_sequence_windows(
+    a: &Sequence,
+    b: &Sequence,
+    cuts: &[(usize, usize)],
+    cfg: &CheckConfig,
+) -> Result<WindowVerdict, CheckError> {
+    let last = cuts.last().copied().unwrap_or((0, 0));
+    if last != (a.steps.len(), b.steps.len()) {
+        return Err(CheckError::Windows(format!(
+            "the last section ends at steps {} and {}, but the sequences have {} and {}",
+            last.0,
+            last.1,
+            a.steps.len(),
+            b.steps.len()
+        )));
+    }
+    let mut bounds = vec![(0usize, 0usize)];
+    for &c in cuts {
+        let prev = *bounds.last().expect("starts with the origin");
+        if c.0 < prev.0 || c.1 < prev.1 {
+            return Err(CheckError::Windows(format!(
+                "section end ({}, {}) comes before ({}, {})",
+                c.0, c.1, prev.0, prev.1
+            )));
+        }
+        bounds.push(c);
+    }
+    let n_windows = bounds.len() - 1;
+    let hidden_a = hidden_at_starts(a, bounds.windows(2).map(|w| (w[0].0, w[1].0)));
+    let hidden_b = hidden_at_starts(b, bounds.windows(2).map(|w| (w[0].1, w[1].1)));
+    let (cfg, _grant) = window_config(cfg, n_windows)?;
+    let cfg = &cfg;
+    let outcomes: Vec<Result<Outcome, CheckError>> = (0..n_windows)
+        .into_par_iter()
+        .map(|w| {
+            let (from, to) = (bounds[w], bounds[w + 1]);
+            let lower = |s: &Sequence, hidden: &[bool], from: usize, to: usize| {
+                let mut hidden = hidden.to_vec();
+                let mut p = Program::from_steps(s.n_ions, &s.steps[from..to], &mut hidden);
+                if w + 1 == n_windows {
+                    p.faults.extend(still_hidden(&hidden));
+                }
+                p
+            };
+            let pa = lower(a, &hidden_a[w], from.0, to.0);
+            let pb = lower(b, &hidden_b[w], from.1, to.1);
+            let v = check(&pa, &pb, cfg)?;
+            Ok(outcome(v, || {
+                format!(
+                    "steps {} to {} of the first and {} to {} of the second",
+                    from.0 + 1,
+                    to.0,
+                    from.1 + 1,
+                    to.1
+                )
+            }))
+        })
+        .collect();
+    fold(outcomes)
 }

@@ -158,6 +158,57 @@ fn a_single_wrong_pulse_is_located_to_its_section_on_active_and_spare_ions() {
     let ion = lines[i].split_whitespace().nth(1).unwrap().to_string();
     m.remove(i);
     cases.push(("missing flip", m, section_of(i), (compiled, i + 1), ion));
+    // A spare ion's echo flip with a wrong angle, in section 1.
+    let spare_flip = |l: &str| {
+        let w: Vec<&str> = l.split_whitespace().collect();
+        w.len() == 3 && w[0] == "light_shift" && w[2] == "pi" && w[1].parse::<u32>().unwrap() >= 3
+    };
+    let i = find(cps[0], cps[1], &spare_flip);
+    let mut m = lines.clone();
+    let ion = lines[i].split_whitespace().nth(1).unwrap().to_string();
+    m[i] = format!("light_shift {ion} 2.9");
+    cases.push((
+        "wrong angle, spare ion",
+        m,
+        section_of(i),
+        (edited, i + 1),
+        ion.clone(),
+    ));
+    // A spare ion's flip moved to an active ion, in section 1.
+    let mut m = lines.clone();
+    m[i] = "light_shift 2 pi".into();
+    cases.push((
+        "wrong ion, to an active ion",
+        m,
+        section_of(i),
+        (edited, i + 1),
+        format!("2, {ion}"),
+    ));
+    // A missing flip of a spare ion, and of an active one, in section 1.
+    let mut m = lines.clone();
+    m.remove(i);
+    cases.push((
+        "missing flip, spare ion",
+        m,
+        section_of(i),
+        (compiled, i + 1),
+        ion,
+    ));
+    let i = find(cps[0], cps[1], &|l| l == "light_shift 2 pi");
+    let mut m = lines.clone();
+    m.remove(i);
+    cases.push((
+        "missing flip, active ion",
+        m,
+        section_of(i),
+        (compiled, i + 1),
+        "2".into(),
+    ));
+    // An extra flip on an active ion, in section 2.
+    let i = cps[1] + 3;
+    let mut m = lines.clone();
+    m.insert(i, "light_shift 1 pi".into());
+    cases.push(("extra flip, active ion", m, 2, (edited, i + 1), "1".into()));
     // An extra flip on a spare ion, in section 2.
     let i = cps[1] + 3;
     let mut m = lines.clone();
@@ -210,6 +261,30 @@ fn a_single_wrong_pulse_is_located_to_its_section_on_active_and_spare_ions() {
             assert!(report.contains("are left coupled"), "{report}");
             assert!(report.contains("held as fixed fields"), "{report}");
         }
+    }
+    // A wrong phase of an MS pulse turns the interaction axis of every ion at once:
+    // no ion stays an eigenstate of its interactions to be held as a field, no
+    // tableau applies, and 2^40 amplitudes do not fit. The honest answer is a
+    // refusal (exit 2) that says what was tried, never a guess. (A known limit:
+    // docs/checker.md.)
+    let i = find(cps[0], cps[1], &|l| l.starts_with("chain_ms "));
+    let mut m = lines.clone();
+    let mut words: Vec<String> = m[i].split_whitespace().map(str::to_string).collect();
+    words.truncate(2);
+    words.push("0.2".into());
+    m[i] = words.join(" ");
+    for reference in [&c, &out] {
+        let f = tmp.path().join("edited.pulses");
+        std::fs::write(&f, m.join("\n")).unwrap();
+        let o = tutti(&[
+            "check",
+            reference.to_str().unwrap(),
+            f.to_str().unwrap(),
+            "--locate",
+        ]);
+        let err = text(&o.stderr);
+        assert_eq!(o.status.code(), Some(2), "{}{err}", text(&o.stdout));
+        assert!(err.contains("could be held as a fixed field"), "{err}");
     }
 }
 

@@ -234,9 +234,9 @@ impl Plan {
                 (Role::Simulated, _) | (_, Role::Simulated) => None,
                 (a, b) => match (a.start(), b.start()) {
                     (Some(x), Some(y)) => {
-                        // Both interact: the same start state, up to a phase.
-                        let overlap = inner2(&x, &y).norm();
-                        (1.0 - overlap <= EIGEN_EPS).then_some(x)
+                        // Both interact: the same start state, up to a phase (the
+                        // amplitude of one orthogonal to the other, as for `project`).
+                        (inner2(&perp(&x), &y).norm() <= EIGEN_EPS).then_some(x)
                     }
                     (Some(x), None) | (None, Some(x)) => Some(x),
                     (None, None) => Some([C64::new(1.0, 0.0), C64::new(0.0, 0.0)]),

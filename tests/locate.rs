@@ -263,28 +263,63 @@ fn a_single_wrong_pulse_is_located_to_its_section_on_active_and_spare_ions() {
         }
     }
     // A wrong phase of an MS pulse turns the interaction axis of every ion at once:
-    // no ion stays an eigenstate of its interactions to be held as a field, no
-    // tableau applies, and 2^40 amplitudes do not fit. The honest answer is a
-    // refusal (exit 2) that says what was tried, never a guess. (A known limit:
-    // docs/checker.md.)
+    // against the circuit no ion stays an eigenstate of its interactions to be held
+    // as a field, no tableau applies, and 2^40 amplitudes do not fit. The honest
+    // answer is a refusal (exit 2) that says what was tried, never a guess (a known
+    // limit: docs/checker.md). Against the compiled sequence the steps both share
+    // are set aside, and the two MS pulses left are compared exactly in the spaces
+    // of the collective spin: caught, and a phase off by pi (the same pulse:
+    // `S_{phi+pi}^2 = S_phi^2`) is not.
     let i = find(cps[0], cps[1], &|l| l.starts_with("chain_ms "));
-    let mut m = lines.clone();
-    let mut words: Vec<String> = m[i].split_whitespace().map(str::to_string).collect();
-    words.truncate(2);
-    words.push("0.2".into());
-    m[i] = words.join(" ");
-    for reference in [&c, &out] {
-        let f = tmp.path().join("edited.pulses");
-        std::fs::write(&f, m.join("\n")).unwrap();
-        let o = tutti(&[
-            "check",
-            reference.to_str().unwrap(),
-            f.to_str().unwrap(),
-            "--locate",
-        ]);
-        let err = text(&o.stderr);
-        assert_eq!(o.status.code(), Some(2), "{}{err}", text(&o.stdout));
-        assert!(err.contains("could be held as a fixed field"), "{err}");
+    let with_phase = |phase: &str| {
+        let mut m = lines.clone();
+        let mut words: Vec<String> = m[i].split_whitespace().map(str::to_string).collect();
+        words.truncate(2);
+        words.push(phase.into());
+        m[i] = words.join(" ");
+        m
+    };
+    let m = with_phase("0.2");
+    let f = tmp.path().join("edited.pulses");
+    std::fs::write(&f, m.join("\n")).unwrap();
+    let o = tutti(&[
+        "check",
+        c.to_str().unwrap(),
+        f.to_str().unwrap(),
+        "--locate",
+    ]);
+    let err = text(&o.stderr);
+    assert_eq!(o.status.code(), Some(2), "{}{err}", text(&o.stdout));
+    assert!(err.contains("could be held as a fixed field"), "{err}");
+    for (phase, equal) in [("0.2", false), ("1e-9", false), ("pi", true)] {
+        let (code, report) = {
+            std::fs::write(&f, with_phase(phase).join("\n")).unwrap();
+            let o = tutti(&[
+                "check",
+                out.to_str().unwrap(),
+                f.to_str().unwrap(),
+                "--locate",
+            ]);
+            (
+                o.status.code(),
+                format!("{}{}", text(&o.stdout), text(&o.stderr)),
+            )
+        };
+        if equal {
+            assert_eq!(code, Some(0), "phase {phase}: {report}");
+            assert!(report.contains("mode spin"), "{report}");
+        } else {
+            assert_eq!(code, Some(1), "phase {phase}: {report}");
+            assert!(report.starts_with(&format!(
+                "NOT EQUIVALENT: they part in section {}",
+                section_of(i)
+            )));
+            assert!(
+                report.contains(&format!("edited.pulses: line {} (step", i + 1)),
+                "{report}"
+            );
+            assert!(report.contains("collective spin"), "{report}");
+        }
     }
 }
 
@@ -380,4 +415,114 @@ fn draw_marks_the_checkpoints() {
     let o = tutti(&["draw", out.to_str().unwrap()]);
     assert_eq!(o.status.code(), Some(0));
     assert_eq!(text(&o.stdout).matches("class=\"checkpoint\"").count(), 2);
+}
+
+/// Without barriers and checkpoints, a sequence is aligned with its circuit through
+/// the compile trace it carries (`trace N` lines; JSON `trace`): the baseline has a
+/// trace point after every instruction, so a wrong pulse is located to the
+/// instruction it belongs to. The trace is trusted only for the circuit it was made
+/// from.
+#[test]
+fn without_checkpoints_the_compile_trace_locates_the_instruction() {
+    let tmp = tempfile::tempdir().unwrap();
+    let c = tmp.path().join("plain.qasm");
+    let body = CIRCUIT
+        .replace("barrier q;\n", "")
+        .replace("barrier q[0],q[1];\n", "");
+    std::fs::write(&c, &body).unwrap();
+    let mut outs = Vec::new();
+    for format in ["pulses", "json"] {
+        let out = tmp.path().join(format!("plain.{format}"));
+        let o = tutti(&[
+            "compile",
+            c.to_str().unwrap(),
+            "--baseline",
+            "-o",
+            out.to_str().unwrap(),
+        ]);
+        assert_eq!(o.status.code(), Some(0), "{}", text(&o.stderr));
+        let (loaded, _) = tutti::driver::load(&out, &Default::default()).unwrap();
+        let tutti::driver::Loaded::Sequence(seq) = loaded else {
+            panic!("{format}: not a sequence")
+        };
+        // One point after each of the 5 instructions but the last.
+        assert_eq!(
+            seq.trace.iter().map(|t| t.instrs).collect::<Vec<_>>(),
+            vec![1, 2, 3, 4],
+            "{format}"
+        );
+        outs.push((out, seq.trace.clone()));
+        let o = tutti(&[
+            "check",
+            c.to_str().unwrap(),
+            outs.last().unwrap().0.to_str().unwrap(),
+            "--locate",
+        ]);
+        assert_eq!(o.status.code(), Some(0), "{}", text(&o.stdout));
+        assert!(text(&o.stdout).contains("5 sections between trace points"));
+    }
+    assert_eq!(outs[0].1, outs[1].1, "the same trace in both formats");
+    // A wrong light shift on ion 1 within the pulses of instruction 4, cx q[1],q[2].
+    let lines: Vec<String> = std::fs::read_to_string(&outs[0].0)
+        .unwrap()
+        .lines()
+        .map(str::to_string)
+        .collect();
+    let after3 = lines.iter().position(|l| l == "trace 3").unwrap();
+    let i = (after3..lines.len())
+        .find(|&i| lines[i].starts_with("light_shift 2 "))
+        .unwrap();
+    assert!(lines[i..].iter().any(|l| l == "trace 4"));
+    let mut m = lines.clone();
+    m[i] = "light_shift 2 0.77".into();
+    let f = tmp.path().join("edited.pulses");
+    std::fs::write(&f, m.join("\n")).unwrap();
+    let o = tutti(&[
+        "check",
+        c.to_str().unwrap(),
+        f.to_str().unwrap(),
+        "--locate",
+    ]);
+    let report = text(&o.stdout);
+    assert_eq!(o.status.code(), Some(1), "{report}{}", text(&o.stderr));
+    assert!(
+        report.starts_with("NOT EQUIVALENT: they part at instruction 4 of the circuit"),
+        "{report}"
+    );
+    assert!(
+        report.contains("plain.qasm: instruction 4: cx q[1],q[2];"),
+        "{report}"
+    );
+    let from = after3 + 2;
+    assert!(
+        report.contains(&format!("edited.pulses: lines {from} to ")),
+        "{report}"
+    );
+    // Against another circuit, the trace is not used: exit 2, saying why.
+    let other = tmp.path().join("other.qasm");
+    std::fs::write(&other, body.replace("rz(0.3)", "rz(0.4)")).unwrap();
+    let o = tutti(&[
+        "check",
+        other.to_str().unwrap(),
+        f.to_str().unwrap(),
+        "--locate",
+    ]);
+    assert_eq!(o.status.code(), Some(2));
+    assert!(text(&o.stderr).contains("trace was made from a circuit with SHA-256"));
+    // Malformed trace lines are located errors.
+    for (bad, want) in [
+        ("trace x", "is not an instruction count"),
+        ("trace 1", "does not come after"),
+    ] {
+        let mut m = lines.clone();
+        m.insert(after3 + 1, bad.to_string());
+        std::fs::write(&f, m.join("\n")).unwrap();
+        let o = tutti(&["check", c.to_str().unwrap(), f.to_str().unwrap()]);
+        assert_eq!(o.status.code(), Some(2), "{bad}");
+        let err = text(&o.stderr);
+        assert!(
+            err.contains(want) && err.contains(&format!("edited.pulses:{}", after3 + 2)),
+            "{bad}: {err}"
+        );
+    }
 }

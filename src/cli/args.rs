@@ -307,7 +307,8 @@ pub(super) enum Command {
         /// one by one; the first that differs is given with its lines on both sides.
         /// Two sequences (a hand-edited one against the one compiled) are matched
         /// checkpoint by checkpoint, and the steps that differ in that section are
-        /// named too, with their lines and ions.
+        /// named too, with their lines and ions. Without checkpoints, a sequence and
+        /// the circuit it was compiled from are aligned by its compile trace.
         #[arg(long)]
         locate: bool,
         /// Take each sequence as it runs under the light-shift crosstalk of this

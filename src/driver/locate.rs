@@ -22,6 +22,25 @@ pub struct Located {
     /// Between two sequences: the steps of that section that differ (what is left
     /// when the steps both sides share at its start and end are set aside).
     pub changed: Option<Changed>,
+    /// Set when the sections are the windows of the compile trace (a sequence and
+    /// its circuit without checkpoints): the first differing window's instructions
+    /// (half-open, 0-based) and their text.
+    pub traced: Option<Traced>,
+    /// Whether the sections are the trace's windows, and whether the circuit was
+    /// the first file given.
+    pub by_trace: bool,
+    pub circuit_first: bool,
+}
+
+/// The window of the compile trace where a sequence first parts from its circuit.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Traced {
+    pub instrs: (usize, usize),
+    /// The instructions as OpenQASM (at most a few; the count of the rest).
+    pub text: String,
+    /// The window's steps (half-open, 0-based) and their pulse-list lines.
+    pub steps: (usize, usize),
+    pub lines: Option<(usize, usize)>,
 }
 
 /// The steps of a section that differ between two sequences: half-open step ranges
@@ -116,6 +135,12 @@ pub fn locate(a: &Path, b: &Path, limits: &Limits, cfg: &CheckConfig) -> Result<
         .filter(|(_, i)| matches!(i.op, crate::circuit::Op::Barrier { .. }))
         .map(|(k, _)| k)
         .collect();
+    if barriers.is_empty() && seq.checkpoints.is_empty() && !seq.trace.is_empty() {
+        return locate_by_trace(&circuit, &ctext, &seq, spath, &stext, cfg).map(|l| Located {
+            circuit_first: !swapped,
+            ..l
+        });
+    }
     if barriers.len() != seq.checkpoints.len() {
         return Err(format!(
             "error: the circuit has {} barrier(s) and the sequence {} checkpoint(s); --locate matches the k-th of each, so they must be as many\n",
@@ -158,6 +183,9 @@ pub fn locate(a: &Path, b: &Path, limits: &Limits, cfg: &CheckConfig) -> Result<
         verdict,
         section,
         changed: None,
+        traced: None,
+        by_trace: false,
+        circuit_first: !swapped,
     })
 }
 
@@ -211,6 +239,9 @@ fn locate_sequences(
         verdict,
         section,
         changed,
+        traced: None,
+        by_trace: false,
+        circuit_first: false,
     })
 }
 
@@ -316,6 +347,125 @@ fn step_lines(path: &Path, text: &str, (from, to): (usize, usize)) -> Option<(us
     Some((*lines.get(from)?, *lines.get(to - 1)?))
 }
 
+/// Compares a sequence with its circuit window by window along the compile trace
+/// the sequence carries, when neither has checkpoints. The trace is the compiler's
+/// claim; it is trusted only for the circuit it was made from (the SHA-256 the
+/// sequence records), and every window is then proven like any other.
+fn locate_by_trace(
+    circuit: &Circuit,
+    ctext: &str,
+    seq: &Sequence,
+    spath: &Path,
+    stext: &str,
+    cfg: &CheckConfig,
+) -> Result<Located, String> {
+    if let Some(p) = &seq.provenance {
+        let digest = crate::driver::sha256_hex(ctext.as_bytes());
+        if !p.source_sha256.is_empty() && p.source_sha256 != digest {
+            return Err(format!(
+                "error: the sequence's trace was made from a circuit with SHA-256 {}, not this file ({digest}); put barriers in the circuit and checkpoints in the sequence to locate against another circuit\n",
+                p.source_sha256
+            ));
+        }
+    }
+    let mut sync = seq.trace.clone();
+    let fits = sync
+        .windows(2)
+        .all(|w| w[0].instrs < w[1].instrs && w[0].steps <= w[1].steps)
+        && sync
+            .last()
+            .is_some_and(|t| t.instrs < circuit.instrs.len() && t.steps <= seq.steps.len());
+    if !fits {
+        return Err(format!(
+            "error: the sequence's trace does not fit this circuit of {} instruction(s) (it names instructions up to {})\n",
+            circuit.instrs.len(),
+            sync.last().map_or(0, |t| t.instrs)
+        ));
+    }
+    sync.push(SyncPoint {
+        instrs: circuit.instrs.len(),
+        steps: seq.steps.len(),
+    });
+    let verdict =
+        crate::sim::check_windows(circuit, seq, &sync, cfg).map_err(|e| format!("error: {e}\n"))?;
+    let traced = verdict.first_difference.map(|k| {
+        let from = if k == 0 {
+            SyncPoint {
+                instrs: 0,
+                steps: 0,
+            }
+        } else {
+            sync[k - 1]
+        };
+        let to = sync[k];
+        Traced {
+            instrs: (from.instrs, to.instrs),
+            text: instructions_text(circuit, from.instrs..to.instrs),
+            steps: (from.steps, to.steps),
+            lines: step_lines(spath, stext, (from.steps, to.steps)),
+        }
+    });
+    Ok(Located {
+        sections: sync.len(),
+        verdict,
+        section: None,
+        changed: None,
+        traced,
+        by_trace: true,
+        circuit_first: true,
+    })
+}
+
+/// Instructions of a circuit as OpenQASM statements, at most six of them.
+fn instructions_text(c: &Circuit, range: std::ops::Range<usize>) -> String {
+    use crate::circuit::Op;
+    let qubit = |q: crate::circuit::Qubit| register_name(&c.qregs, q.0);
+    let bit = |b: crate::circuit::Clbit| register_name(&c.cregs, b.0);
+    let mut parts = Vec::new();
+    for instr in &c.instrs[range.clone()] {
+        if parts.len() == 6 {
+            parts.push(format!("and {} more", range.len() - 6));
+            break;
+        }
+        let body = match &instr.op {
+            Op::Gate { gate, qubits } => {
+                let params = if gate.params().is_empty() {
+                    String::new()
+                } else {
+                    let p: Vec<String> = gate.params().iter().map(|x| format!("{x}")).collect();
+                    format!("({})", p.join(","))
+                };
+                let q: Vec<String> = qubits.iter().map(|&q| qubit(q)).collect();
+                format!("{}{params} {}", gate.kind.name(), q.join(","))
+            }
+            Op::Opaque { decl, qubits, .. } => {
+                let q: Vec<String> = qubits.iter().map(|&q| qubit(q)).collect();
+                format!("{} {}", c.opaque[*decl as usize].name, q.join(","))
+            }
+            Op::Barrier { qubits } => {
+                let q: Vec<String> = qubits.iter().map(|&q| qubit(q)).collect();
+                format!("barrier {}", q.join(","))
+            }
+            Op::Measure { qubit: q, clbit } => format!("measure {} -> {}", qubit(*q), bit(*clbit)),
+            Op::Reset { qubit: q } => format!("reset {}", qubit(*q)),
+        };
+        let cond = instr.condition.as_ref().map_or(String::new(), |k| {
+            format!("if({}=={}) ", c.cregs[k.creg as usize].name, k.value)
+        });
+        parts.push(format!("{cond}{body};"))
+    }
+    parts.join(" ")
+}
+
+/// `name[index]` of a flat qubit or bit index.
+fn register_name(regs: &[crate::circuit::Register], flat: u32) -> String {
+    regs.iter()
+        .find(|r| flat >= r.offset && flat < r.offset + r.size)
+        .map_or(format!("?[{flat}]"), |r| {
+            format!("{}[{}]", r.name, flat - r.offset)
+        })
+}
+
 /// What `check --locate` prints: equal section by section, or the first section
 /// that differs, with its lines in each file and what differs.
 pub fn located_text(
@@ -326,13 +476,48 @@ pub fn located_text(
     let mut out = String::new();
     let v = &l.verdict;
     if v.equivalent {
-        let _ = writeln!(
+        let _ =
+            writeln!(
             out,
-            "EQUIVALENT section by section ({} sections between checkpoints, mode {}, worst distance {})",
+            "EQUIVALENT section by section ({} sections between {}, mode {}, worst distance {})",
             l.sections,
+            if l.by_trace { "trace points" } else { "checkpoints" },
             v.mode.name(),
             fmt_distance(v.distance)
         );
+        return out;
+    }
+    if let Some(t) = &l.traced {
+        let instrs = if t.instrs.1 == t.instrs.0 + 1 {
+            format!("instruction {}", t.instrs.1)
+        } else {
+            format!("instructions {} to {}", t.instrs.0 + 1, t.instrs.1)
+        };
+        let steps = match t.steps.1 - t.steps.0 {
+            0 => "no step".to_string(),
+            1 => format!("step {}", t.steps.1),
+            _ => format!("steps {} to {}", t.steps.0 + 1, t.steps.1),
+        };
+        let _ = writeln!(
+            out,
+            "NOT EQUIVALENT: they part at {instrs} of the circuit (aligned by the compile trace)"
+        );
+        let (circuit, sequence) = if l.circuit_first { (a, b) } else { (b, a) };
+        let _ = writeln!(
+            out,
+            "  circuit      {}: {instrs}: {}",
+            circuit.display(),
+            t.text
+        );
+        let _ = match t.lines {
+            Some((x, y)) => writeln!(
+                out,
+                "  sequence     {}: lines {x} to {y} ({steps})",
+                sequence.display()
+            ),
+            None => writeln!(out, "  sequence     {}: {steps}", sequence.display()),
+        };
+        let _ = writeln!(out, "  detail       {}", v.detail);
         return out;
     }
     let _ = writeln!(

@@ -384,6 +384,12 @@ fn compile_stage(
 ) -> Result<Stage1, DriverError> {
     let (mut sequence, sync, blocks) = compile_one(c, profile, cfg, window_qubits)?;
     sequence.checkpoints = checkpoints_at_barriers(c, &sync);
+    // The trace, less the last point (the whole of both, implied).
+    sequence.trace = sync
+        .iter()
+        .copied()
+        .filter(|s| s.instrs < c.instrs.len())
+        .collect();
     if !cfg.compensate_crosstalk {
         return Ok(Stage1 {
             sequence,

@@ -127,6 +127,7 @@ fn relayer<E>(
     let out = Sequence {
         steps,
         checkpoints: seq.checkpoints.iter().map(|&c| starts[c]).collect(),
+        trace: remap(&seq.trace, &starts),
         ..seq.clone()
     };
     Ok((out, remap(sync, &starts)))

@@ -157,6 +157,12 @@ pub struct Sequence {
     /// where the circuit has a barrier; `check --locate` compares section by section
     /// between them. Not part of the unitary.
     pub checkpoints: Vec<usize>,
+    /// The compile trace: at each point the circuit's first `instrs` instructions
+    /// and the sequence's first `steps` steps are claimed to be the same unitary
+    /// (strictly increasing in instructions, non-decreasing in steps). Written by
+    /// every compile; `check --locate` aligns a sequence with its circuit through it
+    /// when there are no checkpoints. Not part of the unitary.
+    pub trace: Vec<SyncPoint>,
 }
 
 /// Where a compiled sequence came from: written as comments in the pulse list and
@@ -234,6 +240,7 @@ impl Sequence {
             steps: Vec::new(),
             provenance: None,
             checkpoints: Vec::new(),
+            trace: Vec::new(),
         }
     }
 

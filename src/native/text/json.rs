@@ -121,6 +121,9 @@ pub(super) struct JsonSequence {
     /// Checkpoint `k` lies before step `checkpoints[k]` (0-based).
     #[serde(default, skip_serializing_if = "Vec::is_empty")]
     checkpoints: Vec<usize>,
+    /// The compile trace: `[instructions, step]` pairs (docs/formats.md).
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    trace: Vec<[usize; 2]>,
 }
 
 /// The version of the JSON shape this tutti writes and reads.
@@ -132,6 +135,7 @@ pub fn write_json(seq: &Sequence) -> String {
         tutti_sequence: JSON_VERSION,
         provenance: seq.provenance.clone(),
         checkpoints: seq.checkpoints.clone(),
+        trace: seq.trace.iter().map(|t| [t.instrs, t.steps]).collect(),
         ions: seq.n_ions,
         bits: seq
             .cregs
@@ -207,6 +211,30 @@ pub fn read_json(name: &str, text: &str) -> SeqOutcome {
         );
     }
     seq.checkpoints = j.checkpoints;
+    if j.trace
+        .windows(2)
+        .any(|w| w[0][0] >= w[1][0] || w[0][1] > w[1][1])
+        || j.trace.last().is_some_and(|t| t[1] > j.program.len())
+    {
+        return fail(
+            sources,
+            0,
+            format!(
+                "the trace {:?} is not in order within the {} steps",
+                j.trace,
+                j.program.len()
+            ),
+            "trace points are [instructions, step]: instructions increasing, steps non-decreasing, at most the step count",
+        );
+    }
+    seq.trace = j
+        .trace
+        .iter()
+        .map(|t| crate::native::SyncPoint {
+            instrs: t[0],
+            steps: t[1],
+        })
+        .collect();
     for r in j.bits {
         let offset = seq.n_clbits();
         seq.cregs.push(Register {

@@ -96,9 +96,13 @@ pub fn write_pulses(seq: &Sequence) -> String {
         let _ = writeln!(out, "creg {}[{}]", r.name, r.size);
     }
     let mut checkpoints = seq.checkpoints.iter().peekable();
+    let mut trace = seq.trace.iter().peekable();
     for (k, step) in seq.steps.iter().enumerate() {
         while checkpoints.next_if(|&&c| c <= k).is_some() {
             let _ = writeln!(out, "{CHECKPOINT}");
+        }
+        while let Some(t) = trace.next_if(|t| t.steps <= k) {
+            let _ = writeln!(out, "{TRACE} {}", t.instrs);
         }
         if let Some(c) = &step.condition {
             out.push_str(&condition_text(seq, c));
@@ -135,6 +139,9 @@ pub fn write_pulses(seq: &Sequence) -> String {
     }
     for _ in checkpoints {
         let _ = writeln!(out, "{CHECKPOINT}");
+    }
+    for t in trace {
+        let _ = writeln!(out, "{TRACE} {}", t.instrs);
     }
     out
 }
@@ -226,9 +233,37 @@ pub fn pulse_step_lines(text: &str) -> Vec<usize> {
 /// The line of a pulse list that marks a checkpoint (numbered by its order).
 pub const CHECKPOINT: &str = "checkpoint";
 
+/// The line of a pulse list that records the compile trace: `trace N` says the
+/// circuit's first `N` instructions are done at this point.
+pub const TRACE: &str = "trace";
+
 fn parse_line(content: &str, seq: &mut Sequence, have_ions: &mut bool) -> Result<(), LineError> {
     if content == CHECKPOINT {
         seq.checkpoints.push(seq.steps.len());
+        return Ok(());
+    }
+    if let Some(rest) = content
+        .strip_prefix(TRACE)
+        .filter(|r| r.starts_with([' ', '\t']))
+    {
+        let hint =
+            "`trace N`: the circuit's first N instructions are done here; N grows along the list";
+        let instrs: usize = rest.trim().parse().map_err(|_| {
+            (
+                format!("`{}` is not an instruction count", rest.trim()),
+                hint,
+            )
+        })?;
+        if seq.trace.last().is_some_and(|t| t.instrs >= instrs) {
+            return Err((
+                format!("trace point {instrs} does not come after the one before it"),
+                hint,
+            ));
+        }
+        seq.trace.push(crate::native::SyncPoint {
+            instrs,
+            steps: seq.steps.len(),
+        });
         return Ok(());
     }
     let mut words: Vec<&str> = content.split_whitespace().collect();

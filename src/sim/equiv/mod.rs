@@ -21,6 +21,7 @@ mod fields;
 mod frame;
 mod modes;
 mod prepass;
+mod spin;
 mod windowed;
 mod witness;
 
@@ -48,6 +49,10 @@ pub enum Mode {
     /// bound without simulating (module `witness`: a qubit one program leaves alone
     /// and the other leaves coupled).
     Bound,
+    /// Not chosen: what a verdict reports when both programs act on the whole
+    /// register alike (collective rotations, global MS pulses) and were compared in
+    /// the spaces of the collective spin (module `spin`), exactly, in operator norm.
+    Spin,
 }
 
 impl Mode {
@@ -58,13 +63,14 @@ impl Mode {
             Mode::Random => "random",
             Mode::Tableau => "tableau",
             Mode::Bound => "bound",
+            Mode::Spin => "spin",
         }
     }
 
     fn rank(self) -> u8 {
         match self {
             Mode::Auto | Mode::Tableau => 0,
-            Mode::Unitary => 1,
+            Mode::Unitary | Mode::Spin => 1,
             Mode::Random => 2,
             Mode::Bound => 3,
         }

@@ -228,6 +228,30 @@ pub(super) fn compare(
                 .into(),
         ));
     }
+    // Programs that act on the whole register alike: exactly, in the spaces of the
+    // collective spin (at most n + 1 dimensions each) instead of 2^n.
+    if cfg.mode == Mode::Auto && n > cfg.max_unitary_qubits && diagonal.is_none() {
+        if let Some(d) = super::spin::whole_chain_distance(original_p, original_q, original_n) {
+            let tolerance = tolerance + d.rounding;
+            // On the programs as given (not pre-passed): no slack.
+            let equal = d.distance <= tolerance;
+            return Ok(SegResult {
+                compared: original_n,
+                equal,
+                mode: Mode::Spin,
+                distance: Some(d.distance),
+                tolerance,
+                fidelity: if equal { 1.0 } else { 0.0 },
+                phase: None,
+                reason: (!equal).then(|| {
+                    format!(
+                        "both act on the whole register alike, and in the spaces of the collective spin they differ by {:.3e} in operator norm (exact; tolerance {tolerance:.3e})",
+                        d.distance
+                    )
+                }),
+            });
+        }
+    }
     let use_unitary =
         cfg.mode == Mode::Unitary || (cfg.mode == Mode::Auto && n <= cfg.max_unitary_qubits);
     let needed = if use_unitary {

@@ -185,6 +185,18 @@ pub fn check_windows_counted(
     fold(outcomes)
 }
 
+/// How many steps two step lists share at their start, and then at their end.
+fn shared_ends(a: &[crate::native::Step], b: &[crate::native::Step]) -> (usize, usize) {
+    let head = a.iter().zip(b).take_while(|(x, y)| x == y).count();
+    let tail = a[head..]
+        .iter()
+        .rev()
+        .zip(b[head..].iter().rev())
+        .take_while(|(x, y)| x == y)
+        .count();
+    (head, tail)
+}
+
 /// Which ions are hidden at the start of each window (`(from, to)` step ranges of
 /// `seq`, in order): one sequential scan.
 fn hidden_at_starts(
@@ -195,15 +207,27 @@ fn hidden_at_starts(
     let mut hidden = Arc::new(vec![false; seq.n_ions as usize]);
     for (from, to) in windows {
         out.push(Arc::clone(&hidden));
-        for step in &seq.steps[from..to] {
-            match step.op {
-                NativeOp::Hide { ion } => Arc::make_mut(&mut hidden)[ion as usize] = true,
-                NativeOp::Unhide { ion } => Arc::make_mut(&mut hidden)[ion as usize] = false,
-                _ => {}
-            }
+        let steps = &seq.steps[from..to];
+        if steps
+            .iter()
+            .any(|s| matches!(s.op, NativeOp::Hide { .. } | NativeOp::Unhide { .. }))
+        {
+            let h: &mut Vec<bool> = Arc::make_mut(&mut hidden);
+            advance_hidden(steps, h);
         }
     }
     out
+}
+
+/// Marks which ions `steps` leave hidden.
+fn advance_hidden(steps: &[crate::native::Step], hidden: &mut [bool]) {
+    for step in steps {
+        match step.op {
+            NativeOp::Hide { ion } => hidden[ion as usize] = true,
+            NativeOp::Unhide { ion } => hidden[ion as usize] = false,
+            _ => {}
+        }
+    }
 }
 
 /// The configuration each window runs with. Windows are compared on rayon's
@@ -339,9 +363,23 @@ pub fn check_sequence_windows(
         .into_par_iter()
         .map(|w| {
             let (from, to) = (bounds[w], bounds[w + 1]);
+            // Steps both sides share at the start and at the end of the window are
+            // set aside: `S M_a R` and `S M_b R` are equal exactly when `M_a` and
+            // `M_b` are (same ions on both sides; not with a final diagonal allowed,
+            // which needs the final measurements in view).
+            let (xa, xb) = (&a.steps[from.0..to.0], &b.steps[from.1..to.1]);
+            let (head, tail) = if a.n_ions == b.n_ions && !cfg.up_to_final_diagonal {
+                shared_ends(xa, xb)
+            } else {
+                (0, 0)
+            };
             let lower = |s: &Sequence, hidden: &[bool], from: usize, to: usize| {
                 let mut hidden = hidden.to_vec();
-                let mut p = Program::from_steps(s.n_ions, &s.steps[from..to], &mut hidden);
+                // Past the shared start: which ions it hides.
+                advance_hidden(&s.steps[from..from + head], &mut hidden);
+                let mut p =
+                    Program::from_steps(s.n_ions, &s.steps[from + head..to - tail], &mut hidden);
+                advance_hidden(&s.steps[to - tail..to], &mut hidden);
                 if w + 1 == n_windows {
                     p.faults.extend(still_hidden(&hidden));
                 }

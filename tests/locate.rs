@@ -509,6 +509,26 @@ fn without_checkpoints_the_compile_trace_locates_the_instruction() {
     ]);
     assert_eq!(o.status.code(), Some(2));
     assert!(text(&o.stderr).contains("trace was made from a circuit with SHA-256"));
+    // A trace that names more instructions than the circuit has: an error, and
+    // the plain check (which does not use the trace) is unaffected.
+    let mut m = lines.clone();
+    let last = m.iter().rposition(|l| l == "trace 4").unwrap();
+    m[last] = "trace 99".into();
+    std::fs::write(&f, m.join("\n")).unwrap();
+    let o = tutti(&[
+        "check",
+        c.to_str().unwrap(),
+        f.to_str().unwrap(),
+        "--locate",
+    ]);
+    assert_eq!(o.status.code(), Some(2));
+    assert!(
+        text(&o.stderr).contains("does not fit this circuit"),
+        "{}",
+        text(&o.stderr)
+    );
+    let o = tutti(&["check", c.to_str().unwrap(), f.to_str().unwrap()]);
+    assert_eq!(o.status.code(), Some(0), "{}", text(&o.stdout));
     // Malformed trace lines are located errors.
     for (bad, want) in [
         ("trace x", "is not an instruction count"),

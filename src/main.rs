@@ -387,11 +387,7 @@ fn run(cli: Cli) -> Result<ExitCode, Failure> {
                 };
                 let found = driver::locate(&a, &b, &limits.limits(), &cfg)?;
                 print!("{}", driver::located_text(&found, &a, &b));
-                return Ok(if found.verdict.equivalent {
-                    ExitCode::SUCCESS
-                } else {
-                    ExitCode::from(1)
-                });
+                return Ok(ExitCode::from(found.exit_code()));
             }
             let limits = limits.limits();
             let progress = Progress::start(&a);

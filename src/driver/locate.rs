@@ -30,6 +30,25 @@ pub struct Located {
     /// the first file given.
     pub by_trace: bool,
     pub circuit_first: bool,
+    /// When a section differs: the verdict on the whole programs (equivalent, and
+    /// what differs), or why they could not be compared.
+    pub whole: Option<Result<(bool, String), String>>,
+}
+
+impl Located {
+    /// 0 when the programs are equivalent (section by section, or as wholes), 1
+    /// when the wholes are proven different, 2 when a section differs but the
+    /// wholes could not be compared.
+    pub fn exit_code(&self) -> u8 {
+        if self.verdict.equivalent {
+            return 0;
+        }
+        match &self.whole {
+            Some(Ok((true, _))) => 0,
+            Some(Ok((false, _))) => 1,
+            _ => 2,
+        }
+    }
 }
 
 /// The window of the compile trace where a sequence first parts from its circuit.
@@ -104,8 +123,11 @@ fn span(lines: &[usize], k: usize, last: usize) -> (usize, usize) {
     (from, to.max(from))
 }
 
-/// Compares circuit `a` with sequence `b` section by section. Either order of the
-/// two files is accepted; both must have the same number of checkpoints.
+/// Compares `a` with `b` (a circuit and a sequence in either order, or two
+/// sequences) section by section. When a section differs, the whole programs are
+/// compared too: sections that differ do not prove that the wholes do (a pulse
+/// moved across a checkpoint changes two sections and not the whole), so the
+/// verdict on the wholes decides what is reported ([`Located::exit_code`]).
 pub fn locate(a: &Path, b: &Path, limits: &Limits, cfg: &CheckConfig) -> Result<Located, String> {
     let read = |p: &Path| -> Result<(Loaded, String), String> {
         let (loaded, _) = load(p, limits).map_err(|e| e.rendered)?;
@@ -115,11 +137,44 @@ pub fn locate(a: &Path, b: &Path, limits: &Limits, cfg: &CheckConfig) -> Result<
     };
     let (la, ta) = read(a)?;
     let (lb, tb) = read(b)?;
+    let mut found = locate_sections((a, &la, &ta), (b, &lb, &tb), cfg)?;
+    if !found.verdict.equivalent {
+        found.whole = Some(match (&la, &lb) {
+            // Two sequences: one window with the steps both share at the ends set
+            // aside (exact), as the sections were compared.
+            (Loaded::Sequence(sa), Loaded::Sequence(sb)) => {
+                crate::sim::check_sequence_windows(sa, sb, &[(sa.steps.len(), sb.steps.len())], cfg)
+                    .map(|w| (w.equivalent, w.detail))
+                    .map_err(|e| e.to_string())
+            }
+            _ => {
+                let lower = |l: &Loaded| match l {
+                    Loaded::Circuit(c) => Program::from_circuit(c).map_err(|e| e.to_string()),
+                    Loaded::Sequence(s) => Ok(Program::from_sequence(s)),
+                };
+                lower(&la).and_then(|pa| {
+                    let pb = lower(&lb)?;
+                    crate::sim::check(&pa, &pb, cfg)
+                        .map(|v| (v.equivalent, v.detail))
+                        .map_err(|e| e.to_string())
+                })
+            }
+        });
+    }
+    Ok(found)
+}
+
+/// [`locate`]'s comparison section by section.
+fn locate_sections(
+    (a, la, ta): (&Path, &Loaded, &str),
+    (b, lb, tb): (&Path, &Loaded, &str),
+    cfg: &CheckConfig,
+) -> Result<Located, String> {
     let (circuit, ctext, seq, spath, stext, swapped) = match (la, lb) {
         (Loaded::Circuit(c), Loaded::Sequence(s)) => (c, ta, s, b, tb, false),
         (Loaded::Sequence(s), Loaded::Circuit(c)) => (c, tb, s, a, ta, true),
         (Loaded::Sequence(sa), Loaded::Sequence(sb)) => {
-            return locate_sequences((&sa, a, &ta), (&sb, b, &tb), cfg)
+            return locate_sequences((sa, a, ta), (sb, b, tb), cfg)
         }
         (Loaded::Circuit(_), Loaded::Circuit(_)) => {
             return Err(
@@ -136,7 +191,7 @@ pub fn locate(a: &Path, b: &Path, limits: &Limits, cfg: &CheckConfig) -> Result<
         .map(|(k, _)| k)
         .collect();
     if barriers.is_empty() && seq.checkpoints.is_empty() && !seq.trace.is_empty() {
-        return locate_by_trace(&circuit, &ctext, &seq, spath, &stext, cfg).map(|l| Located {
+        return locate_by_trace(circuit, ctext, seq, spath, stext, cfg).map(|l| Located {
             circuit_first: !swapped,
             ..l
         });
@@ -162,11 +217,11 @@ pub fn locate(a: &Path, b: &Path, limits: &Limits, cfg: &CheckConfig) -> Result<
     });
     // Barriers at the very end give sync points equal to the last: drop repeats.
     sync.dedup_by_key(|s| s.instrs);
-    let verdict = crate::sim::check_windows(&circuit, &seq, &sync, cfg)
-        .map_err(|e| format!("error: {e}\n"))?;
+    let verdict =
+        crate::sim::check_windows(circuit, seq, &sync, cfg).map_err(|e| format!("error: {e}\n"))?;
     let section = verdict.first_difference.map(|k| {
-        let c_lines = span(&lines_of(&ctext, "barrier", true), k, ctext.lines().count());
-        let s_lines = sequence_lines(spath, &stext, k);
+        let c_lines = span(&lines_of(ctext, "barrier", true), k, ctext.lines().count());
+        let s_lines = sequence_lines(spath, stext, k);
         let (first, second) = if swapped {
             (s_lines, Some(c_lines))
         } else {
@@ -186,6 +241,7 @@ pub fn locate(a: &Path, b: &Path, limits: &Limits, cfg: &CheckConfig) -> Result<
         traced: None,
         by_trace: false,
         circuit_first: !swapped,
+        whole: None,
     })
 }
 
@@ -242,6 +298,7 @@ fn locate_sequences(
         traced: None,
         by_trace: false,
         circuit_first: false,
+        whole: None,
     })
 }
 
@@ -413,6 +470,7 @@ fn locate_by_trace(
         traced,
         by_trace: true,
         circuit_first: true,
+        whole: None,
     })
 }
 
@@ -500,7 +558,11 @@ pub fn located_text(
         };
         let _ = writeln!(
             out,
-            "NOT EQUIVALENT: they part at {instrs} of the circuit (aligned by the compile trace)"
+            "{}",
+            headline(
+                l,
+                &format!("at {instrs} of the circuit (aligned by the compile trace)")
+            )
         );
         let (circuit, sequence) = if l.circuit_first { (a, b) } else { (b, a) };
         let _ = writeln!(
@@ -518,12 +580,16 @@ pub fn located_text(
             None => writeln!(out, "  sequence     {}: {steps}", sequence.display()),
         };
         let _ = writeln!(out, "  detail       {}", v.detail);
+        whole_line(l, &mut out);
         return out;
     }
     let _ = writeln!(
         out,
-        "NOT EQUIVALENT: they part in section {}",
-        l.section.map_or(0, |s| s.index)
+        "{}",
+        headline(
+            l,
+            &format!("in section {}", l.section.map_or(0, |s| s.index))
+        )
     );
     if let Some(Section {
         index: k,
@@ -574,5 +640,27 @@ pub fn located_text(
         }
     }
     let _ = writeln!(out, "  detail       {}", v.detail);
+    whole_line(l, &mut out);
     out
+}
+
+/// The first line of a report where a section differs: what is proven about the
+/// whole programs decides it.
+fn headline(l: &Located, place: &str) -> String {
+    match &l.whole {
+        Some(Ok((true, _))) => format!(
+            "EQUIVALENT as a whole, though they part {place}: the sections do not correspond (a later one undoes the difference)"
+        ),
+        Some(Err(_)) => format!(
+            "NOT PROVEN: they part {place}, but the whole programs could not be compared, so a later section may undo the difference"
+        ),
+        _ => format!("NOT EQUIVALENT: they part {place}"),
+    }
+}
+
+/// Why the whole programs could not be compared, when they could not.
+fn whole_line(l: &Located, out: &mut String) {
+    if let Some(Err(e)) = &l.whole {
+        let _ = writeln!(out, "  whole        {e}");
+    }
 }

@@ -257,6 +257,12 @@ fn a_single_wrong_pulse_is_located_to_its_section_on_active_and_spare_ions() {
         // Lines on both sides: the circuit's section and the pulse list's.
         assert!(report.contains("three.qasm: lines"), "{what}: {report}");
         assert!(report.contains("edited.pulses: lines"), "{what}: {report}");
+        if what == "wrong angle, active ion" {
+            assert!(
+                report.contains("the difference acts on qubit(s) 0"),
+                "{report}"
+            );
+        }
         if what == "changed MS angle" {
             assert!(report.contains("are left coupled"), "{report}");
             assert!(report.contains("held as fixed fields"), "{report}");

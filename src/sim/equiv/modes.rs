@@ -315,15 +315,30 @@ pub(super) fn compare(
             .reduce(|| 0.0, f64::max)
             + slack;
         let tr: C64 = ua.iter().zip(&ub).map(|(x, y)| x.conj() * y).sum::<C64>() / dim as f64;
+        let equal = distance <= tolerance;
+        // Which qubits the difference acts on, named in the original numbering
+        // (not in the interaction picture, where each side has its own frame).
+        let reason = stray_reason(distance).or_else(|| {
+            (!equal && !prepared.framed && n <= AFFECTED_QUBITS).then(|| {
+                let ions: Vec<String> = affected(&ua, &ub, n)
+                    .into_iter()
+                    .map(|k| prepared.kept[k].to_string())
+                    .collect();
+                format!(
+                    "distance {distance:.3e} is above the tolerance {tolerance:.3e}; the difference acts on qubit(s) {}",
+                    ions.join(", ")
+                )
+            })
+        });
         return Ok(SegResult {
             compared: n,
-            equal: distance <= tolerance,
+            equal,
             mode: Mode::Unitary,
             distance: Some(distance),
             tolerance,
             fidelity: tr.norm_sqr(),
             phase: diagonal.is_none().then(|| tr.arg()),
-            reason: stray_reason(distance),
+            reason,
         });
     }
     let tolerance = cfg
@@ -380,6 +395,44 @@ pub(super) fn compare(
         phase: diagonal.is_none().then_some(phase).flatten(),
         reason: stray_reason(distance),
     })
+}
+
+/// Up to this many qubits a difference found in unitary mode is traced to the
+/// qubits it acts on (a product of two unitaries: 4^8 entries at most).
+const AFFECTED_QUBITS: usize = 8;
+
+/// The qubits on which `D = B A^dagger` (`A`, `B` column-major on `n` qubits) is not
+/// the identity: those where `D` fails to commute with `X` or `Z`. A commutator
+/// counts when it is above 1e-3 of `||D - cI||` (`c` the phase of `tr D`), and
+/// above rounding.
+fn affected(a: &[C64], b: &[C64], n: usize) -> Vec<usize> {
+    let dim = 1usize << n;
+    let ma = nalgebra::DMatrix::from_column_slice(dim, dim, a);
+    let mb = nalgebra::DMatrix::from_column_slice(dim, dim, b);
+    let d = mb * ma.adjoint();
+    let tr = d.trace();
+    let c = if tr.norm() > 0.0 {
+        tr / tr.norm()
+    } else {
+        C64::new(1.0, 0.0)
+    };
+    let total = (&d - nalgebra::DMatrix::<C64>::identity(dim, dim) * c).norm();
+    let floor = (1e-3 * total).max(1e-12 * dim as f64);
+    (0..n)
+        .filter(|&k| {
+            let bit = 1usize << k;
+            let mut sum = 0.0;
+            for j in 0..dim {
+                for i in 0..dim {
+                    sum += (d[(i ^ bit, j ^ bit)] - d[(i, j)]).norm_sqr();
+                    if (i ^ j) & bit != 0 {
+                        sum += 4.0 * d[(i, j)].norm_sqr();
+                    }
+                }
+            }
+            sum.sqrt() > floor
+        })
+        .collect()
 }
 
 /// Unit phases, one per pattern of the masked bits of an index.
@@ -449,4 +502,52 @@ fn try_unitary(
         col.copy_from_slice(&s.amps);
     });
     Ok(out)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// The qubits a difference acts on: a small Z rotation on qubit 0, a CNOT on
+    /// qubits 1 and 2, nothing, each after the same random-ish unitary on 3 qubits.
+    #[test]
+    fn a_difference_is_traced_to_the_qubits_it_acts_on() {
+        let base = vec![
+            Kernel::One {
+                q: 0,
+                m: crate::native::rotation(0.7, 0.3),
+            },
+            Kernel::Controlled {
+                controls: vec![0],
+                target: 2,
+                m: crate::native::rotation(1.1, 0.0),
+            },
+            Kernel::One {
+                q: 1,
+                m: crate::native::rotation(0.4, 1.0),
+            },
+        ];
+        let with = |k: Option<Kernel>| {
+            let mut ks = base.clone();
+            ks.extend(k);
+            try_unitary(&ks, 3).unwrap()
+        };
+        let x = [
+            [C64::new(0.0, 0.0), C64::new(1.0, 0.0)],
+            [C64::new(1.0, 0.0), C64::new(0.0, 0.0)],
+        ];
+        let a = with(None);
+        let z = with(Some(Kernel::One {
+            q: 0,
+            m: crate::native::z_rotation(1e-6),
+        }));
+        assert_eq!(affected(&a, &z, 3), vec![0]);
+        let cx = with(Some(Kernel::Controlled {
+            controls: vec![1],
+            target: 2,
+            m: x,
+        }));
+        assert_eq!(affected(&a, &cx, 3), vec![1, 2]);
+        assert!(affected(&a, &a, 3).is_empty());
+    }
 }

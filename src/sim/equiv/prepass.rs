@@ -29,6 +29,12 @@ pub(super) struct Prepared {
     pub slack: f64,
     /// The qubit with the most stray coupling dropped, and that coupling's weight.
     pub stray: Option<(usize, f64)>,
+    /// The original index of each qubit compared.
+    pub kept: Vec<usize>,
+    /// Whether the programs were taken in the interaction picture (each with its
+    /// own frame: the unitaries compared then differ from the originals by local
+    /// rotations).
+    pub framed: bool,
 }
 
 /// A qubit that no interaction touches, but whose own operations differ.
@@ -67,7 +73,7 @@ pub(super) fn prepare(
     keep_all: bool,
     tolerance: f64,
 ) -> Result<Prepared, IdleMismatch> {
-    let plain = prepare_as_given(p, q, n, keep_all, tolerance, 0.0);
+    let plain = prepare_as_given(p, q, n, keep_all, tolerance, 0.0, false);
     // The interaction picture (module `frame`) of either side, when it applies:
     // taken only when it leaves fewer qubits to compare.
     let ip = super::frame::interaction_picture(p, n);
@@ -77,7 +83,7 @@ pub(super) fn prepare(
     }
     let (pk, ps) = ip.unwrap_or_else(|| (p.to_vec(), 0.0));
     let (qk, qs) = iq.unwrap_or_else(|| (q.to_vec(), 0.0));
-    let framed = prepare_as_given(&pk, &qk, n, keep_all, tolerance, ps + qs);
+    let framed = prepare_as_given(&pk, &qk, n, keep_all, tolerance, ps + qs, true);
     match (plain, framed) {
         (Err(e), _) | (_, Err(e)) => Err(e),
         (Ok(a), Ok(b)) => Ok(if b.n < a.n { b } else { a }),
@@ -91,6 +97,7 @@ fn prepare_as_given(
     keep_all: bool,
     tolerance: f64,
     frame_slack: f64,
+    framed: bool,
 ) -> Result<Prepared, IdleMismatch> {
     let (fp, sp) = fuse_xx_runs(p);
     let (fq, sq) = fuse_xx_runs(q);
@@ -99,8 +106,8 @@ fn prepare_as_given(
     let (fp, fq, stray) = drop_stray_couplings(fp, fq, n);
     let slack = frame_slack + sp + sq + dp + dq + stray.map_or(0.0, |s| s.2);
     let stray = stray.map(|s| (s.0, s.1));
-    let (p, q, n) = if keep_all {
-        (fp, fq, n)
+    let (p, q, n, kept) = if keep_all {
+        (fp, fq, n, (0..n).collect())
     } else {
         reduce(fp, fq, n, tolerance, slack)?
     };
@@ -114,6 +121,8 @@ fn prepare_as_given(
         n,
         slack,
         stray,
+        kept,
+        framed,
     })
 }
 
@@ -271,7 +280,8 @@ pub(super) fn aligned_distance2(a: &Mat2, b: &Mat2) -> f64 {
     worst
 }
 
-type Reduced = (Vec<Kernel>, Vec<Kernel>, usize);
+/// The programs on the qubits kept, their count, and the original index of each.
+type Reduced = (Vec<Kernel>, Vec<Kernel>, usize, Vec<usize>);
 
 /// Splits off the qubits that no multi-qubit kernel of either program touches: the
 /// programs factor into a product over those qubits and the rest, and each split-off
@@ -291,7 +301,7 @@ fn reduce(
         }
     }
     if entangled.iter().all(|&e| e) {
-        return Ok((p, q, n));
+        return Ok((p, q, n, (0..n).collect()));
     }
     for x in (0..n).filter(|&x| !entangled[x]) {
         let product = |ks: &[Kernel]| {
@@ -327,7 +337,8 @@ fn reduce(
             })
             .collect()
     };
-    Ok((remap(p), remap(q), kept.len()))
+    let n_kept = kept.len();
+    Ok((remap(p), remap(q), n_kept, kept))
 }
 
 fn remap_kernel(k: Kernel, index: &[usize]) -> Kernel {

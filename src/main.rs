@@ -420,6 +420,23 @@ fn run(cli: Cli) -> Result<ExitCode, Failure> {
                 verdict
             });
             progress.clear();
+            // Refused as too large or too slow: a sequence that carries the trace of
+            // this circuit may still be proven equal window by window.
+            if let Err(e) = &verdict {
+                if e.beyond_budget() && crosstalk.is_none() && !up_to_final_diagonal {
+                    if let Some(w) = driver::equal_by_trace(&a, &b, &limits, &cfg) {
+                        if json {
+                            println!(
+                                "{}",
+                                serde_json::to_string_pretty(&w).map_err(|e| e.to_string())?
+                            );
+                        } else {
+                            print!("{}", tutti::report::window_verdict_text(&w, &e.to_string()));
+                        }
+                        return Ok(ExitCode::SUCCESS);
+                    }
+                }
+            }
             let verdict = verdict.map_err(|e| format!("error: {e}"))?;
             if json {
                 println!(

@@ -587,3 +587,72 @@ fn a_pulse_moved_across_a_checkpoint_is_not_called_a_difference() {
         );
     }
 }
+
+/// `tutti check` of a sequence whose whole comparison does not fit the memory
+/// budget: when the sequence carries the compile trace of this very circuit, every
+/// window is proven equal and so is the whole. A wrong pulse, or another circuit,
+/// gets no such proof (a differing window proves nothing about the whole).
+#[test]
+fn check_proves_a_large_sequence_equal_along_its_trace() {
+    let tmp = tempfile::tempdir().unwrap();
+    let n = 24;
+    let mut body = String::from("h q[0];\n");
+    for i in 1..n {
+        body.push_str(&format!("cx q[{}],q[{i}];\nt q[{i}];\n", i - 1));
+    }
+    let c = tmp.path().join("chain.qasm");
+    std::fs::write(&c, common::qasm(n, &body)).unwrap();
+    let out = tmp.path().join("chain.pulses");
+    let o = tutti(&[
+        "compile",
+        c.to_str().unwrap(),
+        "--baseline",
+        "-o",
+        out.to_str().unwrap(),
+    ]);
+    assert_eq!(o.status.code(), Some(0), "{}", text(&o.stderr));
+    // 24 qubits need 512 MiB for two states; 100 MiB is given.
+    let check = |a: &Path, b: &Path| {
+        let o = tutti(&[
+            "check",
+            a.to_str().unwrap(),
+            b.to_str().unwrap(),
+            "--memory",
+            "100",
+        ]);
+        (
+            o.status.code(),
+            format!("{}{}", text(&o.stdout), text(&o.stderr)),
+        )
+    };
+    let (code, report) = check(&c, &out);
+    assert_eq!(code, Some(0), "{report}");
+    assert!(
+        report.starts_with("EQUIVALENT window by window along the compile trace"),
+        "{report}"
+    );
+    assert!(report.contains("536870912 bytes"), "{report}");
+    // Either order of the files.
+    assert_eq!(check(&out, &c).0, Some(0));
+    // A wrong light shift: not equal (proven different, or refused), never equal.
+    let text_of = std::fs::read_to_string(&out).unwrap();
+    let edited = tmp.path().join("edited.pulses");
+    std::fs::write(
+        &edited,
+        text_of.replacen("light_shift 5 pi", "light_shift 5 3.1", 1),
+    )
+    .unwrap();
+    let (code, report) = check(&c, &edited);
+    assert_ne!(code, Some(0), "{report}");
+    assert!(!report.starts_with("EQUIVALENT"), "{report}");
+    // Another circuit: the trace is not its own, so it is not used.
+    let other = tmp.path().join("other.qasm");
+    std::fs::write(
+        &other,
+        common::qasm(n, &body.replacen("t q[3]", "tdg q[3]", 1)),
+    )
+    .unwrap();
+    let (code, report) = check(&other, &out);
+    assert_ne!(code, Some(0), "{report}");
+    assert!(!report.contains("along the compile trace"), "{report}");
+}

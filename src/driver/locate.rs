@@ -664,3 +664,43 @@ fn whole_line(l: &Located, out: &mut String) {
         let _ = writeln!(out, "  whole        {e}");
     }
 }
+
+/// A proof of equivalence along the compile trace, for a comparison refused as too
+/// large or too slow: when one file is a circuit and the other a sequence whose
+/// trace was made from it, and every window of the trace is proven equal, the
+/// whole sequence is (the product of equal windows is equal). `None` when there is
+/// no such trace, or a window is not proven equal (a window that differs proves
+/// nothing about the whole: a later one may undo it).
+pub fn equal_by_trace(
+    a: &Path,
+    b: &Path,
+    limits: &Limits,
+    cfg: &CheckConfig,
+) -> Option<WindowVerdict> {
+    let read = |p: &Path| -> Option<(Loaded, String)> {
+        let (loaded, _) = load(p, limits).ok()?;
+        Some((loaded, std::fs::read_to_string(p).ok()?))
+    };
+    let (la, ta) = read(a)?;
+    let (lb, tb) = read(b)?;
+    let (circuit, ctext, seq) = match (&la, &lb) {
+        (Loaded::Circuit(c), Loaded::Sequence(s)) => (c, &ta, s),
+        (Loaded::Sequence(s), Loaded::Circuit(c)) => (c, &tb, s),
+        _ => return None,
+    };
+    let made_from = seq
+        .provenance
+        .as_ref()
+        .is_some_and(|p| p.source_sha256 == crate::driver::sha256_hex(ctext.as_bytes()));
+    if seq.trace.is_empty() || !made_from {
+        return None;
+    }
+    let mut sync = seq.trace.clone();
+    sync.push(SyncPoint {
+        instrs: circuit.instrs.len(),
+        steps: seq.steps.len(),
+    });
+    crate::sim::check_windows(circuit, seq, &sync, cfg)
+        .ok()
+        .filter(|v| v.equivalent)
+}

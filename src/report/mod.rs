@@ -65,6 +65,18 @@ pub fn fixed(x: f64, places: usize) -> String {
     format!("{cleaned:.places$}")
 }
 
+/// The report of a sequence proven equal to its circuit window by window along its
+/// compile trace, after the whole comparison was refused for `refusal`.
+pub fn window_verdict_text(v: &crate::sim::WindowVerdict, refusal: &str) -> String {
+    format!(
+        "EQUIVALENT window by window along the compile trace ({} windows, mode {}, worst distance {}, tolerance {:.1e})\n  note          the whole comparison was refused ({refusal}); equal windows prove the whole equal\n",
+        v.windows,
+        v.mode.name(),
+        v.distance.map_or("none".to_string(), |d| format!("{d:.1e}")),
+        v.tolerance
+    )
+}
+
 /// The text `tutti check` prints.
 pub fn verdict_text(v: &Verdict) -> String {
     let mut out = String::new();

@@ -23,6 +23,29 @@ barrier q[0],q[1];
 h q[2];
 ";
 
+/// `tutti check A B --locate`.
+fn check_locate(a: impl AsRef<Path>, b: impl AsRef<Path>) -> std::process::Output {
+    let (a, b) = (a.as_ref(), b.as_ref());
+    tutti(&[
+        "check",
+        a.to_str().unwrap(),
+        b.to_str().unwrap(),
+        "--locate",
+    ])
+}
+
+/// `tutti compile C --baseline -o OUT`.
+fn compile_baseline(c: impl AsRef<Path>, out: impl AsRef<Path>) -> std::process::Output {
+    let (c, out) = (c.as_ref(), out.as_ref());
+    tutti(&[
+        "compile",
+        c.to_str().unwrap(),
+        "--baseline",
+        "-o",
+        out.to_str().unwrap(),
+    ])
+}
+
 fn setup(dir: &Path, format: &str) -> (PathBuf, PathBuf) {
     let c = dir.join("three.qasm");
     std::fs::write(&c, CIRCUIT).unwrap();
@@ -45,12 +68,7 @@ fn compiled_outputs_carry_the_barriers_as_checkpoints_in_every_format() {
         assert_eq!(seq.checkpoints.len(), 2, "{format}");
         assert!(seq.checkpoints[0] < seq.checkpoints[1]);
         seen.push(seq.checkpoints.clone());
-        let o = tutti(&[
-            "check",
-            c.to_str().unwrap(),
-            out.to_str().unwrap(),
-            "--locate",
-        ]);
+        let o = check_locate(&c, &out);
         assert_eq!(o.status.code(), Some(0), "{format}: {}", text(&o.stdout));
         assert!(text(&o.stdout).contains("EQUIVALENT section by section (3 sections"));
     }
@@ -59,20 +77,9 @@ fn compiled_outputs_carry_the_barriers_as_checkpoints_in_every_format() {
     // The baseline's output carries them too.
     let c = tmp.path().join("three.qasm");
     let b = tmp.path().join("base.pulses");
-    let o = tutti(&[
-        "compile",
-        c.to_str().unwrap(),
-        "--baseline",
-        "-o",
-        b.to_str().unwrap(),
-    ]);
+    let o = compile_baseline(&c, &b);
     assert_eq!(o.status.code(), Some(0));
-    let o = tutti(&[
-        "check",
-        c.to_str().unwrap(),
-        b.to_str().unwrap(),
-        "--locate",
-    ]);
+    let o = check_locate(&c, &b);
     assert_eq!(o.status.code(), Some(0), "{}", text(&o.stdout));
 }
 
@@ -82,12 +89,7 @@ fn compiled_outputs_carry_the_barriers_as_checkpoints_in_every_format() {
 fn located(dir: &Path, reference: &Path, lines: &[String]) -> (Option<usize>, String) {
     let f = dir.join("edited.pulses");
     std::fs::write(&f, lines.join("\n")).unwrap();
-    let o = tutti(&[
-        "check",
-        reference.to_str().unwrap(),
-        f.to_str().unwrap(),
-        "--locate",
-    ]);
+    let o = check_locate(reference, &f);
     let out = text(&o.stdout);
     assert_eq!(
         o.status.code(),
@@ -288,24 +290,14 @@ fn a_single_wrong_pulse_is_located_to_its_section_on_active_and_spare_ions() {
     let m = with_phase("0.2");
     let f = tmp.path().join("edited.pulses");
     std::fs::write(&f, m.join("\n")).unwrap();
-    let o = tutti(&[
-        "check",
-        c.to_str().unwrap(),
-        f.to_str().unwrap(),
-        "--locate",
-    ]);
+    let o = check_locate(&c, &f);
     let err = text(&o.stderr);
     assert_eq!(o.status.code(), Some(2), "{}{err}", text(&o.stdout));
     assert!(err.contains("could be held as a fixed field"), "{err}");
     for (phase, equal) in [("0.2", false), ("1e-9", false), ("pi", true)] {
         let (code, report) = {
             std::fs::write(&f, with_phase(phase).join("\n")).unwrap();
-            let o = tutti(&[
-                "check",
-                out.to_str().unwrap(),
-                f.to_str().unwrap(),
-                "--locate",
-            ]);
+            let o = check_locate(&out, &f);
             (
                 o.status.code(),
                 format!("{}{}", text(&o.stdout), text(&o.stderr)),
@@ -336,32 +328,17 @@ fn checkpoint_counts_must_match_and_two_circuits_are_not_located() {
     let text_of = std::fs::read_to_string(&out).unwrap();
     let fewer = tmp.path().join("fewer.pulses");
     std::fs::write(&fewer, text_of.replacen("checkpoint\n", "", 1)).unwrap();
-    let o = tutti(&[
-        "check",
-        c.to_str().unwrap(),
-        fewer.to_str().unwrap(),
-        "--locate",
-    ]);
+    let o = check_locate(&c, &fewer);
     assert_eq!(o.status.code(), Some(2));
     assert!(text(&o.stderr).contains("2 barrier(s) and the sequence 1 checkpoint(s)"));
-    let o = tutti(&[
-        "check",
-        c.to_str().unwrap(),
-        c.to_str().unwrap(),
-        "--locate",
-    ]);
+    let o = check_locate(&c, &c);
     assert_eq!(o.status.code(), Some(2));
     // Without --locate the same files compare whole (checkpoints are not part of
     // the unitary).
     let o = tutti(&["check", c.to_str().unwrap(), fewer.to_str().unwrap()]);
     assert_eq!(o.status.code(), Some(0), "{}", text(&o.stdout));
     // Two sequences: their checkpoint counts must match too.
-    let o = tutti(&[
-        "check",
-        out.to_str().unwrap(),
-        fewer.to_str().unwrap(),
-        "--locate",
-    ]);
+    let o = check_locate(&out, &fewer);
     assert_eq!(o.status.code(), Some(2));
     assert!(text(&o.stderr).contains("the first sequence has 2 checkpoint(s) and the second 1"));
 }
@@ -375,20 +352,9 @@ fn two_sequences_are_located_against_each_other() {
     let tmp = tempfile::tempdir().unwrap();
     let (c, json) = setup(tmp.path(), "json");
     let base = tmp.path().join("base.pulses");
-    let o = tutti(&[
-        "compile",
-        c.to_str().unwrap(),
-        "--baseline",
-        "-o",
-        base.to_str().unwrap(),
-    ]);
+    let o = compile_baseline(&c, &base);
     assert_eq!(o.status.code(), Some(0));
-    let o = tutti(&[
-        "check",
-        json.to_str().unwrap(),
-        base.to_str().unwrap(),
-        "--locate",
-    ]);
+    let o = check_locate(&json, &base);
     assert_eq!(o.status.code(), Some(0), "{}", text(&o.stdout));
     assert!(text(&o.stdout).contains("EQUIVALENT section by section (3 sections"));
     let (_, pulses) = setup(tmp.path(), "pulses");
@@ -439,13 +405,7 @@ fn without_checkpoints_the_compile_trace_locates_the_instruction() {
     let mut outs = Vec::new();
     for format in ["pulses", "json"] {
         let out = tmp.path().join(format!("plain.{format}"));
-        let o = tutti(&[
-            "compile",
-            c.to_str().unwrap(),
-            "--baseline",
-            "-o",
-            out.to_str().unwrap(),
-        ]);
+        let o = compile_baseline(&c, &out);
         assert_eq!(o.status.code(), Some(0), "{}", text(&o.stderr));
         let (loaded, _) = tutti::driver::load(&out, &Default::default()).unwrap();
         let tutti::driver::Loaded::Sequence(seq) = loaded else {
@@ -483,12 +443,7 @@ fn without_checkpoints_the_compile_trace_locates_the_instruction() {
     m[i] = "light_shift 2 0.77".into();
     let f = tmp.path().join("edited.pulses");
     std::fs::write(&f, m.join("\n")).unwrap();
-    let o = tutti(&[
-        "check",
-        c.to_str().unwrap(),
-        f.to_str().unwrap(),
-        "--locate",
-    ]);
+    let o = check_locate(&c, &f);
     let report = text(&o.stdout);
     assert_eq!(o.status.code(), Some(1), "{report}{}", text(&o.stderr));
     assert!(
@@ -507,12 +462,7 @@ fn without_checkpoints_the_compile_trace_locates_the_instruction() {
     // Against another circuit, the trace is not used: exit 2, saying why.
     let other = tmp.path().join("other.qasm");
     std::fs::write(&other, body.replace("rz(0.3)", "rz(0.4)")).unwrap();
-    let o = tutti(&[
-        "check",
-        other.to_str().unwrap(),
-        f.to_str().unwrap(),
-        "--locate",
-    ]);
+    let o = check_locate(&other, &f);
     assert_eq!(o.status.code(), Some(2));
     assert!(text(&o.stderr).contains("trace was made from a circuit with SHA-256"));
     // A trace that names more instructions than the circuit has: an error, and
@@ -521,12 +471,7 @@ fn without_checkpoints_the_compile_trace_locates_the_instruction() {
     let last = m.iter().rposition(|l| l == "trace 4").unwrap();
     m[last] = "trace 99".into();
     std::fs::write(&f, m.join("\n")).unwrap();
-    let o = tutti(&[
-        "check",
-        c.to_str().unwrap(),
-        f.to_str().unwrap(),
-        "--locate",
-    ]);
+    let o = check_locate(&c, &f);
     assert_eq!(o.status.code(), Some(2));
     assert!(
         text(&o.stderr).contains("does not fit this circuit"),
@@ -572,12 +517,7 @@ fn a_pulse_moved_across_a_checkpoint_is_not_called_a_difference() {
         let (code, report) = {
             let f = tmp.path().join("moved.pulses");
             std::fs::write(&f, lines.join("\n")).unwrap();
-            let o = tutti(&[
-                "check",
-                reference.to_str().unwrap(),
-                f.to_str().unwrap(),
-                "--locate",
-            ]);
+            let o = check_locate(reference, &f);
             (o.status.code(), text(&o.stdout))
         };
         assert_eq!(code, Some(0), "{report}");
@@ -603,13 +543,7 @@ fn check_proves_a_large_sequence_equal_along_its_trace() {
     let c = tmp.path().join("chain.qasm");
     std::fs::write(&c, common::qasm(n, &body)).unwrap();
     let out = tmp.path().join("chain.pulses");
-    let o = tutti(&[
-        "compile",
-        c.to_str().unwrap(),
-        "--baseline",
-        "-o",
-        out.to_str().unwrap(),
-    ]);
+    let o = compile_baseline(&c, &out);
     assert_eq!(o.status.code(), Some(0), "{}", text(&o.stderr));
     // 24 qubits need 512 MiB for two states; 100 MiB is given.
     let check = |a: &Path, b: &Path| {

@@ -386,7 +386,15 @@ fn run(cli: Cli) -> Result<ExitCode, Failure> {
                     ..defaults
                 };
                 let found = driver::locate(&a, &b, &limits.limits(), &cfg)?;
-                print!("{}", driver::located_text(&found, &a, &b));
+                if json {
+                    let value = driver::located_json(&found, &a, &b);
+                    println!(
+                        "{}",
+                        serde_json::to_string_pretty(&value).map_err(|e| e.to_string())?
+                    );
+                } else {
+                    print!("{}", driver::located_text(&found, &a, &b));
+                }
                 return Ok(ExitCode::from(found.exit_code()));
             }
             let limits = limits.limits();

@@ -378,6 +378,32 @@ fn two_sequences_are_located_against_each_other() {
         report.contains(&format!("  ions         {ion}\n")),
         "{report}"
     );
+    // The same as one JSON object.
+    let f = tmp.path().join("edited.pulses");
+    let o = tutti(&[
+        "check",
+        json.to_str().unwrap(),
+        f.to_str().unwrap(),
+        "--locate",
+        "--json",
+    ]);
+    assert_eq!(o.status.code(), Some(1));
+    let v: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
+    assert_eq!(v["verdict"], "not equivalent");
+    assert_eq!(v["exit_code"], 1);
+    assert_eq!(v["section"]["index"], 1);
+    assert_eq!(
+        v["section"]["first_lines"],
+        serde_json::Value::Null,
+        "JSON has no lines"
+    );
+    assert_eq!(v["changed"]["ions"][0].to_string(), ion);
+    assert_eq!(
+        v["changed"]["second_steps"],
+        serde_json::Value::Null,
+        "no step"
+    );
+    assert_eq!(v["whole"]["equivalent"], false);
 }
 
 #[test]

@@ -704,3 +704,59 @@ pub fn equal_by_trace(
         .ok()
         .filter(|v| v.equivalent)
 }
+
+/// What `check --locate --json` prints: one object with the same content as
+/// [`located_text`] (line ranges 1-based and inclusive, step ranges 1-based and
+/// inclusive, `null` where a format has no lines).
+pub fn located_json(l: &Located, a: &Path, b: &Path) -> serde_json::Value {
+    use serde_json::json;
+    let range = |r: Option<(usize, usize)>| r.map(|(x, y)| json!([x, y]));
+    let steps = |(from, to): (usize, usize)| {
+        if to > from {
+            json!([from + 1, to])
+        } else {
+            serde_json::Value::Null
+        }
+    };
+    let verdict = match (l.verdict.equivalent, l.exit_code()) {
+        (true, _) | (_, 0) => "equivalent",
+        (_, 1) => "not equivalent",
+        _ => "not proven",
+    };
+    json!({
+        "first": a.display().to_string(),
+        "second": b.display().to_string(),
+        "verdict": verdict,
+        "exit_code": l.exit_code(),
+        "equal_section_by_section": l.verdict.equivalent,
+        "sections": l.sections,
+        "by": if l.by_trace { "trace" } else { "checkpoints" },
+        "mode": l.verdict.mode.name(),
+        "distance": l.verdict.distance,
+        "tolerance": l.verdict.tolerance,
+        "section": l.section.map(|s| json!({
+            "index": s.index,
+            "first_lines": range(s.first),
+            "second_lines": range(s.second),
+        })),
+        "changed": l.changed.as_ref().map(|c| json!({
+            "first_steps": steps(c.first),
+            "second_steps": steps(c.second),
+            "first_lines": range(c.first_lines),
+            "second_lines": range(c.second_lines),
+            "ions": c.ions,
+            "every_ion": c.every_ion,
+        })),
+        "traced": l.traced.as_ref().map(|t| json!({
+            "instructions": [t.instrs.0 + 1, t.instrs.1],
+            "text": t.text,
+            "steps": steps(t.steps),
+            "lines": range(t.lines),
+        })),
+        "whole": l.whole.as_ref().map(|w| match w {
+            Ok((equivalent, detail)) => json!({"equivalent": equivalent, "detail": detail}),
+            Err(e) => json!({"refused": e}),
+        }),
+        "detail": l.verdict.detail,
+    })
+}

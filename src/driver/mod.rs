@@ -28,7 +28,7 @@ pub use input::{
     load, load_program, load_program_under, load_traced, ErrorRecord, Format, LoadFailure, Loaded,
     SourceDigest,
 };
-pub use locate::{equal_by_trace, locate, located_text, Located, Section};
+pub use locate::{equal_by_trace, locate, located_json, located_text, Located, Section};
 pub use output::write_output;
 /// Settings of one compilation.
 #[derive(Debug, Clone)]

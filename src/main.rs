@@ -131,6 +131,7 @@ fn run(cli: Cli) -> Result<ExitCode, Failure> {
             objective,
             no_verify,
             compensate_crosstalk,
+            trace_every,
             force,
             max_pulses,
             ions,
@@ -145,6 +146,7 @@ fn run(cli: Cli) -> Result<ExitCode, Failure> {
                 verify: !no_verify,
                 max_steps: max_pulses,
                 compensate_crosstalk,
+                trace_every: trace_every.map(|n| n as usize),
                 ..CompileConfig::default()
             };
             let (_, mut compiled) = compile_one(&file, &device, ions, &cfg, &limits)?;

@@ -616,3 +616,53 @@ fn check_proves_a_large_sequence_equal_along_its_trace() {
     assert_ne!(code, Some(0), "{report}");
     assert!(!report.contains("along the compile trace"), "{report}");
 }
+
+/// The optimizer's trace has points only where its ranges end; `compile
+/// --trace-every 1` ends one after every instruction, so a hand edit in its output
+/// is located to its instruction too (and the output still verifies: compile checks
+/// it).
+#[test]
+fn the_optimizer_output_is_located_by_instruction_with_trace_every() {
+    let tmp = tempfile::tempdir().unwrap();
+    let c = tmp.path().join("plain.qasm");
+    let body = CIRCUIT
+        .replace("barrier q;\n", "")
+        .replace("barrier q[0],q[1];\n", "");
+    std::fs::write(&c, &body).unwrap();
+    let out = tmp.path().join("plain.pulses");
+    let o = tutti(&[
+        "compile",
+        c.to_str().unwrap(),
+        "--trace-every",
+        "1",
+        "-o",
+        out.to_str().unwrap(),
+    ]);
+    assert_eq!(o.status.code(), Some(0), "{}", text(&o.stderr));
+    assert!(text(&o.stderr).contains("optimizer"), "{}", text(&o.stderr));
+    let lines: Vec<String> = std::fs::read_to_string(&out)
+        .unwrap()
+        .lines()
+        .map(str::to_string)
+        .collect();
+    let traces: Vec<&String> = lines.iter().filter(|l| l.starts_with("trace ")).collect();
+    assert_eq!(traces, ["trace 1", "trace 2", "trace 3", "trace 4"]);
+    // A changed MS angle after trace 3: instruction 4, cx q[1],q[2].
+    let after3 = lines.iter().position(|l| l == "trace 3").unwrap();
+    let i = (after3..lines.len())
+        .find(|&i| lines[i].starts_with("chain_ms "))
+        .unwrap();
+    let mut m = lines.clone();
+    let mut words: Vec<String> = m[i].split_whitespace().map(str::to_string).collect();
+    words[1] = format!("{}", words[1].parse::<f64>().unwrap() + 1e-4);
+    m[i] = words.join(" ");
+    let f = tmp.path().join("edited.pulses");
+    std::fs::write(&f, m.join("\n")).unwrap();
+    let o = check_locate(&c, &f);
+    let report = text(&o.stdout);
+    assert_eq!(o.status.code(), Some(1), "{report}{}", text(&o.stderr));
+    assert!(
+        report.starts_with("NOT EQUIVALENT: they part at instruction 4 of the circuit"),
+        "{report}"
+    );
+}

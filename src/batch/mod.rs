@@ -496,6 +496,7 @@ fn job_body(
         verify: cfg.verify,
         max_steps: cfg.max_steps,
         compensate_crosstalk: false,
+        trace_every: None,
         check: crate::sim::CheckConfig {
             memory_budget: cfg.memory,
             pool: Some(pool.clone()),

@@ -137,6 +137,13 @@ pub(super) enum Command {
         /// The output is verified as it runs under that crosstalk.
         #[arg(long)]
         compensate_crosstalk: bool,
+        /// End the optimizer's ranges at least every N instructions, so that the
+        /// output's compile trace (its `trace` lines) has a point that often and
+        /// `check --locate` can name the instructions a hand edit belongs to; blocks
+        /// cannot span the cuts, so the output may be longer. The baseline has a
+        /// point after every instruction anyway.
+        #[arg(long, value_name = "N", value_parser = clap::value_parser!(u32).range(1..))]
+        trace_every: Option<u32>,
         /// Replace OUT if it exists (the input is never replaced).
         #[arg(long)]
         force: bool,

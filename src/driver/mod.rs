@@ -46,6 +46,9 @@ pub struct CompileConfig {
     /// Pre-compensate light-shift crosstalk of the profile (`--compensate-crosstalk`);
     /// the output is then verified as it runs under that crosstalk.
     pub compensate_crosstalk: bool,
+    /// End an optimizer range at least every this many instructions
+    /// (`--trace-every`), so that the output's compile trace has a point that often.
+    pub trace_every: Option<usize>,
 }
 
 /// Most work of a whole-program verification in [`compile`], in amplitude updates
@@ -63,6 +66,7 @@ impl Default for CompileConfig {
             verify: true,
             max_steps: DEFAULT_MAX_STEPS,
             compensate_crosstalk: false,
+            trace_every: None,
             check: CheckConfig {
                 max_work: VERIFY_WORK,
                 ..CheckConfig::default()
@@ -203,6 +207,9 @@ fn compile_one(
             objective: cfg.objective,
             max_steps: cfg.max_steps,
             window_qubits,
+            max_range_instrs: cfg
+                .trace_every
+                .unwrap_or(crate::compile::optimize::MAX_RANGE_INSTRS),
             ..OptConfig::default()
         },
     )?;

@@ -73,6 +73,10 @@ pub struct OptConfig {
     /// Most qubits one range may touch (ranges end early to keep each window of a
     /// window-by-window verification small); `None` for no cap.
     pub window_qubits: Option<usize>,
+    /// Most instructions in one range (at most [`MAX_RANGE_INSTRS`]): every range
+    /// end is a sync point, so a smaller value gives a finer compile trace at the
+    /// cost of blocks that cannot span the cuts.
+    pub max_range_instrs: usize,
     /// Time one block's coupling program may take before the fallback is used.
     pub block_time: std::time::Duration,
     /// Solver time for the whole compile; once spent, new blocks are made by the
@@ -89,6 +93,7 @@ impl Default for OptConfig {
             objective: Objective::default(),
             max_steps: super::DEFAULT_MAX_STEPS,
             window_qubits: None,
+            max_range_instrs: MAX_RANGE_INSTRS,
             block_time: std::time::Duration::from_secs(2),
             solver_time: std::time::Duration::from_secs(3),
             keep_certificates: false,
@@ -127,7 +132,8 @@ enum Range {
     Barrier(usize),
 }
 
-fn ranges(c: &Circuit, window_qubits: Option<usize>) -> Vec<Range> {
+fn ranges(c: &Circuit, window_qubits: Option<usize>, max_len: usize) -> Vec<Range> {
+    let max_len = max_len.clamp(1, MAX_RANGE_INSTRS);
     let mut out = Vec::new();
     let mut start = 0;
     let mut touched: Vec<bool> = vec![false; c.n_qubits() as usize];
@@ -155,7 +161,7 @@ fn ranges(c: &Circuit, window_qubits: Option<usize>) -> Vec<Range> {
             count = 0;
             continue;
         }
-        if i - start >= MAX_RANGE_INSTRS {
+        if i - start >= max_len {
             // Bounded ranges keep the memory of one range's plans small.
             close(&mut out, start, i);
             start = i;
@@ -225,7 +231,7 @@ pub fn compile_optimized(
     let mut seq = Sequence::new(ions, c.cregs.clone());
     let mut sync = Vec::new();
     let n = c.n_qubits() as usize;
-    for range in ranges(c, cfg.window_qubits) {
+    for range in ranges(c, cfg.window_qubits, cfg.max_range_instrs) {
         let (end, steps) = match range {
             Range::Gates(r) => {
                 let ops = canonical(c, &c.instrs[r.clone()])?;

@@ -332,13 +332,7 @@ fn run(cli: Cli) -> Result<ExitCode, Failure> {
                 }
             };
             let profile = driver::load_profile(&device)?;
-            if seq.n_ions > profile.device.ions {
-                return Err(format!(
-                    "error: the sequence is for {} ions, but the device `{}` has {}\n",
-                    seq.n_ions, profile.device.name, profile.device.ions
-                )
-                .into());
-            }
+            driver::fits_device(&seq, &profile)?;
             let opts = tutti::report::draw::DrawOptions {
                 from_us: from,
                 to_us: to,
@@ -376,17 +370,19 @@ fn run(cli: Cli) -> Result<ExitCode, Failure> {
             limits,
         } => {
             let crosstalk = crosstalk.map(|d| driver::load_profile(&d)).transpose()?;
+            let defaults = CheckConfig::default();
+            let memory_budget =
+                memory.map_or(defaults.memory_budget, |m| m.saturating_mul(1 << 20));
+            let cfg = CheckConfig {
+                mode: mode.into(),
+                trials,
+                seed,
+                tolerance,
+                memory_budget,
+                up_to_final_diagonal,
+                ..defaults
+            };
             if locate {
-                let defaults = CheckConfig::default();
-                let cfg = CheckConfig {
-                    mode: mode.into(),
-                    trials,
-                    seed,
-                    tolerance,
-                    memory_budget: memory
-                        .map_or(defaults.memory_budget, |m| m.saturating_mul(1 << 20)),
-                    ..defaults
-                };
                 let found = driver::locate(&a, &b, &limits.limits(), &cfg)?;
                 if json {
                     let value = driver::located_json(&found, &a, &b);
@@ -402,24 +398,12 @@ fn run(cli: Cli) -> Result<ExitCode, Failure> {
             let limits = limits.limits();
             let progress = Progress::start(&a);
             progress.stage("reading both sides");
-            let defaults = CheckConfig::default();
-            let memory_budget =
-                memory.map_or(defaults.memory_budget, |m| m.saturating_mul(1 << 20));
             let load = |p: &Path| {
                 driver::load_program_under(p, &limits, memory_budget, crosstalk.as_ref())
             };
             let loaded = load(&a).and_then(|pa| Ok((pa, load(&b)?)));
             let ((pa, wa), (pb, wb)) = loaded.map_err(|e| progress.cleared(e))?;
             progress.0.suspend(|| eprint!("{wa}{wb}"));
-            let cfg = CheckConfig {
-                mode: mode.into(),
-                trials,
-                seed,
-                tolerance,
-                memory_budget,
-                up_to_final_diagonal,
-                ..defaults
-            };
             progress.stage("comparing");
             let counter = tutti::sim::WorkCounter::default();
             let finished = std::sync::atomic::AtomicBool::new(false);

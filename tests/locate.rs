@@ -46,6 +46,16 @@ fn compile_baseline(c: impl AsRef<Path>, out: impl AsRef<Path>) -> std::process:
     ])
 }
 
+/// [`CIRCUIT`] without its barriers, written as `plain.qasm`: its path and text.
+fn plain_circuit(dir: &Path) -> (PathBuf, String) {
+    let c = dir.join("plain.qasm");
+    let body = CIRCUIT
+        .replace("barrier q;\n", "")
+        .replace("barrier q[0],q[1];\n", "");
+    std::fs::write(&c, &body).unwrap();
+    (c, body)
+}
+
 fn setup(dir: &Path, format: &str) -> (PathBuf, PathBuf) {
     let c = dir.join("three.qasm");
     std::fs::write(&c, CIRCUIT).unwrap();
@@ -337,6 +347,27 @@ fn checkpoint_counts_must_match_and_two_circuits_are_not_located() {
     // the unitary).
     let o = tutti(&["check", c.to_str().unwrap(), fewer.to_str().unwrap()]);
     assert_eq!(o.status.code(), Some(0), "{}", text(&o.stdout));
+    // Options --locate does not honour are refused, not ignored (it once compared
+    // without the crosstalk it was given).
+    for extra in [
+        &["--crosstalk", "demo"][..],
+        &["--up-to-final-diagonal"][..],
+    ] {
+        let mut args = vec![
+            "check",
+            c.to_str().unwrap(),
+            out.to_str().unwrap(),
+            "--locate",
+        ];
+        args.extend_from_slice(extra);
+        let o = tutti(&args);
+        assert_eq!(o.status.code(), Some(2), "{extra:?}");
+        assert!(
+            text(&o.stderr).contains("cannot be used with"),
+            "{}",
+            text(&o.stderr)
+        );
+    }
     // Two sequences: their checkpoint counts must match too.
     let o = check_locate(&out, &fewer);
     assert_eq!(o.status.code(), Some(2));
@@ -423,11 +454,7 @@ fn draw_marks_the_checkpoints() {
 #[test]
 fn without_checkpoints_the_compile_trace_locates_the_instruction() {
     let tmp = tempfile::tempdir().unwrap();
-    let c = tmp.path().join("plain.qasm");
-    let body = CIRCUIT
-        .replace("barrier q;\n", "")
-        .replace("barrier q[0],q[1];\n", "");
-    std::fs::write(&c, &body).unwrap();
+    let (c, body) = plain_circuit(tmp.path());
     let mut outs = Vec::new();
     for format in ["pulses", "json"] {
         let out = tmp.path().join(format!("plain.{format}"));
@@ -624,11 +651,7 @@ fn check_proves_a_large_sequence_equal_along_its_trace() {
 #[test]
 fn the_optimizer_output_is_located_by_instruction_with_trace_every() {
     let tmp = tempfile::tempdir().unwrap();
-    let c = tmp.path().join("plain.qasm");
-    let body = CIRCUIT
-        .replace("barrier q;\n", "")
-        .replace("barrier q[0],q[1];\n", "");
-    std::fs::write(&c, &body).unwrap();
+    let (c, _) = plain_circuit(tmp.path());
     let out = tmp.path().join("plain.pulses");
     let o = tutti(&[
         "compile",

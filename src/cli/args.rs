@@ -316,7 +316,9 @@ pub(super) enum Command {
         /// checkpoint by checkpoint, and the steps that differ in that section are
         /// named too, with their lines and ions. Without checkpoints, a sequence and
         /// the circuit it was compiled from are aligned by its compile trace.
-        #[arg(long)]
+        /// Not with --crosstalk or --up-to-final-diagonal (sections are compared as
+        /// written, and exactly).
+        #[arg(long, conflicts_with_all = ["crosstalk", "up_to_final_diagonal"])]
         locate: bool,
         /// Take each sequence as it runs under the light-shift crosstalk of this
         /// device profile (`demo` or a TOML file); circuits are taken as they are.

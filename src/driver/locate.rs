@@ -537,8 +537,9 @@ pub fn located_text(
         let _ =
             writeln!(
             out,
-            "EQUIVALENT section by section ({} sections between {}, mode {}, worst distance {})",
+            "EQUIVALENT section by section ({} section{} between {}, mode {}, worst distance {})",
             l.sections,
+            if l.sections == 1 { "" } else { "s" },
             if l.by_trace { "trace points" } else { "checkpoints" },
             v.mode.name(),
             fmt_distance(v.distance)

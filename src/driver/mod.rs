@@ -420,15 +420,22 @@ fn compile_stage(
     })
 }
 
-/// The budget of a sequence as it is written (a hand-built or compiled one), on
-/// `profile`. The sequence may use fewer ions than the device has, never more.
-pub fn budget_sequence(seq: &Sequence, profile: &Profile) -> Result<Budget, String> {
+/// Whether `seq` can run on `profile`'s device: it may use fewer ions than the
+/// device has, never more.
+pub fn fits_device(seq: &Sequence, profile: &Profile) -> Result<(), String> {
     if seq.n_ions > profile.device.ions {
         return Err(format!(
             "error: the sequence is for {} ions, but the device `{}` has {}\n",
             seq.n_ions, profile.device.name, profile.device.ions
         ));
     }
+    Ok(())
+}
+
+/// The budget of a sequence as it is written (a hand-built or compiled one), on
+/// `profile`. The sequence may use fewer ions than the device has, never more.
+pub fn budget_sequence(seq: &Sequence, profile: &Profile) -> Result<Budget, String> {
+    fits_device(seq, profile)?;
     Ok(with_crosstalk(
         budget(seq, profile, seq.addressed_ion_count()),
         seq,

@@ -5,8 +5,9 @@
 //! proof (forced by a memory budget too small for the full comparison) can be
 //! compared with the truth: the phase-invariant operator-norm distance
 //! `min_c ||Q - cP|| = 2 sin(D/4)`, `D` the shortest arc of the unit circle holding
-//! every eigenvalue of `P^dagger Q` (the eigenvalues from nalgebra's complex Schur
-//! decomposition, a general-purpose reference). Soundness: the proof never fires on
+//! every eigenvalue of `P^dagger Q` (the eigenvalues from nalgebra's Hermitian
+//! eigensolver, a general-purpose reference, by the construction in
+//! `true_distance`). Soundness: the proof never fires on
 //! equal programs, and its bound never exceeds that distance. Power: it catches the
 //! single-pulse edits an experimenter makes by hand, on active and on spare ions.
 
@@ -263,11 +264,6 @@ fn held_fields_never_prove_equal_programs_different_and_bound_the_true_distance(
             let held = held_verdict(&a, &b);
             if truth.equivalent {
                 equal_seen += 1;
-                assert_ne!(
-                    held,
-                    Starved::Differ(None),
-                    "round {round}, {what}: equal, yet proven different"
-                );
                 assert!(
                     !matches!(held, Starved::Differ(_)),
                     "round {round}, {what}: equal, yet proven different: {held:?}"

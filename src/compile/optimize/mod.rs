@@ -18,6 +18,8 @@
 
 pub mod dag;
 pub mod emit;
+pub mod ladder;
+pub mod multi_control;
 pub mod phase_poly;
 pub mod schedule;
 
@@ -203,9 +205,32 @@ fn sub_circuit(c: &Circuit, instrs: Vec<Instr>) -> Circuit {
     }
 }
 
+/// A pass over a range's instructions, keeping its unitary.
+pub type CircuitPass = fn(&[Instr]) -> Vec<Instr>;
+
+/// The circuit-level passes for `target`, in order, with their names. The ladder and
+/// multi-control rewrites trade more interactions for fewer blocks, which only the
+/// collective target turns into less area (their module docs).
+pub fn circuit_passes(target: Target) -> Vec<(&'static str, CircuitPass)> {
+    let mut passes: Vec<(&'static str, CircuitPass)> = Vec::new();
+    if target == Target::Collective {
+        passes.push(("multi_control", multi_control::rewrite));
+        passes.push(("ladder", ladder::rewrite));
+    }
+    passes.push(("phase_poly", phase_poly::rewrite));
+    passes
+}
+
 /// The canonical form of `instrs` after the circuit-level and DAG passes.
-pub fn canonical(c: &Circuit, instrs: &[Instr]) -> Result<Vec<Canon>, CompileError> {
-    let rewritten = phase_poly::rewrite(instrs);
+pub fn canonical(
+    c: &Circuit,
+    instrs: &[Instr],
+    target: Target,
+) -> Result<Vec<Canon>, CompileError> {
+    let mut rewritten = instrs.to_vec();
+    for (_, pass) in circuit_passes(target) {
+        rewritten = pass(&rewritten);
+    }
     let lowered = lower(&sub_circuit(c, rewritten))?;
     let mut g = dag::Dag::new(lowered.into_iter().map(|s| s.op));
     for (_, pass) in dag::PASSES {
@@ -234,7 +259,7 @@ pub fn compile_optimized(
     for range in ranges(c, cfg.window_qubits, cfg.max_range_instrs) {
         let (end, steps) = match range {
             Range::Gates(r) => {
-                let ops = canonical(c, &c.instrs[r.clone()])?;
+                let ops = canonical(c, &c.instrs[r.clone()], cfg.target)?;
                 let s = schedule::schedule(&ops, n);
                 (r.end, emitter.segment(&s, None))
             }
@@ -256,7 +281,7 @@ pub fn compile_optimized(
                     _ => {
                         let mut bare = instr.clone();
                         bare.condition = None;
-                        let ops = canonical(c, std::slice::from_ref(&bare))?;
+                        let ops = canonical(c, std::slice::from_ref(&bare), cfg.target)?;
                         let s = schedule::schedule(&ops, n);
                         emitter.segment(&s, instr.condition.as_ref())
                     }

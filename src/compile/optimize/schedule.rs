@@ -27,6 +27,10 @@ pub struct Schedule {
     pub blocks: Vec<Block>,
 }
 
+/// How many blocks past the earliest one an interaction may look for a block that
+/// leaves it disjoint from the block's other pairs.
+const LOOKAHEAD: usize = 8;
+
 const IDENTITY: Mat2 = [
     [C64::new(1.0, 0.0), C64::new(0.0, 0.0)],
     [C64::new(0.0, 0.0), C64::new(1.0, 0.0)],
@@ -73,7 +77,32 @@ pub fn schedule(ops: &[Canon], n: usize) -> Schedule {
                     pending[q] = IDENTITY;
                     has_pending[q] = false;
                 }
-                let k = ready[a as usize].max(ready[b as usize]);
+                let mut k = ready[a as usize].max(ready[b as usize]);
+                // A block where a qubit already has a partner becomes a star, which
+                // costs more area than a matching; a later block (still allowed:
+                // nothing on these qubits was placed after `ready`) that couples
+                // neither qubit takes the pair at no extra area when its couplings
+                // are as strong.
+                let busy = |blk: &Block| {
+                    blk.iter()
+                        .any(|&(x, y, _)| [x, y].contains(&a) || [x, y].contains(&b))
+                };
+                // A pair both of whose qubits the newest block already couples
+                // closes a cycle there (a uniform block is one sign vector, a
+                // star is not); it stays with them rather than moving earlier.
+                let holds = |blk: &Block, q: u32| blk.iter().any(|&(x, y, _)| x == q || y == q);
+                if let Some(newest) = blocks.len().checked_sub(1) {
+                    if newest > k && holds(&blocks[newest], a) && holds(&blocks[newest], b) {
+                        k = newest;
+                    }
+                }
+                if k < blocks.len() && busy(&blocks[k]) {
+                    if let Some(j) =
+                        (k + 1..blocks.len().min(k + 1 + LOOKAHEAD)).find(|&j| !busy(&blocks[j]))
+                    {
+                        k = j;
+                    }
+                }
                 while blocks.len() <= k {
                     blocks.push(Vec::new());
                 }

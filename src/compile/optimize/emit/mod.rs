@@ -274,7 +274,12 @@ impl<'a> Emitter<'a> {
         let mut terms = Vec::new();
         for &(a, b, w) in block {
             let mut w = w - PI * (w / PI).round();
-            if w.abs() > PI / 4.0 + EPS {
+            // At exactly pi/4 either sign serves; on the collective target positive
+            // couplings share sign vectors (a uniform block is one pulse) where
+            // negative ones frustrate (pair pulses do not care, and the carry costs
+            // light shifts).
+            let flip = self.target == Target::Collective && w < -PI / 4.0 + EPS;
+            if w.abs() > PI / 4.0 + EPS || flip {
                 w -= FRAC_PI_2 * w.signum();
                 *carry.entry(a).or_insert(0.0) += PI;
                 *carry.entry(b).or_insert(0.0) += PI;

@@ -308,7 +308,7 @@ pub const ORDER_WINDOW: usize = 32;
 
 /// The connected components of the coupling graph (ions with no coupling each
 /// alone), each sorted.
-fn components(c: &Coupling) -> Vec<Vec<usize>> {
+pub fn components(c: &Coupling) -> Vec<Vec<usize>> {
     let mut root: Vec<usize> = (0..c.n).collect();
     fn find(root: &mut [usize], mut i: usize) -> usize {
         while root[i] != i {
@@ -347,7 +347,7 @@ fn components(c: &Coupling) -> Vec<Vec<usize>> {
 /// are its own, those between components cancel as distinct columns are orthogonal.
 /// The lower bound is the largest component's: restricting any synthesis of the whole
 /// to one component's ions synthesises that component at no more weight.
-fn side_by_side(n: usize, parts: &[(Vec<usize>, Synthesis)]) -> Synthesis {
+pub fn side_by_side(n: usize, parts: &[(Vec<usize>, Synthesis)]) -> Synthesis {
     let total = parts.iter().map(|(_, s)| s.weight).fold(0.0f64, f64::max);
     let lower_bound = parts
         .iter()

@@ -159,5 +159,8 @@ pub type Pass = fn(&mut Dag);
 pub const PASSES: &[(&str, Pass)] = &[
     ("fuse_locals", fuse_locals),
     ("merge_interactions", merge_interactions),
+    ("pair_runs", super::pair_runs::pair_runs),
+    ("fuse_locals_between", fuse_locals),
+    ("merge_interactions_again", merge_interactions),
     ("fuse_locals_again", fuse_locals),
 ];

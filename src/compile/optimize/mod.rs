@@ -16,10 +16,12 @@
 //! Invariant: the output equals the input up to global phase, with the device's other
 //! ions left as they were (the driver verifies this unless told not to).
 
+pub mod controlled;
 pub mod dag;
 pub mod emit;
 pub mod ladder;
 pub mod multi_control;
+pub mod pair_runs;
 pub mod phase_poly;
 pub mod schedule;
 
@@ -209,7 +211,7 @@ fn sub_circuit(c: &Circuit, instrs: Vec<Instr>) -> Circuit {
 pub type CircuitPass = fn(&[Instr]) -> Vec<Instr>;
 
 /// The circuit-level passes for `target`, in order, with their names. The ladder and
-/// multi-control rewrites trade more interactions for fewer blocks, which only the
+/// multi-control rewrites (the first two) trade more interactions for fewer blocks, which only the
 /// collective target turns into less area (their module docs).
 pub fn circuit_passes(target: Target) -> Vec<(&'static str, CircuitPass)> {
     let mut passes: Vec<(&'static str, CircuitPass)> = Vec::new();
@@ -217,6 +219,7 @@ pub fn circuit_passes(target: Target) -> Vec<(&'static str, CircuitPass)> {
         passes.push(("multi_control", multi_control::rewrite));
         passes.push(("ladder", ladder::rewrite));
     }
+    passes.push(("controlled", controlled::rewrite));
     passes.push(("phase_poly", phase_poly::rewrite));
     passes
 }

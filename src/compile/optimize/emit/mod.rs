@@ -22,8 +22,8 @@ use super::schedule::Schedule;
 use super::Objective;
 use crate::circuit::{Condition, Mat2};
 use crate::compile::couple::{
-    hadamard_each, matching, order_pulses, pad_idle, synthesize, Budget as SynthBudget, Coupling,
-    Method, Pulse, Synthesis,
+    components, hadamard_each, matching, order_pulses, pad_idle, side_by_side, synthesize,
+    Budget as SynthBudget, Coupling, Method, Pulse, Synthesis,
 };
 use crate::compile::hadamard::smallest_hadamard;
 use crate::compile::lower::zyz;
@@ -325,6 +325,41 @@ impl<'a> Emitter<'a> {
         let quiet_candidate = if n_quiet > 0 { 1 } else { usize::MAX };
         if let Some(m) = matching(&device) {
             candidates.push((Made::Pulses(m.pulses), Method::Matching, m.weight));
+        }
+        // Components side by side over the whole device, every other ion a column of
+        // its own: one Hadamard matrix for both, where padding each component's
+        // pulses for the idle ions would multiply the pulse count again.
+        let parts = components(&local);
+        if parts.len() > 1 {
+            let mut on_device: Vec<(Vec<usize>, Synthesis)> = Vec::new();
+            let mut used = vec![false; n];
+            for part in parts {
+                let mut sub = Coupling::zero(part.len());
+                for (x, &i) in part.iter().enumerate() {
+                    for (y, &j) in part.iter().enumerate().skip(x + 1) {
+                        sub.set(x, y, local.get(i, j));
+                    }
+                }
+                let s = self.synthesis(&sub);
+                let ions: Vec<usize> = part.iter().map(|&i| active_idx[i]).collect();
+                ions.iter().for_each(|&i| used[i] = true);
+                on_device.push((ions, (*s).clone()));
+            }
+            for ion in (0..n).filter(|&i| !used[i]) {
+                on_device.push((
+                    vec![ion],
+                    Synthesis {
+                        pulses: Vec::new(),
+                        weight: 0.0,
+                        lower_bound: 0.0,
+                        method: Method::Single,
+                    },
+                ));
+            }
+            let joined = side_by_side(n, &on_device);
+            if joined.certifies(&device) {
+                candidates.push((Made::Pulses(joined.pulses), joined.method, joined.weight));
+            }
         }
         let h = hadamard_each(&device);
         candidates.push((Made::Pulses(h.pulses), Method::Hadamard, h.weight));

@@ -158,11 +158,11 @@ fn run(cli: Cli) -> Result<ExitCode, Failure> {
                 &driver::compiler_name(&cfg),
                 compiled.verification.as_ref(),
             ));
-            let text = format.render(&compiled.sequence);
-            match &output {
-                Some(path) => driver::write_output(path, &text, &file, force)?,
-                None => print!("{text}"),
-            }
+            let stdout = std::path::PathBuf::from("-");
+            let path = output.as_deref().unwrap_or(&stdout);
+            driver::write_output_with(path, &file, force, &mut |w| {
+                format.render_to(&compiled.sequence, w)
+            })?;
             let compiler = driver::compiler_name(&cfg);
             eprintln!(
                 "compiled {} for {device} ({} target, {compiler})",

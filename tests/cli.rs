@@ -783,3 +783,26 @@ fn the_objective_and_the_compiler_show_in_the_output_and_change_the_budget() {
     ]);
     assert_eq!(code, 2, "{err}");
 }
+
+/// Outputs are written as they are made (never held whole as text): a device that
+/// refuses the bytes (`/dev/full`) is an error with exit 2 naming the path, in every
+/// format.
+#[cfg(target_os = "linux")]
+#[test]
+fn a_failed_write_is_an_error_in_every_format() {
+    if !std::path::Path::new("/dev/full").exists() {
+        return;
+    }
+    for format in ["pulses", "json", "qasm"] {
+        let (code, _, err) = tutti(&[
+            "compile",
+            "circuits/qft_5.qasm",
+            "--format",
+            format,
+            "-o",
+            "/dev/full",
+        ]);
+        assert_eq!(code, 2, "{format}: {err}");
+        assert!(err.contains("cannot write /dev/full"), "{format}: {err}");
+    }
+}

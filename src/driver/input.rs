@@ -25,6 +25,27 @@ impl Format {
         }
     }
 
+    /// [`Format::render`] into a writer, made while it is written: a sequence of
+    /// millions of steps is never held twice, as text beside itself.
+    pub fn render_to(self, seq: &Sequence, out: &mut dyn std::io::Write) -> std::io::Result<()> {
+        match self {
+            Format::Json => write_json_to(seq, out),
+            Format::Qasm | Format::Pulses => {
+                let mut text = IoText { out, error: None };
+                let done = if self == Format::Qasm {
+                    write_qasm_to(seq, &mut text)
+                } else {
+                    write_pulses_to(seq, &mut text)
+                };
+                match (done, text.error) {
+                    (_, Some(e)) => Err(e),
+                    (Err(_), None) => Err(std::io::Error::other("formatting failed")),
+                    (Ok(()), None) => Ok(()),
+                }
+            }
+        }
+    }
+
     /// The format an extension names: `.pulses`, `.json`, `.qasm`.
     pub fn from_extension(path: &Path) -> Option<Format> {
         match path.extension().and_then(|e| e.to_str()) {
@@ -307,4 +328,19 @@ pub fn load_program_under(
         Loaded::Sequence(s) => Program::from_sequence(&s),
     };
     Ok((p, warnings))
+}
+
+/// Text formatting into a byte writer, keeping the first write error.
+struct IoText<'a> {
+    out: &'a mut dyn std::io::Write,
+    error: Option<std::io::Error>,
+}
+
+impl std::fmt::Write for IoText<'_> {
+    fn write_str(&mut self, s: &str) -> std::fmt::Result {
+        self.out.write_all(s.as_bytes()).map_err(|e| {
+            self.error.get_or_insert(e);
+            std::fmt::Error
+        })
+    }
 }

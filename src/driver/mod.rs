@@ -7,8 +7,10 @@ use crate::circuit::Circuit;
 use crate::compile::optimize::{compile_optimized, BlockReport, Objective, OptConfig};
 use crate::compile::{compile_baseline_bounded, CompileError, Target, DEFAULT_MAX_STEPS};
 use crate::native::profile::Profile;
-use crate::native::qasm_out::{read_qasm_sequence, write_qasm};
-use crate::native::text::{read_json, read_pulses, write_json, write_pulses};
+use crate::native::qasm_out::{read_qasm_sequence, write_qasm, write_qasm_to};
+use crate::native::text::{
+    read_json, read_pulses, write_json, write_json_to, write_pulses, write_pulses_to,
+};
 use crate::native::Sequence;
 use crate::qasm::{self, Limits};
 use crate::report::budget::{budget, with_crosstalk, Budget};
@@ -29,7 +31,7 @@ pub use input::{
     SourceDigest,
 };
 pub use locate::{equal_by_trace, locate, located_json, located_text, Located, Section};
-pub use output::write_output;
+pub use output::{write_output, write_output_with};
 /// Settings of one compilation.
 #[derive(Debug, Clone)]
 pub struct CompileConfig {
@@ -246,9 +248,19 @@ pub fn compile_counted(
     counter: &WorkCounter,
 ) -> Result<Compiled, DriverError> {
     on_stage(Stage::Compile);
-    let mut out = compile_stage(c, profile, cfg, None)?;
+    // When the whole comparison is sure to be refused, compile for windows at once
+    // rather than compiling twice.
+    let hopeless = cfg.verify && !cfg.baseline && whole_check_hopeless(c, &cfg.check);
+    let mut out = compile_stage(c, profile, cfg, hopeless.then_some(WINDOW_QUBITS))?;
     let verification = if cfg.verify {
-        let whole = {
+        let whole = if hopeless {
+            Err(CheckError::TooSlow {
+                qubits: c.n_qubits() as usize,
+                operations: c.instrs.len(),
+                work: f64::INFINITY,
+                budget: cfg.check.max_work,
+            })
+        } else {
             // What the machine runs: with compensation, the sequence under crosstalk
             // (the proof is then that the compensated program does the circuit on a
             // machine with this crosstalk).
@@ -288,7 +300,7 @@ pub fn compile_counted(
                 )))
             }
             Err(e) if e.beyond_budget() => {
-                if !cfg.baseline {
+                if !cfg.baseline && !hopeless {
                     // Recompile in ranges of few qubits, so that every window is small
                     // (the first output is freed first: it can be most of the memory).
                     on_stage(Stage::Compile);
@@ -329,6 +341,44 @@ pub fn compile_counted(
         verification,
         blocks: out.blocks,
         crosstalk,
+    })
+}
+
+/// True when comparing `c` whole with any compile of it must exceed the checker's
+/// work bound by far: `c` is not Clifford (so no tableau), and even the circuit's own
+/// operations on the qubits its gates touch, over one random state each, cost more
+/// than 16 times the bound (the sequence only adds operations). Then the driver
+/// compiles in small ranges and verifies window by window straight away; when unsure
+/// it compiles whole and falls back (both ways are verified).
+fn whole_check_hopeless(c: &Circuit, check: &CheckConfig) -> bool {
+    if !check.max_work.is_finite() {
+        return false;
+    }
+    let mut touched = vec![false; c.n_qubits() as usize];
+    for instr in &c.instrs {
+        for q in instr.op.qubits() {
+            touched[q.0 as usize] = true;
+        }
+    }
+    let n = touched.iter().filter(|&&t| t).count();
+    if n <= check.max_unitary_qubits || n >= 60 {
+        return false;
+    }
+    let lower_bound = c.instrs.len() as f64 * 2f64.powi(n as i32) * check.trials.max(1) as f64;
+    if lower_bound <= 16.0 * check.max_work {
+        return false;
+    }
+    let Ok(program) = Program::from_circuit(c) else {
+        return false;
+    };
+    let mut dev = 0.0;
+    let mut scratch = Vec::new();
+    program.items.iter().any(|item| match item {
+        crate::sim::program::Item::Unitary(k) => {
+            scratch.clear();
+            crate::sim::tableau::kernel_to_clifford(k, &mut scratch, &mut dev).is_none()
+        }
+        _ => false,
     })
 }
 

@@ -12,11 +12,20 @@ use super::*;
 /// - a symbolic link, a directory or a socket is refused: give the real path;
 /// - the input itself is never overwritten.
 pub fn write_output(path: &Path, text: &str, input: &Path, force: bool) -> Result<(), String> {
+    write_output_with(path, input, force, &mut |w| w.write_all(text.as_bytes()))
+}
+
+/// [`write_output`] of what `render` writes, buffered and never held whole.
+pub fn write_output_with(
+    path: &Path,
+    input: &Path,
+    force: bool,
+    render: &mut dyn FnMut(&mut dyn std::io::Write) -> std::io::Result<()>,
+) -> Result<(), String> {
     use std::io::Write;
     if path.as_os_str() == "-" {
-        let mut out = std::io::stdout().lock();
-        return out
-            .write_all(text.as_bytes())
+        let mut out = std::io::BufWriter::new(std::io::stdout().lock());
+        return render(&mut out)
             .and_then(|_| out.flush())
             .map_err(|e| format!("error: cannot write to standard output: {e}\n"));
     }
@@ -50,7 +59,7 @@ pub fn write_output(path: &Path, text: &str, input: &Path, force: bool) -> Resul
             ));
         }
         if !kind.is_file() {
-            return write_through(path, text, &kind);
+            return write_through(path, render, &kind);
         }
         if !force {
             return Err(format!(
@@ -74,9 +83,13 @@ pub fn write_output(path: &Path, text: &str, input: &Path, force: bool) -> Resul
         builder.permissions(std::fs::Permissions::from_mode(0o666));
     }
     let mut tmp = builder.tempfile_in(dir).map_err(fail)?;
-    tmp.write_all(text.as_bytes())
-        .and_then(|_| tmp.as_file().sync_all())
-        .map_err(fail)?;
+    {
+        let mut buffered = std::io::BufWriter::new(tmp.as_file_mut());
+        render(&mut buffered)
+            .and_then(|_| buffered.flush())
+            .map_err(fail)?;
+    }
+    tmp.as_file().sync_all().map_err(fail)?;
     if let Some(meta) = &existing {
         // Keep the replaced file's permissions (an unreadable temporary file is the
         // only other choice tempfile offers).
@@ -89,7 +102,7 @@ pub fn write_output(path: &Path, text: &str, input: &Path, force: bool) -> Resul
 /// Writes into an existing special file (device, FIFO) without replacing it.
 pub(super) fn write_through(
     path: &Path,
-    text: &str,
+    render: &mut dyn FnMut(&mut dyn std::io::Write) -> std::io::Result<()>,
     kind: &std::fs::FileType,
 ) -> Result<(), String> {
     use std::io::Write;
@@ -107,6 +120,10 @@ pub(super) fn write_through(
     std::fs::OpenOptions::new()
         .write(true)
         .open(path)
-        .and_then(|mut f| f.write_all(text.as_bytes()))
+        .and_then(|f| {
+            let mut buffered = std::io::BufWriter::new(f);
+            render(&mut buffered)?;
+            buffered.flush()
+        })
         .map_err(|e| format!("error: cannot write {}: {e}\n", path.display()))
 }

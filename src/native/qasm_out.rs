@@ -83,6 +83,13 @@ fn header(n: u32, rot_sizes: &BTreeSet<usize>, ms_sizes: &BTreeSet<usize>) -> St
 
 /// The OpenQASM 2 text of a sequence.
 pub fn write_qasm(seq: &Sequence) -> String {
+    let mut out = String::new();
+    write_qasm_to(seq, &mut out).expect("a String takes any text");
+    out
+}
+
+/// [`write_qasm`], written as it is made.
+pub fn write_qasm_to(seq: &Sequence, out: &mut dyn std::fmt::Write) -> std::fmt::Result {
     let n = seq.n_ions;
     // The chain gates for every number of visible ions the sequence uses.
     let mut hidden = vec![false; n as usize];
@@ -101,27 +108,27 @@ pub fn write_qasm(seq: &Sequence) -> String {
             _ => {}
         }
     }
-    let mut out = header(n, &rot_sizes, &ms_sizes);
-    let _ = writeln!(out, "qreg q[{n}];");
+    out.write_str(&header(n, &rot_sizes, &ms_sizes))?;
+    writeln!(out, "qreg q[{n}];")?;
     for r in &seq.cregs {
-        let _ = writeln!(out, "creg {}[{}];", r.name, r.size);
+        writeln!(out, "creg {}[{}];", r.name, r.size)?;
     }
     let mut hidden = vec![false; n as usize];
     let r = format_real;
     let mut checkpoints = seq.checkpoints.iter().peekable();
     for (k, step) in seq.steps.iter().enumerate() {
         while checkpoints.next_if(|&&c| c <= k).is_some() {
-            let _ = writeln!(out, "barrier q;");
+            writeln!(out, "barrier q;")?;
         }
         if let Some(c) = &step.condition {
-            let _ = write!(out, "if({}=={}) ", seq.cregs[c.creg as usize].name, c.value);
+            write!(out, "if({}=={}) ", seq.cregs[c.creg as usize].name, c.value)?;
         }
         let visible: Vec<String> = (0..n)
             .filter(|&i| !hidden[i as usize])
             .map(|i| format!("q[{i}]"))
             .collect();
         let k = visible.len();
-        let _ = match step.op {
+        match step.op {
             NativeOp::Collective { theta, phi } => {
                 writeln!(
                     out,
@@ -167,21 +174,21 @@ pub fn write_qasm(seq: &Sequence) -> String {
                 writeln!(out, "measure q[{ion}] -> {name};")
             }
             NativeOp::Reset { ion } => writeln!(out, "reset q[{ion}];"),
-        };
+        }?;
     }
     for _ in checkpoints {
-        let _ = writeln!(out, "barrier q;");
+        writeln!(out, "barrier q;")?;
     }
     if let Some(p) = &seq.provenance {
         for (key, value) in p.fields() {
-            let _ = writeln!(
+            writeln!(
                 out,
                 "{PROVENANCE_PREFIX}{key}: {}",
                 super::text::one_line(value)
-            );
+            )?;
         }
     }
-    out
+    Ok(())
 }
 
 /// Provenance lines of the QASM output start with this (comments to any reader).

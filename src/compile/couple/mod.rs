@@ -136,12 +136,22 @@ pub struct Synthesis {
 impl Synthesis {
     /// The largest entry of `sum_k t_k s_k s_k^T - w` (the certificate check).
     pub fn residual(&self, c: &Coupling) -> f64 {
+        let n = c.n;
+        // Row i holds the pairs (i, j > i), in the order of `pair`.
         let mut acc = vec![0.0; c.w.len()];
+        let mut signs = vec![0.0f64; n];
         for p in &self.pulses {
-            for i in 0..c.n {
-                for j in i + 1..c.n {
-                    acc[pair(c.n, i, j)] += p.weight * (p.signs[i] * p.signs[j]) as f64;
+            for (x, &s) in signs.iter_mut().zip(&p.signs) {
+                *x = f64::from(s);
+            }
+            let mut start = 0;
+            for i in 0..n {
+                let a = p.weight * signs[i];
+                let row = &mut acc[start..start + (n - i - 1)];
+                for (slot, &sj) in row.iter_mut().zip(&signs[i + 1..]) {
+                    *slot += a * sj;
                 }
+                start += n - i - 1;
             }
         }
         acc.iter()
@@ -149,7 +159,6 @@ impl Synthesis {
             .fold(0.0f64, |m, (a, b)| m.max((a - b).abs()))
     }
 
-    /// True when the certificate holds: weights non-negative, couplings matched.
     pub fn certifies(&self, c: &Coupling) -> bool {
         self.pulses
             .iter()

@@ -131,10 +131,50 @@ pub const JSON_VERSION: u32 = 2;
 
 /// The JSON form of a sequence (docs/formats.md).
 pub fn write_json(seq: &Sequence) -> String {
-    let j = JsonSequence {
+    let mut out = Vec::new();
+    write_json_to(seq, &mut out).expect("a Vec takes any bytes");
+    String::from_utf8(out).expect("serde_json writes UTF-8")
+}
+
+/// The steps of a sequence as JSON, made one by one while they are written.
+struct Program<'a>(&'a Sequence);
+
+impl serde::Serialize for Program<'_> {
+    fn serialize<S: serde::Serializer>(&self, s: S) -> Result<S::Ok, S::Error> {
+        let seq = self.0;
+        s.collect_seq(seq.steps.iter().map(|st| JsonStep {
+            op: st.op.into(),
+            when: st.condition.as_ref().map(|c| JsonWhen {
+                register: seq.cregs[c.creg as usize].name.clone(),
+                equals: c.value.clone(),
+            }),
+        }))
+    }
+}
+
+/// [`JsonSequence`] as written: the same fields in the same order, the program
+/// made while it is written.
+#[derive(serde::Serialize)]
+struct JsonSequenceOut<'a> {
+    tutti_sequence: u32,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    provenance: Option<&'a crate::native::Provenance>,
+    ions: u32,
+    bits: Vec<JsonBits>,
+    program: Program<'a>,
+    #[serde(skip_serializing_if = "<[usize]>::is_empty")]
+    checkpoints: &'a [usize],
+    #[serde(skip_serializing_if = "Vec::is_empty")]
+    trace: Vec<[usize; 2]>,
+}
+
+/// [`write_json`], written as it is made (an output of millions of steps is never
+/// held twice).
+pub fn write_json_to(seq: &Sequence, out: &mut dyn std::io::Write) -> std::io::Result<()> {
+    let j = JsonSequenceOut {
         tutti_sequence: JSON_VERSION,
-        provenance: seq.provenance.clone(),
-        checkpoints: seq.checkpoints.clone(),
+        provenance: seq.provenance.as_ref(),
+        checkpoints: &seq.checkpoints,
         trace: seq.trace.iter().map(|t| [t.instrs, t.steps]).collect(),
         ions: seq.n_ions,
         bits: seq
@@ -145,19 +185,10 @@ pub fn write_json(seq: &Sequence) -> String {
                 size: r.size,
             })
             .collect(),
-        program: seq
-            .steps
-            .iter()
-            .map(|s| JsonStep {
-                op: s.op.into(),
-                when: s.condition.as_ref().map(|c| JsonWhen {
-                    register: seq.cregs[c.creg as usize].name.clone(),
-                    equals: c.value.clone(),
-                }),
-            })
-            .collect(),
+        program: Program(seq),
     };
-    serde_json::to_string_pretty(&j).expect("sequences serialise") + "\n"
+    serde_json::to_writer_pretty(&mut *out, &j).map_err(std::io::Error::from)?;
+    out.write_all(b"\n")
 }
 
 /// Reads the JSON form, validating ion indices and registers.

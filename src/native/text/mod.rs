@@ -9,11 +9,10 @@ use super::{names, NativeOp, Sequence, Step};
 use crate::circuit::{format_real, Condition, Register};
 use crate::qasm::diag::{Diagnostic, SourceMap, Span};
 use std::f64::consts::PI;
-use std::fmt::Write;
 
 mod json;
 
-pub use json::{read_json, write_json, JSON_VERSION};
+pub use json::{read_json, write_json, write_json_to, JSON_VERSION};
 /// Writes an angle as a multiple of pi when it is one with a small denominator (to
 /// within a few units in the last place), otherwise as radians with full precision.
 /// A tiny angle is never written as a multiple of pi: `1e-13` is not `0*pi`.
@@ -82,30 +81,37 @@ pub fn one_line(value: &str) -> String {
 /// The pulse list of a sequence.
 pub fn write_pulses(seq: &Sequence) -> String {
     let mut out = String::new();
-    let _ = writeln!(
+    write_pulses_to(seq, &mut out).expect("a String takes any text");
+    out
+}
+
+/// The pulse list of a sequence, written as it is made (an output of millions of
+/// steps is never held twice).
+pub fn write_pulses_to(seq: &Sequence, out: &mut dyn std::fmt::Write) -> std::fmt::Result {
+    writeln!(
         out,
         "# tutti pulse list: one native operation per line, angles in radians"
-    );
+    )?;
     if let Some(p) = &seq.provenance {
         for (key, value) in p.fields() {
-            let _ = writeln!(out, "{PROVENANCE_PREFIX}{key}: {}", one_line(value));
+            writeln!(out, "{PROVENANCE_PREFIX}{key}: {}", one_line(value))?;
         }
     }
-    let _ = writeln!(out, "ions {}", seq.n_ions);
+    writeln!(out, "ions {}", seq.n_ions)?;
     for r in &seq.cregs {
-        let _ = writeln!(out, "creg {}[{}]", r.name, r.size);
+        writeln!(out, "creg {}[{}]", r.name, r.size)?;
     }
     let mut checkpoints = seq.checkpoints.iter().peekable();
     let mut trace = seq.trace.iter().peekable();
     for (k, step) in seq.steps.iter().enumerate() {
         while checkpoints.next_if(|&&c| c <= k).is_some() {
-            let _ = writeln!(out, "{CHECKPOINT}");
+            writeln!(out, "{CHECKPOINT}")?;
         }
         while let Some(t) = trace.next_if(|t| t.steps <= k) {
-            let _ = writeln!(out, "{TRACE} {}", t.instrs);
+            writeln!(out, "{TRACE} {}", t.instrs)?;
         }
         if let Some(c) = &step.condition {
-            out.push_str(&condition_text(seq, c));
+            out.write_str(&condition_text(seq, c))?;
         }
         let a = format_angle;
         let line = match step.op {
@@ -135,15 +141,15 @@ pub fn write_pulses(seq: &Sequence) -> String {
             }
             NativeOp::Reset { ion } => format!("{} {ion}", step.op.name()),
         };
-        let _ = writeln!(out, "{line}");
+        writeln!(out, "{line}")?;
     }
     for _ in checkpoints {
-        let _ = writeln!(out, "{CHECKPOINT}");
+        writeln!(out, "{CHECKPOINT}")?;
     }
     for t in trace {
-        let _ = writeln!(out, "{TRACE} {}", t.instrs);
+        writeln!(out, "{TRACE} {}", t.instrs)?;
     }
-    out
+    Ok(())
 }
 
 fn clbit_name(regs: &[Register], bit: u32) -> String {

@@ -1,0 +1,47 @@
+//! Issue 9's large case, reproducibly: a generated 113k-gate circuit on 21 qubits
+//! (rz, ry, h, cx, cu1; the stand-in for an outside circuit of that size, which is
+//! not vendored) compiled by the optimizer for the demo device's collective target
+//! and verified window by window, as `tutti compile` does. Prints the wall time of
+//! compile plus verification, the output's size and the process's peak resident
+//! memory (VmHWM). Figures are printed, not asserted. Run with
+//! `cargo bench --bench stand_in`.
+
+mod common;
+
+use common::{generated, Kind};
+use std::time::Instant;
+use tutti::driver::{compile, CompileConfig};
+use tutti::native::profile::Profile;
+
+fn peak_kib() -> Option<u64> {
+    let status = std::fs::read_to_string("/proc/self/status").ok()?;
+    let line = status.lines().find(|l| l.starts_with("VmHWM:"))?;
+    line.split_whitespace().nth(1)?.parse().ok()
+}
+
+fn main() {
+    let text = generated(
+        21,
+        113_000,
+        0x113,
+        &[Kind::Rz, Kind::Ry, Kind::H, Kind::Cx, Kind::Cu1],
+    );
+    let circuit = tutti::qasm::read_str("stand_in.qasm", &text)
+        .circuit
+        .expect("the generated circuit reads");
+    drop(text);
+    let cfg = CompileConfig {
+        max_steps: 200_000_000,
+        ..CompileConfig::default()
+    };
+    let t = Instant::now();
+    let out = compile(&circuit, &Profile::demo(), &cfg).expect("compiles and verifies");
+    let secs = t.elapsed().as_secs_f64();
+    println!(
+        "113k gates on 21 qubits, demo device, collective target: compile and verify {secs:.1} s; {} steps ({} MS pulses, {} light shifts); peak memory {} MiB (goal: 10 s, 1024 MiB)",
+        out.sequence.steps.len(),
+        out.budget.ms_pulses,
+        out.budget.light_shifts,
+        peak_kib().map_or("unknown".into(), |k| (k / 1024).to_string())
+    );
+}

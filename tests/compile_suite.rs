@@ -134,7 +134,13 @@ fn the_default_compile_verifies_a_large_circuit_gate_by_gate_within_bounded_work
     let cfg = CompileConfig::default();
     assert!(cfg.check.max_work.is_finite() && cfg.check.max_work <= 1e12);
     let circuit = common::read_ok("tests/data/qasmbench/large/adder_n28/adder_n28.qasm".as_ref());
-    let out = compile(&circuit, &Profile::demo(), &cfg).unwrap();
+    // Sure to be refused whole (not Clifford, 28 qubits): compiled once, for windows.
+    let mut compiles = 0;
+    let out = tutti::driver::compile_with(&circuit, &Profile::demo(), &cfg, &mut |s| {
+        compiles += usize::from(s == tutti::driver::Stage::Compile)
+    })
+    .unwrap();
+    assert_eq!(compiles, 1);
     match out.verification {
         Some(Verification::Windowed(b)) => assert!(b.equivalent, "{b:?}"),
         other => panic!("expected gate-by-gate verification, got {other:?}"),
@@ -142,6 +148,10 @@ fn the_default_compile_verifies_a_large_circuit_gate_by_gate_within_bounded_work
     // A small circuit still gets the whole comparison under the same default.
     let small = common::read_ok("circuits/qft_5.qasm".as_ref());
     let out = compile(&small, &Profile::demo(), &cfg).unwrap();
+    assert!(matches!(out.verification, Some(Verification::Whole(v)) if v.equivalent));
+    // So does a large Clifford circuit (the tableau), though it has 40 qubits.
+    let ghz = common::read_ok("circuits/ghz_40.qasm".as_ref());
+    let out = compile(&ghz, &Profile::demo(), &cfg).unwrap();
     assert!(matches!(out.verification, Some(Verification::Whole(v)) if v.equivalent));
 }
 

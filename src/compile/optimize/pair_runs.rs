@@ -246,11 +246,12 @@ fn resynthesise(run: &[Canon], a: u32, b: u32) -> Option<Vec<Canon>> {
     let d = canonical(&u)?;
     let after: f64 = d.1.iter().map(|x| x.abs()).sum();
     let count = d.1.iter().filter(|x| x.abs() >= 1e-12).count();
-    if after < before - 1e-9 && count <= zzs.len() {
-        Some(emit(&d, a, b))
-    } else {
-        None
+    if after >= before - 1e-9 || count > zzs.len() {
+        return None;
     }
+    let new = emit(&d, a, b);
+    // The operations themselves, not only the decomposition, must be the run.
+    (overlap(&u, &unitary(&new, a)) > 1.0 - 1e-10).then_some(new)
 }
 
 /// Pass: each run of interactions on one pair, with only that pair's single-qubit

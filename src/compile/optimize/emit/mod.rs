@@ -316,9 +316,9 @@ impl<'a> Emitter<'a> {
             best.weight,
         ));
         // The same pulses, decoupled from the quiet ions by one shared column.
-        let groups = quiet_groups(&best, &active_idx, quiet);
         let n_quiet = quiet.iter().filter(|&&q| q).count();
-        if n_quiet > 0 {
+        let groups = (n_quiet > 0).then(|| quiet_groups(&best, &active_idx, quiet));
+        if let Some(groups) = &groups {
             let flat: Vec<Pulse> = groups.iter().flat_map(|g| g.pulses.clone()).collect();
             candidates.push((Made::Pulses(flat), best.method, best.weight));
         }
@@ -418,7 +418,7 @@ impl<'a> Emitter<'a> {
             pulses: chosen.iter().filter(|op| op.is_entangling()).count(),
         });
         if index == quiet_candidate {
-            return (Part::Quiet(groups), report);
+            return (Part::Quiet(groups.expect("the quiet candidate")), report);
         }
         // Z to X: R(pi/2, pi/2) maps X to Z (Ry(-pi/2) X Ry(pi/2) = Z).
         let mut ops = vec![NativeOp::Collective {

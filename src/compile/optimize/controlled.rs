@@ -13,18 +13,9 @@
 //!
 //! Invariant: the output is the input's unitary up to global phase.
 
-use crate::circuit::{Gate, GateKind, Instr, Op, Qubit, Qubits};
+use super::gate;
+use crate::circuit::{GateKind, Instr};
 use std::f64::consts::PI;
-
-fn gate(kind: GateKind, params: &[f64], qs: &[u32]) -> Instr {
-    Instr {
-        op: Op::Gate {
-            gate: Gate::new(kind, params),
-            qubits: qs.iter().map(|&q| Qubit(q)).collect::<Qubits>(),
-        },
-        condition: None,
-    }
-}
 
 /// `(alpha, theta, beta, phi)`: `u = e^{i alpha} exp(-i theta/2 n.sigma)` with
 /// `theta` in `[0, pi]` and `n = (sin beta cos phi, sin beta sin phi, cos beta)`.
@@ -56,18 +47,12 @@ pub fn axis_angle(u: &crate::circuit::Mat2) -> (f64, f64, f64, f64) {
 /// Rewrites unconditioned `cy`, `ch`, `crx`, `cry` and `cu3` (the others pass).
 pub fn rewrite(instrs: &[Instr]) -> Vec<Instr> {
     use GateKind::*;
-    let mut out = Vec::with_capacity(instrs.len());
-    for instr in instrs {
-        let Op::Gate { gate: g, qubits } = &instr.op else {
-            out.push(instr.clone());
-            continue;
-        };
-        if instr.condition.is_some() || !matches!(g.kind, Cy | Ch | Crx | Cry | Cu3) {
-            out.push(instr.clone());
-            continue;
+    super::expand_gates(instrs, |g, q, out| {
+        if !matches!(g.kind, Cy | Ch | Crx | Cry | Cu3) {
+            return false;
         }
         let (_, u) = g.controlled().expect("a singly controlled gate");
-        let (c, t) = (qubits[0].0, qubits[1].0);
+        let (c, t) = (q[0], q[1]);
         let (alpha, theta, beta, phi) = axis_angle(&u);
         out.push(gate(U1, &[alpha], &[c]));
         out.push(gate(Rz, &[-phi], &[t]));
@@ -76,6 +61,6 @@ pub fn rewrite(instrs: &[Instr]) -> Vec<Instr> {
         out.push(gate(Rz, &[theta / 2.0], &[t]));
         out.push(gate(Ry, &[beta], &[t]));
         out.push(gate(Rz, &[phi], &[t]));
-    }
-    out
+        true
+    })
 }

@@ -15,7 +15,8 @@
 //! Invariant: the output is the input's unitary (a CNOT network is a permutation of
 //! basis states: the same linear map over GF(2) is the same unitary).
 
-use crate::circuit::{Gate, GateKind, Instr, Op, Qubit, Qubits};
+use super::gate;
+use crate::circuit::{GateKind, Instr, Op};
 
 /// The levels of the Brent-Kung prefix network on positions `0..n`: each level a
 /// list of `(control, target)` positions, disjoint within the level; applied in
@@ -40,16 +41,6 @@ pub fn prefix_levels(n: usize) -> Vec<Vec<(usize, usize)>> {
         }
     }
     levels
-}
-
-fn cx(c: u32, t: u32) -> Instr {
-    Instr {
-        op: Op::Gate {
-            gate: Gate::new(GateKind::Cx, &[]),
-            qubits: [Qubit(c), Qubit(t)].into_iter().collect::<Qubits>(),
-        },
-        condition: None,
-    }
 }
 
 /// The unconditioned CNOT `(control, target)` of an instruction, if it is one.
@@ -122,7 +113,7 @@ impl Ladder {
         let mut gates: Vec<Instr> = levels
             .iter()
             .flatten()
-            .map(|&(c, t)| cx(ladder.path[c], ladder.path[t]))
+            .map(|&(c, t)| gate(GateKind::Cx, &[], &[ladder.path[c], ladder.path[t]]))
             .collect();
         if ladder.backward {
             // The inverse map: the same self-inverse CNOTs in reverse order.

@@ -207,6 +207,40 @@ fn sub_circuit(c: &Circuit, instrs: Vec<Instr>) -> Circuit {
     }
 }
 
+/// An unconditioned library gate on the given qubits (what the circuit passes emit).
+pub(crate) fn gate(kind: crate::circuit::GateKind, params: &[f64], qs: &[u32]) -> Instr {
+    Instr {
+        op: Op::Gate {
+            gate: crate::circuit::Gate::new(kind, params),
+            qubits: qs
+                .iter()
+                .map(|&q| crate::circuit::Qubit(q))
+                .collect::<crate::circuit::Qubits>(),
+        },
+        condition: None,
+    }
+}
+
+/// A pass that expands single gates: `expand` sees each unconditioned gate with its
+/// qubits and either pushes its replacement and returns true, or returns false to
+/// keep it; everything else passes unchanged.
+pub(crate) fn expand_gates(
+    instrs: &[Instr],
+    mut expand: impl FnMut(&crate::circuit::Gate, &[u32], &mut Vec<Instr>) -> bool,
+) -> Vec<Instr> {
+    let mut out = Vec::with_capacity(instrs.len());
+    for instr in instrs {
+        if let (Op::Gate { gate, qubits }, None) = (&instr.op, &instr.condition) {
+            let q: smallvec::SmallVec<[u32; 5]> = qubits.iter().map(|q| q.0).collect();
+            if expand(gate, &q, &mut out) {
+                continue;
+            }
+        }
+        out.push(instr.clone());
+    }
+    out
+}
+
 /// A pass over a range's instructions, keeping its unitary.
 pub type CircuitPass = fn(&[Instr]) -> Vec<Instr>;
 

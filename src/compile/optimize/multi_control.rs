@@ -22,18 +22,9 @@
 //!
 //! Invariant: the output is the input's unitary up to global phase.
 
-use crate::circuit::{Gate, GateKind, Instr, Op, Qubit, Qubits};
+use super::gate;
+use crate::circuit::{GateKind, Instr};
 use std::f64::consts::{FRAC_PI_2, PI};
-
-fn gate(kind: GateKind, params: &[f64], qs: &[u32]) -> Instr {
-    Instr {
-        op: Op::Gate {
-            gate: Gate::new(kind, params),
-            qubits: qs.iter().map(|&q| Qubit(q)).collect::<Qubits>(),
-        },
-        condition: None,
-    }
-}
 
 /// `exp(-i t/2 Z_T)` for `|T| >= 3`, by the conjugation above. `N^dagger` is made as
 /// `N` times `i Z_i Z_j` on every pair (`exp(i pi/4 ZZ) = exp(-i pi/4 ZZ) i ZZ`), that
@@ -121,34 +112,24 @@ pub fn controlled_z(qs: &[u32], out: &mut Vec<Instr>) {
 /// Rewrites unconditioned `ccx`, `c3x`, `c4x` and `cswap` gates (the others, and
 /// anything conditioned, pass unchanged).
 pub fn rewrite(instrs: &[Instr]) -> Vec<Instr> {
-    let mut out = Vec::with_capacity(instrs.len());
-    for instr in instrs {
-        let Op::Gate { gate: g, qubits } = &instr.op else {
-            out.push(instr.clone());
-            continue;
-        };
-        if instr.condition.is_some() {
-            out.push(instr.clone());
-            continue;
-        }
-        let q: Vec<u32> = qubits.iter().map(|q| q.0).collect();
+    super::expand_gates(instrs, |g, q, out| {
         match g.kind {
             GateKind::Ccx | GateKind::C3x | GateKind::C4x => {
                 let t = *q.last().expect("a controlled gate has a target");
                 out.push(gate(GateKind::H, &[], &[t]));
-                controlled_z(&q, &mut out);
+                controlled_z(q, out);
                 out.push(gate(GateKind::H, &[], &[t]));
             }
             GateKind::Cswap => {
                 // Fredkin = CNOT(c, b) Toffoli(a, b, c) CNOT(c, b) (common practice).
                 out.push(gate(GateKind::Cx, &[], &[q[2], q[1]]));
                 out.push(gate(GateKind::H, &[], &[q[2]]));
-                controlled_z(&q, &mut out);
+                controlled_z(q, out);
                 out.push(gate(GateKind::H, &[], &[q[2]]));
                 out.push(gate(GateKind::Cx, &[], &[q[2], q[1]]));
             }
-            _ => out.push(instr.clone()),
+            _ => return false,
         }
-    }
-    out
+        true
+    })
 }

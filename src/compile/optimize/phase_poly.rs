@@ -11,7 +11,8 @@
 //! Invariant: the output is the input's unitary up to global phase; a region is
 //! rewritten only when that needs fewer two-qubit operations than it had.
 
-use crate::circuit::{Gate, GateKind, Instr, Op, Qubits};
+use super::gate;
+use crate::circuit::{Gate, GateKind, Instr, Op};
 use rustc_hash::FxHashMap;
 use smallvec::{smallvec, SmallVec};
 
@@ -167,16 +168,6 @@ impl Region {
             out.extend(region.instrs);
             return;
         }
-        let gate = |kind: GateKind, params: &[f64], qs: &[u32]| Instr {
-            op: Op::Gate {
-                gate: Gate::new(kind, params),
-                qubits: qs
-                    .iter()
-                    .map(|&q| crate::circuit::Qubit(q))
-                    .collect::<Qubits>(),
-            },
-            condition: None,
-        };
         for (p, t) in &region.terms {
             if *t == 0.0 || p.is_empty() {
                 continue;

@@ -93,6 +93,15 @@ fn compiled_outputs_carry_the_barriers_as_checkpoints_in_every_format() {
     assert_eq!(o.status.code(), Some(0), "{}", text(&o.stdout));
 }
 
+/// The lines of a text file.
+fn lines_of(path: impl AsRef<Path>) -> Vec<String> {
+    std::fs::read_to_string(path)
+        .unwrap()
+        .lines()
+        .map(str::to_string)
+        .collect()
+}
+
 /// Writes the pulse list `lines`, checks it against `reference` (the circuit, or the
 /// sequence compiled from it) with `--locate`, and returns the section named and the
 /// report.
@@ -119,11 +128,7 @@ fn located(dir: &Path, reference: &Path, lines: &[String]) -> (Option<usize>, St
 fn a_single_wrong_pulse_is_located_to_its_section_on_active_and_spare_ions() {
     let tmp = tempfile::tempdir().unwrap();
     let (c, out) = setup(tmp.path(), "pulses");
-    let lines: Vec<String> = std::fs::read_to_string(&out)
-        .unwrap()
-        .lines()
-        .map(str::to_string)
-        .collect();
+    let lines: Vec<String> = lines_of(&out);
     let cps: Vec<usize> = (0..lines.len())
         .filter(|&i| lines[i] == "checkpoint")
         .collect();
@@ -389,11 +394,7 @@ fn two_sequences_are_located_against_each_other() {
     assert_eq!(o.status.code(), Some(0), "{}", text(&o.stdout));
     assert!(text(&o.stdout).contains("EQUIVALENT section by section (3 sections"));
     let (_, pulses) = setup(tmp.path(), "pulses");
-    let lines: Vec<String> = std::fs::read_to_string(&pulses)
-        .unwrap()
-        .lines()
-        .map(str::to_string)
-        .collect();
+    let lines: Vec<String> = lines_of(&pulses);
     let first_cp = lines.iter().position(|l| l == "checkpoint").unwrap();
     let i = (first_cp..lines.len())
         .find(|&i| lines[i].starts_with("light_shift") && lines[i].ends_with(" pi"))
@@ -482,11 +483,7 @@ fn without_checkpoints_the_compile_trace_locates_the_instruction() {
     }
     assert_eq!(outs[0].1, outs[1].1, "the same trace in both formats");
     // A wrong light shift on ion 1 within the pulses of instruction 4, cx q[1],q[2].
-    let lines: Vec<String> = std::fs::read_to_string(&outs[0].0)
-        .unwrap()
-        .lines()
-        .map(str::to_string)
-        .collect();
+    let lines: Vec<String> = lines_of(&outs[0].0);
     let after3 = lines.iter().position(|l| l == "trace 3").unwrap();
     let i = (after3..lines.len())
         .find(|&i| lines[i].starts_with("light_shift 2 "))
@@ -494,11 +491,7 @@ fn without_checkpoints_the_compile_trace_locates_the_instruction() {
     assert!(lines[i..].iter().any(|l| l == "trace 4"));
     let mut m = lines.clone();
     m[i] = "light_shift 2 0.77".into();
-    let f = tmp.path().join("edited.pulses");
-    std::fs::write(&f, m.join("\n")).unwrap();
-    let o = check_locate(&c, &f);
-    let report = text(&o.stdout);
-    assert_eq!(o.status.code(), Some(1), "{report}{}", text(&o.stderr));
+    let (_, report) = located(tmp.path(), &c, &m);
     assert!(
         report.starts_with("NOT EQUIVALENT: they part at instruction 4 of the circuit"),
         "{report}"
@@ -513,6 +506,7 @@ fn without_checkpoints_the_compile_trace_locates_the_instruction() {
         "{report}"
     );
     // Against another circuit, the trace is not used: exit 2, saying why.
+    let f = tmp.path().join("edited.pulses");
     let other = tmp.path().join("other.qasm");
     std::fs::write(&other, body.replace("rz(0.3)", "rz(0.4)")).unwrap();
     let o = check_locate(&other, &f);
@@ -558,11 +552,7 @@ fn without_checkpoints_the_compile_trace_locates_the_instruction() {
 fn a_pulse_moved_across_a_checkpoint_is_not_called_a_difference() {
     let tmp = tempfile::tempdir().unwrap();
     let (c, out) = setup(tmp.path(), "pulses");
-    let mut lines: Vec<String> = std::fs::read_to_string(&out)
-        .unwrap()
-        .lines()
-        .map(str::to_string)
-        .collect();
+    let mut lines: Vec<String> = lines_of(&out);
     let cp = lines.iter().position(|l| l == "checkpoint").unwrap();
     assert!(!lines[cp - 1].starts_with('#') && !lines[cp - 1].starts_with("ions"));
     lines.swap(cp - 1, cp);
@@ -663,11 +653,7 @@ fn the_optimizer_output_is_located_by_instruction_with_trace_every() {
     ]);
     assert_eq!(o.status.code(), Some(0), "{}", text(&o.stderr));
     assert!(text(&o.stderr).contains("optimizer"), "{}", text(&o.stderr));
-    let lines: Vec<String> = std::fs::read_to_string(&out)
-        .unwrap()
-        .lines()
-        .map(str::to_string)
-        .collect();
+    let lines: Vec<String> = lines_of(&out);
     let traces: Vec<&String> = lines.iter().filter(|l| l.starts_with("trace ")).collect();
     assert_eq!(traces, ["trace 1", "trace 2", "trace 3", "trace 4"]);
     // A changed MS angle after trace 3: instruction 4, cx q[1],q[2].
@@ -679,11 +665,7 @@ fn the_optimizer_output_is_located_by_instruction_with_trace_every() {
     let mut words: Vec<String> = m[i].split_whitespace().map(str::to_string).collect();
     words[1] = format!("{}", words[1].parse::<f64>().unwrap() + 1e-4);
     m[i] = words.join(" ");
-    let f = tmp.path().join("edited.pulses");
-    std::fs::write(&f, m.join("\n")).unwrap();
-    let o = check_locate(&c, &f);
-    let report = text(&o.stdout);
-    assert_eq!(o.status.code(), Some(1), "{report}{}", text(&o.stderr));
+    let (_, report) = located(tmp.path(), &c, &m);
     assert!(
         report.starts_with("NOT EQUIVALENT: they part at instruction 4 of the circuit"),
         "{report}"

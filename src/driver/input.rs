@@ -18,11 +18,10 @@ pub enum Format {
 
 impl Format {
     pub fn render(self, seq: &Sequence) -> String {
-        match self {
-            Format::Qasm => write_qasm(seq),
-            Format::Pulses => write_pulses(seq),
-            Format::Json => write_json(seq),
-        }
+        let mut out = Vec::new();
+        self.render_to(seq, &mut out)
+            .expect("a Vec takes any bytes");
+        String::from_utf8(out).expect("the writers write UTF-8")
     }
 
     /// [`Format::render`] into a writer, made while it is written: a sequence of

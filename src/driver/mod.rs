@@ -7,10 +7,8 @@ use crate::circuit::Circuit;
 use crate::compile::optimize::{compile_optimized, BlockReport, Objective, OptConfig};
 use crate::compile::{compile_baseline_bounded, CompileError, Target, DEFAULT_MAX_STEPS};
 use crate::native::profile::Profile;
-use crate::native::qasm_out::{read_qasm_sequence, write_qasm, write_qasm_to};
-use crate::native::text::{
-    read_json, read_pulses, write_json, write_json_to, write_pulses, write_pulses_to,
-};
+use crate::native::qasm_out::{read_qasm_sequence, write_qasm_to};
+use crate::native::text::{read_json, read_pulses, write_json_to, write_pulses_to};
 use crate::native::Sequence;
 use crate::qasm::{self, Limits};
 use crate::report::budget::{budget, with_crosstalk, Budget};

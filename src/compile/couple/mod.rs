@@ -134,6 +134,16 @@ pub struct Synthesis {
 }
 
 impl Synthesis {
+    /// No pulses: the synthesis of a coupling that is zero.
+    pub fn empty() -> Synthesis {
+        Synthesis {
+            pulses: Vec::new(),
+            weight: 0.0,
+            lower_bound: 0.0,
+            method: Method::Single,
+        }
+    }
+
     /// The largest entry of `sum_k t_k s_k s_k^T - w` (the certificate check).
     pub fn residual(&self, c: &Coupling) -> f64 {
         let n = c.n;
@@ -159,6 +169,7 @@ impl Synthesis {
             .fold(0.0f64, |m, (a, b)| m.max((a - b).abs()))
     }
 
+    /// True when the certificate holds: weights non-negative, couplings matched.
     pub fn certifies(&self, c: &Coupling) -> bool {
         self.pulses
             .iter()
@@ -198,12 +209,7 @@ impl Default for Budget {
 pub fn synthesize(c: &Coupling, budget: Budget) -> Synthesis {
     let nonzero: Vec<usize> = (0..c.w.len()).filter(|&p| c.w[p] != 0.0).collect();
     if nonzero.is_empty() {
-        return Synthesis {
-            pulses: Vec::new(),
-            weight: 0.0,
-            lower_bound: 0.0,
-            method: Method::Single,
-        };
+        return Synthesis::empty();
     }
     if c.n == 2 {
         let w = c.w[0];
@@ -229,13 +235,7 @@ pub fn synthesize(c: &Coupling, budget: Budget) -> Synthesis {
     if parts.len() > 1 {
         let solved: Vec<(Vec<usize>, Synthesis)> = parts
             .into_iter()
-            .map(|ions| {
-                let mut sub = Coupling::zero(ions.len());
-                for (a, &i) in ions.iter().enumerate() {
-                    for (b, &j) in ions.iter().enumerate().skip(a + 1) {
-                        sub.set(a, b, c.get(i, j));
-                    }
-                }
+            .map(|(ions, sub)| {
                 let left = deadline.saturating_duration_since(Instant::now());
                 let s = synthesize(
                     &sub,
@@ -315,29 +315,21 @@ pub fn order_pulses(pulses: Vec<Pulse>) -> Vec<Pulse> {
 /// How many of the remaining pulses [`order_pulses`] considers for the next one.
 pub const ORDER_WINDOW: usize = 32;
 
-/// The connected components of the coupling graph (ions with no coupling each
-/// alone), each sorted.
-pub fn components(c: &Coupling) -> Vec<Vec<usize>> {
-    let mut root: Vec<usize> = (0..c.n).collect();
-    fn find(root: &mut [usize], mut i: usize) -> usize {
-        while root[i] != i {
-            root[i] = root[root[i]];
-            i = root[i];
-        }
-        i
-    }
+/// The connected components of the coupling graph (an ion with no coupling is one
+/// alone), each sorted, with the coupling among its ions.
+pub fn components(c: &Coupling) -> Vec<(Vec<usize>, Coupling)> {
+    let mut sets = petgraph::unionfind::UnionFind::<usize>::new(c.n);
     for i in 0..c.n {
         for j in i + 1..c.n {
             if c.get(i, j) != 0.0 {
-                let (a, b) = (find(&mut root, i), find(&mut root, j));
-                root[a.max(b)] = a.min(b);
+                sets.union(i, j);
             }
         }
     }
     let mut groups: Vec<Vec<usize>> = Vec::new();
     let mut index = vec![usize::MAX; c.n];
     for i in 0..c.n {
-        let r = find(&mut root, i);
+        let r = sets.find(i);
         if index[r] == usize::MAX {
             index[r] = groups.len();
             groups.push(Vec::new());
@@ -345,6 +337,17 @@ pub fn components(c: &Coupling) -> Vec<Vec<usize>> {
         groups[index[r]].push(i);
     }
     groups
+        .into_iter()
+        .map(|ions| {
+            let mut sub = Coupling::zero(ions.len());
+            for (x, &i) in ions.iter().enumerate() {
+                for (y, &j) in ions.iter().enumerate().skip(x + 1) {
+                    sub.set(x, y, c.get(i, j));
+                }
+            }
+            (ions, sub)
+        })
+        .collect()
 }
 
 /// Uncoupled components made at once, at the area of the costliest (derived here,

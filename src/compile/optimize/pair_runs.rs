@@ -5,7 +5,10 @@
 //! (Khaneja and Glaser, Chem. Phys. 267, 11, 2001; Kraus and Cirac, PRA 63, 062309,
 //! 2001), and with free single-qubit gates the least total interaction an Ising
 //! coupling needs for it is `|c1| + |c2| + |c3|` once each `c` is reduced to
-//! `[-pi/4, pi/4]` (Khaneja, Brockett and Glaser, PRA 63, 032308, 2001; from memory).
+//! `[-pi/4, pi/4]` (Khaneja, Brockett and Glaser, PRA 63, 032308, 2001). All three
+//! citations are from memory; the decomposition itself is checked numerically here
+//! (tests below: random runs rebuilt, CNOT, SWAP and SWAP-then-CNOT at their known
+//! coordinates, common practice).
 //! A run of ZZ interactions on the same pair with single-qubit gates between them (a
 //! SWAP next to a CNOT, a CNOT-Ry-CNOT) may spend more: the run is replaced by its
 //! canonical form when that spends less interaction and no more interactions.
@@ -19,7 +22,8 @@
 //! each replacement against the run before using it).
 
 use super::dag::Dag;
-use crate::circuit::Mat2;
+use crate::circuit::mat2::{adjoint, identity, mul};
+use crate::circuit::{Gate, GateKind, Mat2};
 use crate::compile::lower::Canon;
 use nalgebra::{Matrix2, Matrix4};
 use num_complex::Complex64 as C64;
@@ -43,10 +47,6 @@ fn kron(a: &Mat2, b: &Mat2) -> M4 {
     M4::from_fn(|r, col| a[r / 2][col / 2] * b[r % 2][col % 2])
 }
 
-fn identity2() -> Mat2 {
-    [[c(1.0, 0.0), c(0.0, 0.0)], [c(0.0, 0.0), c(1.0, 0.0)]]
-}
-
 /// `exp(-i theta/2 Z_a Z_b)`.
 fn zz(theta: f64) -> M4 {
     let p = C64::from_polar(1.0, -theta / 2.0);
@@ -54,13 +54,22 @@ fn zz(theta: f64) -> M4 {
     M4::from_diagonal(&nalgebra::Vector4::new(p, m, m, p))
 }
 
+/// A canonical decomposition `((A1, B1), [c1, c2, c3], (A2, B2))`: the unitary
+/// `(A1 x B1) exp(i (c1 XX + c2 YY + c3 ZZ)) (A2 x B2)`.
+pub type Canonical = ((Mat2, Mat2), [f64; 3], (Mat2, Mat2));
+
+/// X, Y and Z.
+fn paulis() -> [Mat2; 3] {
+    [GateKind::X, GateKind::Y, GateKind::Z].map(|k| Gate::new(k, &[]).matrix2().expect("a 2x2"))
+}
+
 /// A run's unitary, qubit `a` the high bit.
 fn unitary(ops: &[Canon], a: u32) -> M4 {
     let mut u = M4::identity();
     for op in ops {
         let m = match *op {
-            Canon::Local { q, m } if q == a => kron(&m, &identity2()),
-            Canon::Local { m, .. } => kron(&identity2(), &m),
+            Canon::Local { q, m } if q == a => kron(&m, &identity()),
+            Canon::Local { m, .. } => kron(&identity(), &m),
             Canon::Zz { theta, .. } => zz(theta),
             _ => unreachable!("runs hold gates only"),
         };
@@ -99,11 +108,9 @@ fn split(k: &M4) -> (Mat2, Mat2) {
     (to(&a), to(&b))
 }
 
-/// The canonical decomposition: `u = (A1 x B1) exp(i (c1 XX + c2 YY + c3 ZZ)) (A2 x
-/// B2)` up to phase, each `c` in `[-pi/4, pi/4]`, as `((A1, B1), [c1, c2, c3], (A2, B2))`.
+/// The canonical decomposition of `u` (up to phase), each `c` in `[-pi/4, pi/4]`.
 /// `None` if the numerics fail their own check.
-#[allow(clippy::type_complexity)]
-pub fn canonical(u: &M4) -> Option<((Mat2, Mat2), [f64; 3], (Mat2, Mat2))> {
+pub fn canonical(u: &M4) -> Option<Canonical> {
     let m = magic();
     let det = u.determinant();
     let su = u * C64::from_polar(1.0, -det.arg() / 4.0);
@@ -140,11 +147,7 @@ pub fn canonical(u: &M4) -> Option<((Mat2, Mat2), [f64; 3], (Mat2, Mat2))> {
         let k1 = m * o1 * m.adjoint();
         let k2 = m * pc.transpose() * m.adjoint();
         // Read c from theta: in the magic basis XX, YY, ZZ are diagonal (+-1).
-        let pauli = |p: [[C64; 2]; 2]| (m.adjoint() * kron(&p, &p) * m).diagonal();
-        let (o, z, i) = (c(1.0, 0.0), c(0.0, 0.0), c(0.0, 1.0));
-        let dx = pauli([[z, o], [o, z]]);
-        let dy = pauli([[z, -i], [i, z]]);
-        let dz = pauli([[o, z], [z, -o]]);
+        let [dx, dy, dz] = paulis().map(|p| (m.adjoint() * kron(&p, &p) * m).diagonal());
         let mut a = nalgebra::Matrix4::<f64>::zeros();
         for k in 0..4 {
             a[(k, 0)] = 1.0;
@@ -156,16 +159,15 @@ pub fn canonical(u: &M4) -> Option<((Mat2, Mat2), [f64; 3], (Mat2, Mat2))> {
         let mut coeffs = [x[1], x[2], x[3]];
         let (mut a1, b1) = split(&k1);
         let (a2, b2) = split(&k2);
-        // exp(i (c - pi/2 round) P P) = exp(i c P P) times (-i PP)^round: a local Pauli
-        // pair, folded into A1 and B1.
+        // exp(i (c + n pi/2) PP) = exp(i c PP) (i PP)^n: for odd n a Pauli on each
+        // qubit (and a phase), folded into A1 and B1.
         let mut b1 = b1;
-        let paulis = [[[z, o], [o, z]], [[z, -i], [i, z]], [[o, z], [z, -o]]];
-        for (k, ck) in coeffs.iter_mut().enumerate() {
+        for (ck, p) in coeffs.iter_mut().zip(paulis()) {
             let n = (*ck / FRAC_PI_2).round();
             *ck -= n * FRAC_PI_2;
             if (n as i64) % 2 != 0 {
-                a1 = crate::circuit::mat2::mul(&a1, &paulis[k]);
-                b1 = crate::circuit::mat2::mul(&b1, &paulis[k]);
+                a1 = mul(&a1, &p);
+                b1 = mul(&b1, &p);
             }
         }
         let out = ((a1, b1), coeffs, (a2, b2));
@@ -177,30 +179,23 @@ pub fn canonical(u: &M4) -> Option<((Mat2, Mat2), [f64; 3], (Mat2, Mat2))> {
 }
 
 /// The unitary a decomposition stands for.
-#[allow(clippy::type_complexity)]
-fn rebuild(d: &((Mat2, Mat2), [f64; 3], (Mat2, Mat2))) -> M4 {
+fn rebuild(d: &Canonical) -> M4 {
     let ((a1, b1), cs, (a2, b2)) = d;
-    let (o, z, i) = (c(1.0, 0.0), c(0.0, 0.0), c(0.0, 1.0));
-    let paulis = [[[z, o], [o, z]], [[z, -i], [i, z]], [[o, z], [z, -o]]];
     let mut mid = M4::identity();
-    for (p, &ck) in paulis.iter().zip(cs) {
-        let pp = kron(p, p);
+    for (p, &ck) in paulis().iter().zip(cs) {
         // exp(i c PP) = cos c + i sin c PP, as PP squares to one.
-        mid *= M4::identity() * C64::from(ck.cos()) + pp * c(0.0, ck.sin());
+        mid *= M4::identity() * C64::from(ck.cos()) + kron(p, p) * c(0.0, ck.sin());
     }
     kron(a1, b1) * mid * kron(a2, b2)
 }
 
 /// The canonical operations for a decomposition on qubits `a` (high) and `b`.
-#[allow(clippy::type_complexity)]
-fn emit(d: &((Mat2, Mat2), [f64; 3], (Mat2, Mat2)), a: u32, b: u32) -> Vec<Canon> {
-    use crate::circuit::mat2::adjoint;
+fn emit(d: &Canonical, a: u32, b: u32) -> Vec<Canon> {
     let ((a1, b1), cs, (a2, b2)) = d;
-    let r = FRAC_1_SQRT_2;
-    let h: Mat2 = [[c(r, 0.0), c(r, 0.0)], [c(r, 0.0), c(-r, 0.0)]];
-    let s: Mat2 = [[c(1.0, 0.0), c(0.0, 0.0)], [c(0.0, 0.0), c(0.0, 1.0)]];
-    // W Z W^dagger: H takes Z to X, S H takes it to Y.
-    let frames: [Mat2; 3] = [h, crate::circuit::mat2::mul(&s, &h), identity2()];
+    let h = Gate::new(GateKind::H, &[]).matrix2().expect("a 2x2");
+    let s = Gate::new(GateKind::S, &[]).matrix2().expect("a 2x2");
+    // W with W Z W^dagger = X, Y, Z: H, S H, the identity.
+    let frames: [Mat2; 3] = [h, mul(&s, &h), identity()];
     let mut out = vec![Canon::Local { q: a, m: *a2 }, Canon::Local { q: b, m: *b2 }];
     for (w, &ck) in frames.iter().zip(cs) {
         if ck.abs() < 1e-12 {

@@ -6,7 +6,9 @@
 //! diagonal) with its sign flipped; any other `pending` is placed in the layer just
 //! after the last block that holds the qubit, and the qubit's next interactions can
 //! join no earlier block than that. An interaction joins the earliest block both its
-//! qubits allow (ASAP), which gives the fewest blocks the non-diagonal gates allow.
+//! qubits allow (ASAP), which gives the fewest blocks the non-diagonal gates allow,
+//! unless an existing later block (also allowed) keeps the blocks cheaper: one where
+//! it closes a cycle, or one where it meets neither qubit (see `schedule`).
 //!
 //! Invariant: the product `layer_0 block_0 layer_1 ... block_{B-1} layer_B` (time
 //! order) equals the segment's unitary up to global phase.
@@ -78,19 +80,15 @@ pub fn schedule(ops: &[Canon], n: usize) -> Schedule {
                     has_pending[q] = false;
                 }
                 let mut k = ready[a as usize].max(ready[b as usize]);
-                // A block where a qubit already has a partner becomes a star, which
-                // costs more area than a matching; a later block (still allowed:
-                // nothing on these qubits was placed after `ready`) that couples
-                // neither qubit takes the pair at no extra area when its couplings
-                // are as strong.
-                let busy = |blk: &Block| {
-                    blk.iter()
-                        .any(|&(x, y, _)| [x, y].contains(&a) || [x, y].contains(&b))
-                };
-                // A pair both of whose qubits the newest block already couples
-                // closes a cycle there (a uniform block is one sign vector, a
-                // star is not); it stays with them rather than moving earlier.
                 let holds = |blk: &Block, q: u32| blk.iter().any(|&(x, y, _)| x == q || y == q);
+                let busy = |blk: &Block| holds(blk, a) || holds(blk, b);
+                // Any block from `ready` on is allowed (nothing on these qubits was
+                // placed after it). A pair both of whose qubits the newest block
+                // already couples closes a cycle there (a uniform block is one sign
+                // vector, a star is not): it joins them. Otherwise, when the earliest
+                // block already couples one of its qubits (it would make a star, which
+                // costs more area than a matching), the first of the next few blocks
+                // that couples neither takes it.
                 if let Some(newest) = blocks.len().checked_sub(1) {
                     if newest > k && holds(&blocks[newest], a) && holds(&blocks[newest], b) {
                         k = newest;

@@ -333,28 +333,14 @@ impl<'a> Emitter<'a> {
         if parts.len() > 1 {
             let mut on_device: Vec<(Vec<usize>, Synthesis)> = Vec::new();
             let mut used = vec![false; n];
-            for part in parts {
-                let mut sub = Coupling::zero(part.len());
-                for (x, &i) in part.iter().enumerate() {
-                    for (y, &j) in part.iter().enumerate().skip(x + 1) {
-                        sub.set(x, y, local.get(i, j));
-                    }
-                }
+            for (part, sub) in parts {
                 let s = self.synthesis(&sub);
                 let ions: Vec<usize> = part.iter().map(|&i| active_idx[i]).collect();
                 ions.iter().for_each(|&i| used[i] = true);
                 on_device.push((ions, (*s).clone()));
             }
             for ion in (0..n).filter(|&i| !used[i]) {
-                on_device.push((
-                    vec![ion],
-                    Synthesis {
-                        pulses: Vec::new(),
-                        weight: 0.0,
-                        lower_bound: 0.0,
-                        method: Method::Single,
-                    },
-                ));
+                on_device.push((vec![ion], Synthesis::empty()));
             }
             let joined = side_by_side(n, &on_device);
             if joined.certifies(&device) {

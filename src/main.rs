@@ -132,6 +132,7 @@ fn run(cli: Cli) -> Result<ExitCode, Failure> {
             no_verify,
             compensate_crosstalk,
             trace_every,
+            drop_final_z,
             force,
             max_pulses,
             ions,
@@ -147,6 +148,7 @@ fn run(cli: Cli) -> Result<ExitCode, Failure> {
                 max_steps: max_pulses,
                 compensate_crosstalk,
                 trace_every: trace_every.map(|n| n as usize),
+                drop_final_z,
                 ..CompileConfig::default()
             };
             let (_, mut compiled) = compile_one(&file, &device, ions, &cfg, &limits)?;
@@ -432,6 +434,11 @@ fn run(cli: Cli) -> Result<ExitCode, Failure> {
                 }
             }
             let verdict = verdict.map_err(|e| format!("error: {e}"))?;
+            if !verdict.equivalent && crosstalk.is_none() {
+                if let Some(note) = driver::final_diagonal_note(&pa, &pb, &cfg) {
+                    eprintln!("note: {note}");
+                }
+            }
             if json {
                 println!(
                     "{}",

@@ -371,3 +371,131 @@ fn a_final_diagonal_before_measurement_is_accepted_only_when_asked() {
         );
     }
 }
+
+/// Up to a final diagonal, qubits that take part in no interaction are split off and
+/// compared alone: a measured one up to a Z rotation, an unmeasured one exactly. A
+/// final diagonal changes no outcome statistics of a measurement in the Z basis
+/// (Nielsen and Chuang, section 2.2.5: `|<x|D|psi>|^2 = |<x|psi>|^2` for diagonal
+/// unitary `D`); a Z rotation on a qubit that is not measured is a real difference.
+#[test]
+fn split_off_qubits_follow_the_final_diagonal_rules() {
+    let measure = "measure q[0] -> c[0]; measure q[1] -> c[1]; measure q[2] -> c[2];";
+    let a = qasm(
+        4,
+        &format!("h q[0]; cx q[0],q[1]; ry(0.4) q[2]; rz(0.3) q[2]; ry(0.2) q[3];\n{measure}"),
+    );
+    let relaxed = CheckConfig {
+        up_to_final_diagonal: true,
+        ..CheckConfig::default()
+    };
+    let judge = |b: &str| check(&program(&a), &program(&qasm(4, b)), &relaxed).unwrap();
+    // The Z rotation on the idle, measured q[2] left out: equal, compared on the
+    // two coupled qubits only, and the verdict says it relied on the diagonal.
+    let v = judge(&format!(
+        "h q[0]; cx q[0],q[1]; ry(0.4) q[2]; ry(0.2) q[3];\n{measure}"
+    ));
+    assert!(v.equivalent && v.final_diagonal, "{v:?}");
+    assert_eq!(v.compared_qubits, 2);
+    // Near misses: a Z rotation on the unmeasured q[3]; q[2]'s Y angle changed by
+    // 1e-8 (above the tolerance of about 1e-10); the X-basis angle on the wrong wire.
+    for b in [
+        format!("h q[0]; cx q[0],q[1]; ry(0.4) q[2]; ry(0.2) q[3]; rz(0.3) q[3];\n{measure}"),
+        format!("h q[0]; cx q[0],q[1]; ry(0.40000001) q[2]; ry(0.2) q[3];\n{measure}"),
+        format!("h q[0]; cx q[0],q[1]; ry(0.2) q[2]; ry(0.4) q[3];\n{measure}"),
+    ] {
+        let v = judge(&b);
+        assert!(!v.equivalent, "{b}: {v:?}");
+    }
+    // Without the relaxation the dropped Z is a difference.
+    let strict = check(
+        &program(&a),
+        &program(&qasm(
+            4,
+            &format!("h q[0]; cx q[0],q[1]; ry(0.4) q[2]; ry(0.2) q[3];\n{measure}"),
+        )),
+        &CheckConfig::default(),
+    )
+    .unwrap();
+    assert!(!strict.equivalent && !strict.final_diagonal);
+}
+
+/// A device-sized program whose other ions are idle is compared up to a final
+/// diagonal on the qubits that interact, not on the whole register (it used to keep
+/// every qubit and be refused as too large).
+#[test]
+fn a_final_diagonal_on_a_wide_register_compares_the_coupled_qubits() {
+    let tail: String = (0..3)
+        .map(|i| format!("measure q[{i}] -> c[{i}];"))
+        .collect();
+    let a = qasm(
+        40,
+        &format!("h q[0]; cx q[0],q[1]; cx q[1],q[2]; t q[2];\n{tail}"),
+    );
+    let b = qasm(40, &format!("h q[0]; cx q[0],q[1]; cx q[1],q[2];\n{tail}"));
+    let relaxed = CheckConfig {
+        up_to_final_diagonal: true,
+        ..CheckConfig::default()
+    };
+    let v = check(&program(&a), &program(&b), &relaxed).unwrap();
+    assert!(v.equivalent && v.compared_qubits == 3, "{v:?}");
+    // A rotation off the Z axis just above the rounding floor is not diagonal.
+    let c = qasm(
+        40,
+        &format!("h q[0]; cx q[0],q[1]; cx q[1],q[2]; t q[2]; rx(1e-8) q[2];\n{tail}"),
+    );
+    let v = check(&program(&a), &program(&c), &relaxed).unwrap();
+    assert!(!v.equivalent, "{v:?}");
+}
+
+/// Terminal measurements may sit anywhere after their qubit's last gate; the checker
+/// accepts a program that measures them last (a compile gathers them into one
+/// readout slot), and nothing else: a measurement moved past a gate on its own
+/// qubit, past a condition that reads it, or past another write of its bit is a
+/// different program. (A measurement on one qubit commutes with a unitary on
+/// others: Nielsen and Chuang, section 2.2.3.)
+#[test]
+fn terminal_measurements_may_move_last_and_nowhere_else() {
+    let same = |a: &str, b: &str| {
+        check(
+            &program(&qasm(2, a)),
+            &program(&qasm(2, b)),
+            &CheckConfig::default(),
+        )
+        .unwrap()
+        .equivalent
+    };
+    assert!(same(
+        "h q[0]; measure q[0] -> c[0]; ry(0.3) q[1]; measure q[1] -> c[1];",
+        "h q[0]; ry(0.3) q[1]; measure q[0] -> c[0]; measure q[1] -> c[1];"
+    ));
+    // Either side may be the one that moved them.
+    assert!(same(
+        "h q[0]; ry(0.3) q[1]; measure q[0] -> c[0]; measure q[1] -> c[1];",
+        "h q[0]; measure q[0] -> c[0]; ry(0.3) q[1]; measure q[1] -> c[1];"
+    ));
+    // Near misses.
+    for (a, b) in [
+        // Past a gate on its own qubit.
+        (
+            "h q[0]; measure q[0] -> c[0]; h q[0]; ry(0.3) q[1];",
+            "h q[0]; h q[0]; ry(0.3) q[1]; measure q[0] -> c[0];",
+        ),
+        // Past a condition that reads its bit.
+        (
+            "h q[0]; measure q[0] -> c[0]; if(c==1) x q[1]; measure q[1] -> c[1];",
+            "h q[0]; if(c==1) x q[1]; measure q[0] -> c[0]; measure q[1] -> c[1];",
+        ),
+        // Past a later write of the same bit that stays (the last writer changes).
+        (
+            "h q[0]; measure q[0] -> c[0]; x q[1]; measure q[1] -> c[0]; h q[1];",
+            "h q[0]; x q[1]; measure q[1] -> c[0]; h q[1]; measure q[0] -> c[0];",
+        ),
+        // Moved last, but the gate it moved past changed by 1e-8.
+        (
+            "h q[0]; measure q[0] -> c[0]; ry(0.3) q[1]; measure q[1] -> c[1];",
+            "h q[0]; ry(0.30000001) q[1]; measure q[0] -> c[0]; measure q[1] -> c[1];",
+        ),
+    ] {
+        assert!(!same(a, b), "{a}\n{b}");
+    }
+}

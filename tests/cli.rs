@@ -806,3 +806,139 @@ fn a_failed_write_is_an_error_in_every_format() {
         assert!(err.contains("cannot write /dev/full"), "{format}: {err}");
     }
 }
+
+// `--drop-final-z` leaves out the Z rotations before the final measurements only
+// with a proof up to a final diagonal; a plain check of that output then says NOT
+// EQUIVALENT (it is not the circuit's unitary) with a note naming the check that
+// accepts it, and the provenance says how it was verified.
+#[test]
+fn drop_final_z_outputs_need_the_final_diagonal_check() {
+    let out = scratch("grover_dropped.pulses");
+    let (code, stdout, err) = tutti(&[
+        "compile",
+        "circuits/grover_3.qasm",
+        "-o",
+        out.to_str().unwrap(),
+        "--force",
+        "--drop-final-z",
+    ]);
+    assert_eq!(code, 0, "{err}");
+    let said = format!("{stdout}{err}");
+    assert!(
+        said.contains("EQUIVALENT up to Z rotations before the final measurements"),
+        "{said}"
+    );
+    let (code, _, err) = tutti(&["check", "circuits/grover_3.qasm", out.to_str().unwrap()]);
+    assert_eq!(code, 1, "a plain check must not accept it");
+    assert!(err.contains("--up-to-final-diagonal accepts that"), "{err}");
+    let (code, stdout, _) = tutti(&[
+        "check",
+        "circuits/grover_3.qasm",
+        out.to_str().unwrap(),
+        "--up-to-final-diagonal",
+    ]);
+    assert_eq!(code, 0, "{stdout}");
+    let (loaded, _) = tutti::driver::load(&out, &tutti::qasm::Limits::default()).unwrap();
+    let tutti::driver::Loaded::Sequence(seq) = loaded else {
+        panic!("not a sequence")
+    };
+    assert_eq!(
+        seq.provenance.unwrap().verified,
+        "whole, up to a diagonal before the final measurements"
+    );
+    // Without the option the output is the circuit's unitary: the plain check passes.
+    let (code, _, err) = tutti(&[
+        "compile",
+        "circuits/grover_3.qasm",
+        "-o",
+        out.to_str().unwrap(),
+        "--force",
+    ]);
+    assert_eq!(code, 0, "{err}");
+    let (code, _, _) = tutti(&["check", "circuits/grover_3.qasm", out.to_str().unwrap()]);
+    assert_eq!(code, 0);
+}
+
+// The optimizer gathers terminal measurements into one readout slot at the end
+// (qaoa_n3 measures q[2] before the last gate on q[1]); the output's compile trace
+// keeps only points valid for the circuit as written, so a window-by-window proof
+// along it (what `check` falls back to) still holds.
+#[test]
+fn terminal_measurements_end_in_one_run_and_the_trace_stays_valid() {
+    let src = "tests/data/qasmbench/small/qaoa_n3/qaoa_n3.qasm";
+    let text = std::fs::read_to_string(src).unwrap();
+    let circuit = tutti::qasm::read_str(src, &text).circuit.unwrap();
+    let (_, shared) = tutti::circuit::defer::measurements_last(&circuit)
+        .expect("qaoa_n3 has a measurement to move");
+    let out = scratch("qaoa_n3.pulses");
+    let (code, _, err) = tutti(&[
+        "compile",
+        src,
+        "-o",
+        out.to_str().unwrap(),
+        "--force",
+        "--trace-every",
+        "1",
+    ]);
+    assert_eq!(code, 0, "{err}");
+    let (loaded, _) = tutti::driver::load(&out, &tutti::qasm::Limits::default()).unwrap();
+    let tutti::driver::Loaded::Sequence(seq) = loaded else {
+        panic!("not a sequence")
+    };
+    let first = seq
+        .steps
+        .iter()
+        .position(|s| matches!(s.op, tutti::native::NativeOp::Measure { .. }))
+        .unwrap();
+    assert_eq!(
+        seq.steps.len() - first,
+        3,
+        "three measurements, all at the end"
+    );
+    assert!(!seq.trace.is_empty() && seq.trace.iter().all(|p| p.instrs <= shared));
+    let proof = tutti::driver::equal_by_trace(
+        src.as_ref(),
+        &out,
+        &tutti::qasm::Limits::default(),
+        &tutti::sim::CheckConfig::default(),
+    )
+    .expect("a proof along the trace");
+    assert!(proof.equivalent, "{proof:?}");
+    // Near miss: the same output with the trace of the reordered circuit (points
+    // past the moved measurement, counted in the other order) proves nothing.
+    let (moved, _) = tutti::circuit::defer::measurements_last(&circuit).unwrap();
+    let o = tutti::compile::optimize::compile_optimized(
+        &moved,
+        &tutti::native::profile::Profile::demo(),
+        &tutti::compile::optimize::OptConfig {
+            max_range_instrs: 1,
+            ..Default::default()
+        },
+    )
+    .unwrap();
+    // The same compile (the file's angles are rounded in their last digit).
+    let kinds = |s: &tutti::native::Sequence| -> Vec<&'static str> {
+        s.steps.iter().map(|s| s.op.name()).collect()
+    };
+    assert!(kinds(&o.sequence) == kinds(&seq), "not the same compile");
+    let mut wrong = seq.clone();
+    wrong.trace = o
+        .sync
+        .iter()
+        .copied()
+        .filter(|p| p.instrs < moved.instrs.len())
+        .collect();
+    assert!(wrong.trace.iter().any(|p| p.instrs > shared));
+    let bad = scratch("qaoa_n3_wrong_trace.pulses");
+    std::fs::write(&bad, tutti::driver::Format::Pulses.render(&wrong)).unwrap();
+    let verdict = tutti::driver::equal_by_trace(
+        src.as_ref(),
+        &bad,
+        &tutti::qasm::Limits::default(),
+        &tutti::sim::CheckConfig::default(),
+    );
+    assert!(
+        verdict.as_ref().is_none_or(|v| !v.equivalent),
+        "{verdict:?}"
+    );
+}

@@ -324,3 +324,92 @@ fn windows_spanning_several_instructions_verify_and_locate_a_fault() {
     shuffled.swap(0, 1);
     assert!(check_windows(&circuit, &seq, &shuffled, &cfg).is_err());
 }
+
+/// Z rotations that end on qubits just before the final measurements are left out
+/// only where the whole comparison, up to a final diagonal on the measured qubits,
+/// proves the output (a diagonal before a Z-basis measurement changes no outcome
+/// probability: Nielsen and Chuang, section 2.2.5). The output, in every format,
+/// then passes that comparison (and, where a rotation was left out, fails the strict
+/// one); without `drop_final_z` the strict proof stays; nothing costs more for it.
+#[test]
+fn final_z_rotations_are_left_out_only_with_a_final_diagonal_proof() {
+    use tutti::driver::{load, Format, Loaded};
+    use tutti::sim::{check, Program};
+    let profile = Profile::demo();
+    let dir = std::env::temp_dir().join(format!("tutti-final-z-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let relaxed = CheckConfig {
+        up_to_final_diagonal: true,
+        ..CheckConfig::default()
+    };
+    let results: Vec<Result<bool, String>> = common::files("circuits", "qasm")
+        .par_iter()
+        .flat_map_iter(|path| {
+            let circuit = common::read_ok(path);
+            let name = path.file_stem().unwrap().to_string_lossy().into_owned();
+            let a = Program::from_circuit(&circuit).unwrap();
+            let mut out = Vec::new();
+            for target in [Target::Collective, Target::Addressed] {
+                let cfg = CompileConfig {
+                    target,
+                    ..CompileConfig::default()
+                };
+                let kept = compile(&circuit, &profile, &cfg).unwrap();
+                let dropped = compile(
+                    &circuit,
+                    &profile,
+                    &CompileConfig {
+                        drop_final_z: true,
+                        ..cfg.clone()
+                    },
+                )
+                .unwrap();
+                let tag = format!("{name} {target:?}");
+                let diagonal = match &dropped.verification {
+                    Some(Verification::Whole(v)) => v.final_diagonal,
+                    _ => false,
+                };
+                if let Some(Verification::Whole(v)) = &kept.verification {
+                    if v.final_diagonal {
+                        out.push(Err(format!("{tag}: kept, yet proven up to a diagonal")));
+                    }
+                }
+                if dropped.budget.light_shifts > kept.budget.light_shifts
+                    || dropped.budget.duration_us > kept.budget.duration_us + 1e-9
+                {
+                    out.push(Err(format!("{tag}: leaving Z out cost more")));
+                }
+                if !diagonal {
+                    continue;
+                }
+                for (format, ext) in [
+                    (Format::Pulses, "pulses"),
+                    (Format::Json, "json"),
+                    (Format::Qasm, "qasm"),
+                ] {
+                    let file = dir.join(format!("{name}.{}.{ext}", target.name()));
+                    std::fs::write(&file, format.render(&dropped.sequence)).unwrap();
+                    let Ok((Loaded::Sequence(back), _)) =
+                        load(&file, &tutti::qasm::Limits::default())
+                    else {
+                        out.push(Err(format!("{tag} {ext}: does not read back")));
+                        continue;
+                    };
+                    let b = Program::from_sequence(&back);
+                    let loose = check(&a, &b, &relaxed).unwrap();
+                    let strict = check(&a, &b, &CheckConfig::default()).unwrap();
+                    if loose.equivalent {
+                        out.push(Ok(!strict.equivalent));
+                    } else {
+                        out.push(Err(format!("{tag} {ext}: {}", loose.detail)));
+                    }
+                }
+            }
+            out
+        })
+        .collect();
+    let failures: Vec<&String> = results.iter().filter_map(|r| r.as_ref().err()).collect();
+    assert!(failures.is_empty(), "{failures:#?}");
+    let left_out = results.iter().filter(|r| matches!(r, Ok(true))).count();
+    assert!(left_out >= 10, "Z left out in only {left_out} outputs");
+}

@@ -497,6 +497,7 @@ fn job_body(
         max_steps: cfg.max_steps,
         compensate_crosstalk: false,
         trace_every: None,
+        drop_final_z: false,
         check: crate::sim::CheckConfig {
             memory_budget: cfg.memory,
             pool: Some(pool.clone()),

@@ -6,6 +6,7 @@
 //! as its kind says. The `Display` form is OpenQASM 2 that `qasm::read_str` reads
 //! back to an equal circuit.
 
+pub mod defer;
 pub mod gates;
 pub mod mat2;
 

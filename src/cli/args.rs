@@ -144,6 +144,13 @@ pub(super) enum Command {
         /// point after every instruction anyway.
         #[arg(long, value_name = "N", value_parser = clap::value_parser!(u32).range(1..))]
         trace_every: Option<u32>,
+        /// Leave out the Z rotations that end on qubits just before the final
+        /// measurements, where the check proves the output equal up to a final
+        /// diagonal on the measured qubits (same outcome statistics, not the same
+        /// unitary: check it again with `check --up-to-final-diagonal`). Only with
+        /// verification, and only where the whole comparison runs.
+        #[arg(long)]
+        drop_final_z: bool,
         /// Replace OUT if it exists (the input is never replaced).
         #[arg(long)]
         force: bool,

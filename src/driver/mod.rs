@@ -49,6 +49,12 @@ pub struct CompileConfig {
     /// End an optimizer range at least every this many instructions
     /// (`--trace-every`), so that the output's compile trace has a point that often.
     pub trace_every: Option<usize>,
+    /// Leave out the Z rotations that end on qubits just before the final
+    /// measurements (`--drop-final-z`), where the whole comparison up to a final
+    /// diagonal on the measured qubits proves the output; see [`compile_counted`].
+    /// Off by default: the output is then the circuit's unitary, which a plain
+    /// `check` confirms.
+    pub drop_final_z: bool,
 }
 
 /// Most work of a whole-program verification in [`compile`], in amplitude updates
@@ -67,6 +73,7 @@ impl Default for CompileConfig {
             max_steps: DEFAULT_MAX_STEPS,
             compensate_crosstalk: false,
             trace_every: None,
+            drop_final_z: false,
             check: CheckConfig {
                 max_work: VERIFY_WORK,
                 ..CheckConfig::default()
@@ -91,7 +98,12 @@ impl Verification {
     pub fn describe(&self) -> String {
         match self {
             Verification::Whole(v) => format!(
-                "EQUIVALENT (mode {}, distance {} within tolerance {:.1e}, {} qubit(s) compared)",
+                "EQUIVALENT{} (mode {}, distance {} within tolerance {:.1e}, {} qubit(s) compared)",
+                if v.final_diagonal {
+                    " up to Z rotations before the final measurements"
+                } else {
+                    ""
+                },
                 v.mode.name(),
                 fmt_distance(v.distance),
                 v.tolerance,
@@ -193,6 +205,7 @@ fn compile_one(
     profile: &Profile,
     cfg: &CompileConfig,
     window_qubits: Option<usize>,
+    drop_final_z: bool,
 ) -> Result<(Sequence, Vec<SyncPoint>, Vec<BlockReport>), DriverError> {
     if cfg.baseline {
         let (sequence, origin) = compile_baseline_bounded(c, profile, cfg.target, cfg.max_steps)?;
@@ -210,6 +223,7 @@ fn compile_one(
             max_range_instrs: cfg
                 .trace_every
                 .unwrap_or(crate::compile::optimize::MAX_RANGE_INSTRS),
+            drop_final_z,
             ..OptConfig::default()
         },
     )?;
@@ -238,6 +252,13 @@ pub fn compile_with(
 
 /// [`compile_with`], also counting the windows of a window-by-window verification
 /// in `counter` (which another thread may read to show progress).
+///
+/// With `drop_final_z`, the Z rotations that would end on qubits just before the
+/// final measurements are left out only where a proof follows: verification on, the optimizer, a final run
+/// of measurements, and the whole comparison expected to run; it then compares up
+/// to a final diagonal on the measured qubits (what the measurements cannot see).
+/// When that comparison is refused, the circuit is compiled again with them kept,
+/// for the window-by-window proof (which compares unitaries).
 pub fn compile_counted(
     c: &Circuit,
     profile: &Profile,
@@ -246,10 +267,36 @@ pub fn compile_counted(
     counter: &WorkCounter,
 ) -> Result<Compiled, DriverError> {
     on_stage(Stage::Compile);
+    // The optimizer compiles the circuit with its terminal measurements moved last
+    // (one readout slot; module `crate::circuit::defer`). Windows are checked against
+    // that order, the whole comparison against the circuit as written (the checker
+    // moves them too), and the output's trace keeps only the points both share.
+    let moved = if cfg.baseline {
+        None
+    } else {
+        crate::circuit::defer::measurements_last(c)
+    };
+    let (cc, shared) = match &moved {
+        Some((m, k)) => (m, *k),
+        None => (c, c.instrs.len()),
+    };
     // When the whole comparison is sure to be refused, compile for windows at once
     // rather than compiling twice.
     let hopeless = cfg.verify && !cfg.baseline && whole_check_hopeless(c, &cfg.check);
-    let mut out = compile_stage(c, profile, cfg, hopeless.then_some(WINDOW_QUBITS))?;
+    let drop_z = cfg.verify
+        && !cfg.baseline
+        && cfg.drop_final_z
+        && !hopeless
+        && crate::compile::optimize::final_measured(cc).1 < cc.instrs.len()
+        && diagonal_check_may_run(c, &cfg.check);
+    let mut out = compile_stage(
+        cc,
+        profile,
+        cfg,
+        hopeless.then_some(WINDOW_QUBITS),
+        drop_z,
+        shared,
+    )?;
     let verification = if cfg.verify {
         let whole = if hopeless {
             Err(CheckError::TooSlow {
@@ -281,6 +328,7 @@ pub fn compile_counted(
                 // also finds any difference: no separate search for one.
                 let whole = CheckConfig {
                     seek_difference: false,
+                    up_to_final_diagonal: cfg.check.up_to_final_diagonal || drop_z,
                     ..cfg.check.clone()
                 };
                 check(&a, &b, &whole)
@@ -303,14 +351,14 @@ pub fn compile_counted(
                     // (the first output is freed first: it can be most of the memory).
                     on_stage(Stage::Compile);
                     drop(std::mem::take(&mut out.sequence.steps));
-                    out = compile_stage(c, profile, cfg, Some(WINDOW_QUBITS))?;
+                    out = compile_stage(cc, profile, cfg, Some(WINDOW_QUBITS), false, shared)?;
                 }
                 on_stage(Stage::VerifyWindows);
                 let applied = out.on_machine(profile, cfg);
                 let (seq, sync) = applied
                     .as_ref()
                     .map_or((&out.sequence, &out.sync), |(s, y)| (s, y));
-                let b = check_windows_counted(c, seq, sync, &cfg.check, counter)?;
+                let b = check_windows_counted(cc, seq, sync, &cfg.check, counter)?;
                 if !b.equivalent {
                     return Err(DriverError::NotEquivalent(b.detail));
                 }
@@ -352,13 +400,7 @@ fn whole_check_hopeless(c: &Circuit, check: &CheckConfig) -> bool {
     if !check.max_work.is_finite() {
         return false;
     }
-    let mut touched = vec![false; c.n_qubits() as usize];
-    for instr in &c.instrs {
-        for q in instr.op.qubits() {
-            touched[q.0 as usize] = true;
-        }
-    }
-    let n = touched.iter().filter(|&&t| t).count();
+    let n = touched_qubits(c);
     if n <= check.max_unitary_qubits || n >= 60 {
         return false;
     }
@@ -378,6 +420,52 @@ fn whole_check_hopeless(c: &Circuit, check: &CheckConfig) -> bool {
         }
         _ => false,
     })
+}
+
+/// When `a` and `b` were found to differ without a final diagonal allowed: a note
+/// saying whether they are equal up to one (what `compile --drop-final-z` makes), so
+/// that the user knows which check to ask for. `None` when they are not, or when
+/// that comparison cannot run.
+pub fn final_diagonal_note(a: &Program, b: &Program, cfg: &CheckConfig) -> Option<String> {
+    if cfg.up_to_final_diagonal {
+        return None;
+    }
+    let relaxed = CheckConfig {
+        up_to_final_diagonal: true,
+        seek_difference: false,
+        ..cfg.clone()
+    };
+    match check(a, b, &relaxed) {
+        Ok(v) if v.equivalent && v.final_diagonal => Some(
+            "the programs are equal up to a diagonal on the qubits measured at the end (same outcome statistics; `compile --drop-final-z` makes such outputs): --up-to-final-diagonal accepts that".into(),
+        ),
+        _ => None,
+    }
+}
+
+/// How many qubits the circuit's operations touch.
+fn touched_qubits(c: &Circuit) -> usize {
+    let mut touched = vec![false; c.n_qubits() as usize];
+    for instr in &c.instrs {
+        for q in instr.op.qubits() {
+            touched[q.0 as usize] = true;
+        }
+    }
+    touched.iter().filter(|&&t| t).count()
+}
+
+/// Whether a whole comparison up to a final diagonal may run: it cannot use
+/// tableaux, so it needs unitaries (few qubits) or random states within the work
+/// bound (counted on the circuit's operations alone, so this is optimistic; a
+/// refusal costs a second compile, never soundness). Where it cannot, the Z
+/// rotations before the final measurements are kept and a Clifford circuit keeps
+/// its exact tableau proof.
+fn diagonal_check_may_run(c: &Circuit, check: &CheckConfig) -> bool {
+    let n = touched_qubits(c);
+    n <= check.max_unitary_qubits
+        || (n < 48
+            && c.instrs.len() as f64 * 2f64.powi(n as i32) * check.trials.max(1) as f64
+                <= check.max_work)
 }
 
 /// The step before which each barrier of `c` falls, from the sync points (every
@@ -436,14 +524,18 @@ fn compile_stage(
     profile: &Profile,
     cfg: &CompileConfig,
     window_qubits: Option<usize>,
+    drop_final_z: bool,
+    shared: usize,
 ) -> Result<Stage1, DriverError> {
-    let (mut sequence, sync, blocks) = compile_one(c, profile, cfg, window_qubits)?;
+    let (mut sequence, sync, blocks) = compile_one(c, profile, cfg, window_qubits, drop_final_z)?;
     sequence.checkpoints = checkpoints_at_barriers(c, &sync);
-    // The trace, less the last point (the whole of both, implied).
+    // The trace, less the last point (the whole of both, implied), and only where
+    // `c` (terminal measurements perhaps moved) and the circuit as written share
+    // their first `shared` instructions.
     sequence.trace = sync
         .iter()
         .copied()
-        .filter(|s| s.instrs < c.instrs.len())
+        .filter(|s| s.instrs < c.instrs.len() && s.instrs <= shared)
         .collect();
     if !cfg.compensate_crosstalk {
         return Ok(Stage1 {
@@ -547,6 +639,9 @@ pub fn provenance(
         compiler: compiler.into(),
         tool: format!("tutti {}", env!("CARGO_PKG_VERSION")),
         verified: match verification {
+            Some(Verification::Whole(v)) if v.final_diagonal => {
+                "whole, up to a diagonal before the final measurements".into()
+            }
             Some(Verification::Whole(_)) => "whole".into(),
             Some(Verification::Windowed(_)) => "window by window".into(),
             None => "no".into(),

@@ -99,6 +99,12 @@ pub fn verdict_text(v: &Verdict) -> String {
     if let Some(note) = &v.padding {
         let _ = writeln!(out, "  note          {note}");
     }
+    if v.final_diagonal {
+        let _ = writeln!(
+            out,
+            "  note          the unitary before the final measurements was compared up to a diagonal on the measured qubits (same outcome statistics, not the same unitary)"
+        );
+    }
     let _ = writeln!(
         out,
         "  distance      {}  (tolerance {:.3e}; docs/checker.md)",

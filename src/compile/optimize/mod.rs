@@ -88,6 +88,11 @@ pub struct OptConfig {
     pub solver_time: std::time::Duration,
     /// Keep every block's coupling and synthesis in [`Optimized::certificates`].
     pub keep_certificates: bool,
+    /// Leave out the Z rotations that would end on a qubit just before the final
+    /// measurements ([`final_measured`]). The output then equals the input only up
+    /// to a final diagonal on the measured qubits: verify it with
+    /// `CheckConfig::up_to_final_diagonal`.
+    pub drop_final_z: bool,
 }
 
 impl Default for OptConfig {
@@ -101,6 +106,7 @@ impl Default for OptConfig {
             block_time: std::time::Duration::from_secs(2),
             solver_time: std::time::Duration::from_secs(3),
             keep_certificates: false,
+            drop_final_z: false,
         }
     }
 }
@@ -195,6 +201,25 @@ fn ranges(c: &Circuit, window_qubits: Option<usize>, max_len: usize) -> Vec<Rang
     }
     close(&mut out, start, c.instrs.len());
     out
+}
+
+/// The qubits of the circuit's final run of measurements (unconditioned
+/// measurements, with only barriers between them, that end the circuit), and the
+/// index where that run starts.
+pub fn final_measured(c: &Circuit) -> (Vec<bool>, usize) {
+    let mut measured = vec![false; c.n_qubits() as usize];
+    let mut start = c.instrs.len();
+    for (i, instr) in c.instrs.iter().enumerate().rev() {
+        match (&instr.op, &instr.condition) {
+            (Op::Measure { qubit, .. }, None) => {
+                measured[qubit.0 as usize] = true;
+                start = i;
+            }
+            (Op::Barrier { .. }, None) => {}
+            _ => break,
+        }
+    }
+    (measured, start)
 }
 
 /// A circuit holding `instrs` with `c`'s registers.
@@ -293,12 +318,23 @@ pub fn compile_optimized(
     let mut seq = Sequence::new(ions, c.cregs.clone());
     let mut sync = Vec::new();
     let n = c.n_qubits() as usize;
+    let (final_qubits, final_start) = final_measured(c);
+    let no_drop = vec![false; n];
     for range in ranges(c, cfg.window_qubits, cfg.max_range_instrs) {
         let (end, steps) = match range {
             Range::Gates(r) => {
                 let ops = canonical(c, &c.instrs[r.clone()], cfg.target)?;
                 let s = schedule::schedule(&ops, n);
-                (r.end, emitter.segment(&s, None))
+                // Only barriers may lie between this range and the final run.
+                let last = c.instrs[r.end..final_start]
+                    .iter()
+                    .all(|i| matches!(i.op, Op::Barrier { .. }) && i.condition.is_none());
+                let drop = if cfg.drop_final_z && last {
+                    &final_qubits
+                } else {
+                    &no_drop
+                };
+                (r.end, emitter.segment(&s, None, drop))
             }
             Range::Conditioned(i) => {
                 let instr = &c.instrs[i];
@@ -320,7 +356,7 @@ pub fn compile_optimized(
                         bare.condition = None;
                         let ops = canonical(c, std::slice::from_ref(&bare), cfg.target)?;
                         let s = schedule::schedule(&ops, n);
-                        emitter.segment(&s, instr.condition.as_ref())
+                        emitter.segment(&s, instr.condition.as_ref(), &no_drop)
                     }
                 };
                 (i + 1, steps)

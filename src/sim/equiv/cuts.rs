@@ -28,13 +28,40 @@ pub(super) enum Seg {
 
 /// Cuts a program into alternating unitary segments and cuts: `U B U B ... U`.
 pub(super) fn segments(p: &Program) -> Vec<Seg> {
+    segments_of(p.items.iter())
+}
+
+/// [`segments`] of `p` with its terminal measurements moved last
+/// ([`crate::circuit::defer`]), or `None` when they are last already. A compile may
+/// gather them so (one readout slot), and a sequence cannot always show that it
+/// could: its collective pulses touch every ion.
+pub(super) fn segments_measured_last(p: &Program) -> Option<Vec<Seg>> {
+    use crate::circuit::defer::{order, Access};
+    let ops: Vec<Access> = p
+        .items
+        .iter()
+        .map(|item| match item {
+            Item::Unitary(k) => Access::Touch(k.qubits()),
+            Item::Conditioned { kernel, .. } => Access::Conditioned(kernel.qubits()),
+            Item::Measure { q, clbit } => Access::Measure {
+                qubit: *q,
+                clbit: *clbit,
+            },
+            Item::Reset { q } => Access::Touch(vec![*q]),
+        })
+        .collect();
+    let idx = order(&ops)?;
+    Some(segments_of(idx.into_iter().map(|i| &p.items[i])))
+}
+
+fn segments_of<'a>(items: impl Iterator<Item = &'a Item>) -> Vec<Seg> {
     let mut out = vec![Seg::Unitary(Vec::new())];
     let open_unitary = |out: &mut Vec<Seg>| {
         if !matches!(out.last(), Some(Seg::Unitary(_))) {
             out.push(Seg::Unitary(Vec::new()));
         }
     };
-    for item in &p.items {
+    for item in items {
         match item {
             Item::Unitary(k) => match out.last_mut() {
                 Some(Seg::Unitary(v)) => v.push(k.clone()),

@@ -32,7 +32,7 @@ pub use windowed::{
 };
 
 use crate::sim::program::{LowerError, Program};
-use cuts::{match_cuts, segments};
+use cuts::{match_cuts, segments, segments_measured_last};
 use modes::compare;
 
 /// How segments are compared.
@@ -162,6 +162,10 @@ pub struct Verdict {
     pub compared_qubits: usize,
     /// What differed, when the programs are not equivalent.
     pub detail: String,
+    /// Set when the unitary before the final measurements was compared only up to
+    /// a diagonal on the measured qubits (`CheckConfig::up_to_final_diagonal` and a
+    /// final run of measurements): equal outcome statistics, not equal unitaries.
+    pub final_diagonal: bool,
 }
 
 impl Verdict {
@@ -188,6 +192,7 @@ impl Verdict {
             padding,
             compared_qubits: 0,
             detail: String::new(),
+            final_diagonal: false,
         }
     }
 
@@ -273,9 +278,24 @@ pub fn check_counted(
             return Ok(verdict.differ(format!("the {which} program is faulty: {f}")));
         }
     }
+    // Cuts as written; else with terminal measurements moved last in either or both
+    // (each is the same program: module `crate::circuit::defer`).
+    let (ma, mb);
     let matched = match match_cuts(&sa, &sb) {
         Ok(m) => m,
-        Err(why) => return Ok(verdict.differ(why)),
+        Err(why) => {
+            ma = segments_measured_last(a);
+            mb = segments_measured_last(b);
+            let tries = [
+                (ma.as_ref(), Some(&sb)),
+                (Some(&sa), mb.as_ref()),
+                (ma.as_ref(), mb.as_ref()),
+            ];
+            match tries.into_iter().find_map(|(x, y)| match_cuts(x?, y?).ok()) {
+                Some(m) => m,
+                None => return Ok(verdict.differ(why)),
+            }
+        }
     };
     let mut rank = 0;
     let mut worst_ratio = -1.0;
@@ -283,6 +303,7 @@ pub fn check_counted(
     for (k, &(cut, p, q)) in matched.bodies.iter().enumerate() {
         let diagonal = (cfg.up_to_final_diagonal && matched.before_final == Some(k))
             .then_some(matched.measured.as_slice());
+        verdict.final_diagonal |= diagonal.is_some();
         let r = compare(p, q, n, cfg, diagonal, counter)?;
         any |= !p.is_empty() || !q.is_empty();
         if r.mode.rank() >= rank {

@@ -91,7 +91,7 @@ pub(super) fn compare(
     use std::sync::atomic::Ordering;
     let touched = p.iter().chain(q).map(touches).sum::<usize>() + 2 * n;
     let tolerance = cfg.tolerance.unwrap_or_else(|| derived_tolerance(touched));
-    let prepared = match prepare(p, q, n, diagonal.is_some(), tolerance) {
+    let prepared = match prepare(p, q, n, diagonal, tolerance) {
         Ok(r) => r,
         Err(idle) => {
             return Ok(SegResult {
@@ -298,7 +298,7 @@ pub(super) fn compare(
         counter.done.fetch_add(p.len(), Ordering::Relaxed);
         let ub = try_unitary(q, n).map_err(oom)?;
         counter.done.fetch_add(q.len(), Ordering::Relaxed);
-        let mask: usize = diagonal.map_or(0, |m| m.iter().map(|q| 1usize << q).sum());
+        let mask = measured_mask(diagonal, &prepared.kept);
         // Column-major: entry (i, j) at j * dim + i; the phase is aligned per pattern
         // of the measured bits of the row (one pattern without a diagonal).
         let phases = pattern_phases(&ua, &ub, dim, mask);
@@ -346,7 +346,7 @@ pub(super) fn compare(
         .unwrap_or_else(|| random_tolerance(touched, n));
     let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(cfg.seed);
     let scale = (n as f64 / 2.0).exp2();
-    let mask: usize = diagonal.map_or(0, |m| m.iter().map(|q| 1usize << q).sum());
+    let mask = measured_mask(diagonal, &prepared.kept);
     let mut worst: f64 = 0.0;
     let mut fidelity: f64 = 1.0;
     let mut phase = None;
@@ -433,6 +433,18 @@ fn affected(a: &[C64], b: &[C64], n: usize) -> Vec<usize> {
             sum.sqrt() > floor
         })
         .collect()
+}
+
+/// The bits of the measured qubits among those compared (`kept[k]` is the original
+/// index of compared qubit `k`); 0 without a final diagonal.
+fn measured_mask(diagonal: Option<&[usize]>, kept: &[usize]) -> usize {
+    diagonal.map_or(0, |m| {
+        kept.iter()
+            .enumerate()
+            .filter(|(_, old)| m.contains(old))
+            .map(|(new, _)| 1usize << new)
+            .sum()
+    })
 }
 
 /// Unit phases, one per pattern of the masked bits of an index.

@@ -64,16 +64,19 @@ pub(super) fn touches(k: &Kernel) -> usize {
     }
 }
 
-/// Fuses, drops and (unless `keep_all`) splits off idle qubits. `Err` names an idle
-/// qubit whose operations differ by more than `tolerance`.
+/// Fuses, drops and splits off idle qubits. `Err` names an idle qubit whose
+/// operations differ by more than `tolerance`. With `measured` (a final diagonal
+/// allowed on those qubits), a split-off measured qubit is compared up to a
+/// diagonal (the interaction picture keeps each program's product, so it serves
+/// here too).
 pub(super) fn prepare(
     p: &[Kernel],
     q: &[Kernel],
     n: usize,
-    keep_all: bool,
+    measured: Option<&[usize]>,
     tolerance: f64,
 ) -> Result<Prepared, IdleMismatch> {
-    let plain = prepare_as_given(p, q, n, keep_all, tolerance, 0.0, false);
+    let plain = prepare_as_given(p, q, n, measured, tolerance, 0.0, false);
     // The interaction picture (module `frame`) of either side, when it applies:
     // taken only when it leaves fewer qubits to compare.
     let ip = super::frame::interaction_picture(p, n);
@@ -83,7 +86,7 @@ pub(super) fn prepare(
     }
     let (pk, ps) = ip.unwrap_or_else(|| (p.to_vec(), 0.0));
     let (qk, qs) = iq.unwrap_or_else(|| (q.to_vec(), 0.0));
-    let framed = prepare_as_given(&pk, &qk, n, keep_all, tolerance, ps + qs, true);
+    let framed = prepare_as_given(&pk, &qk, n, measured, tolerance, ps + qs, true);
     match (plain, framed) {
         (Err(e), _) | (_, Err(e)) => Err(e),
         (Ok(a), Ok(b)) => Ok(if b.n < a.n { b } else { a }),
@@ -94,7 +97,7 @@ fn prepare_as_given(
     p: &[Kernel],
     q: &[Kernel],
     n: usize,
-    keep_all: bool,
+    measured: Option<&[usize]>,
     tolerance: f64,
     frame_slack: f64,
     framed: bool,
@@ -106,11 +109,7 @@ fn prepare_as_given(
     let (fp, fq, stray) = drop_stray_couplings(fp, fq, n);
     let slack = frame_slack + sp + sq + dp + dq + stray.map_or(0.0, |s| s.2);
     let stray = stray.map(|s| (s.0, s.1));
-    let (p, q, n, kept) = if keep_all {
-        (fp, fq, n, (0..n).collect())
-    } else {
-        reduce(fp, fq, n, tolerance, slack)?
-    };
+    let (p, q, n, kept) = reduce(fp, fq, n, tolerance, slack, measured)?;
     let (p, q) = (
         merge_single_qubit_runs(&p, n),
         merge_single_qubit_runs(&q, n),
@@ -280,19 +279,40 @@ pub(super) fn aligned_distance2(a: &Mat2, b: &Mat2) -> f64 {
     worst
 }
 
+/// The largest entry of `|b - D a|` over unit diagonals `D`, each row aligned by its
+/// own phase: how far `b` is from `a` followed by a Z rotation (up to phase).
+pub(super) fn row_aligned_distance2(a: &Mat2, b: &Mat2) -> f64 {
+    let mut worst: f64 = 0.0;
+    for i in 0..2 {
+        let dot = a[i][0].conj() * b[i][0] + a[i][1].conj() * b[i][1];
+        let ph = if dot.norm() > 0.0 {
+            dot / dot.norm()
+        } else {
+            C64::new(1.0, 0.0)
+        };
+        for j in 0..2 {
+            worst = worst.max((b[i][j] - ph * a[i][j]).norm());
+        }
+    }
+    worst
+}
+
 /// The programs on the qubits kept, their count, and the original index of each.
 type Reduced = (Vec<Kernel>, Vec<Kernel>, usize, Vec<usize>);
 
 /// Splits off the qubits that no multi-qubit kernel of either program touches: the
 /// programs factor into a product over those qubits and the rest, and each split-off
 /// qubit is compared here (largest entry distance after phase alignment, plus the
-/// slack, against `tolerance`).
+/// slack, against `tolerance`). A split-off qubit named in `measured` is compared up
+/// to a diagonal (each row aligned by its own phase): `B = D A` with `D` diagonal
+/// on the measured qubits holds for the product exactly when it holds for each factor.
 fn reduce(
     p: Vec<Kernel>,
     q: Vec<Kernel>,
     n: usize,
     tolerance: f64,
     slack: f64,
+    measured: Option<&[usize]>,
 ) -> Result<Reduced, IdleMismatch> {
     let mut entangled = vec![false; n];
     for k in p.iter().chain(&q).filter(|k| is_multi(k)) {
@@ -309,7 +329,12 @@ fn reduce(
                 .filter_map(|k| local_part(k, x))
                 .fold(identity2(), |acc, m| mul2(&m, &acc))
         };
-        let distance = aligned_distance2(&product(&p), &product(&q)) + slack;
+        let (a, b) = (product(&p), product(&q));
+        let distance = if measured.is_some_and(|m| m.contains(&x)) {
+            row_aligned_distance2(&a, &b)
+        } else {
+            aligned_distance2(&a, &b)
+        } + slack;
         if distance > tolerance {
             return Err(IdleMismatch { qubit: x, distance });
         }

@@ -124,12 +124,21 @@ impl<'a> Emitter<'a> {
     /// segment is also made without it, and the one the objective prefers is kept
     /// (the shared column needs the segment's weight split evenly over a Hadamard
     /// matrix's rows, which a short segment may not repay).
-    pub fn segment(&mut self, s: &Schedule, condition: Option<&Condition>) -> Vec<Step> {
+    ///
+    /// Qubits marked in `drop_z` are measured right after the segment: the Z
+    /// rotation each would carry out of it is left out (it cannot change what the
+    /// measurement reads; the caller must verify up to a final diagonal).
+    pub fn segment(
+        &mut self,
+        s: &Schedule,
+        condition: Option<&Condition>,
+        drop_z: &[bool],
+    ) -> Vec<Step> {
         let quiet = self.quiet_ions(s);
-        let (ops, reports, used_quiet) = self.plan(s, &quiet);
+        let (ops, reports, used_quiet) = self.plan(s, &quiet, drop_z);
         let (ops, reports) = if used_quiet {
             let none = vec![false; quiet.len()];
-            let (other, other_reports, _) = self.plan(s, &none);
+            let (other, other_reports, _) = self.plan(s, &none, drop_z);
             if self.key(&other) < self.key(&ops) {
                 (other, other_reports)
             } else {
@@ -149,7 +158,12 @@ impl<'a> Emitter<'a> {
 
     /// One way to make the segment: its operations (after the peephole), block
     /// reports, and whether a block shares the quiet ions' column.
-    fn plan(&mut self, s: &Schedule, quiet: &[bool]) -> (Vec<NativeOp>, Vec<BlockReport>, bool) {
+    fn plan(
+        &mut self,
+        s: &Schedule,
+        quiet: &[bool],
+        drop_z: &[bool],
+    ) -> (Vec<NativeOp>, Vec<BlockReport>, bool) {
         let mut parts: Vec<Part> = Vec::new();
         let mut ops = Vec::new();
         let mut reports = Vec::new();
@@ -173,7 +187,9 @@ impl<'a> Emitter<'a> {
         let mut rest: Vec<(u32, f64)> = carry.into_iter().collect();
         rest.sort_by_key(|(q, _)| *q);
         for (q, t) in rest {
-            push_shift(&mut ops, q, t);
+            if !drop_z.get(q as usize).copied().unwrap_or(false) {
+                push_shift(&mut ops, q, t);
+            }
         }
         parts.push(Part::Ops(ops));
         (

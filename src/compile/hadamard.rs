@@ -114,40 +114,55 @@ pub fn is_hadamard(h: &Hadamard) -> bool {
         })
 }
 
-/// A Hadamard matrix of order `m`, if one of the constructions above gives it.
-pub fn hadamard_of_order(m: usize) -> Option<Hadamard> {
+/// How a Hadamard matrix of some order is made.
+enum Plan {
+    Sylvester,
+    Paley1(usize),
+    Paley2(usize),
+    /// `[[H, H], [H, -H]]` from the matrix of half the order.
+    Double,
+}
+
+/// Which construction gives order `m`, if one does (without building it).
+fn plan(m: usize) -> Option<Plan> {
     if m == 1 || m == 2 {
-        return Some(sylvester(m));
+        return Some(Plan::Sylvester);
     }
     if m % 4 != 0 {
         return None;
     }
     if m.is_power_of_two() {
-        return Some(sylvester(m));
+        return Some(Plan::Sylvester);
     }
     let q = m - 1;
     if is_prime(q) && q % 4 == 3 {
-        return Some(paley1(q));
+        return Some(Plan::Paley1(q));
     }
-    if m % 2 == 0 {
-        let q = m / 2 - 1;
-        if is_prime(q) && q % 4 == 1 {
-            return Some(paley2(q));
-        }
-        if let Some(h) = hadamard_of_order(m / 2) {
-            return Some(double(&h));
-        }
+    let q = m / 2 - 1;
+    if is_prime(q) && q % 4 == 1 {
+        return Some(Plan::Paley2(q));
     }
-    None
+    plan(m / 2).map(|_| Plan::Double)
+}
+
+/// A Hadamard matrix of order `m`, if one of the constructions above gives it.
+pub fn hadamard_of_order(m: usize) -> Option<Hadamard> {
+    Some(match plan(m)? {
+        Plan::Sylvester => sylvester(m),
+        Plan::Paley1(q) => paley1(q),
+        Plan::Paley2(q) => paley2(q),
+        Plan::Double => double(&hadamard_of_order(m / 2)?),
+    })
+}
+
+/// The order of [`smallest_hadamard`]`(k)`, without building it.
+pub fn smallest_order(k: usize) -> usize {
+    (k.max(1)..)
+        .find(|&m| plan(m).is_some())
+        .expect("orders 2^j exist")
 }
 
 /// The smallest constructible Hadamard matrix of order at least `k`.
 pub fn smallest_hadamard(k: usize) -> Hadamard {
-    let mut m = k.max(1);
-    loop {
-        if let Some(h) = hadamard_of_order(m) {
-            return h;
-        }
-        m += 1;
-    }
+    hadamard_of_order(smallest_order(k)).expect("the order has a construction")
 }

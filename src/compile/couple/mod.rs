@@ -83,7 +83,8 @@ impl Coupling {
         self.w[p] = v;
     }
 
-    fn max_abs(&self) -> f64 {
+    /// The largest coupling in absolute value.
+    pub fn max_abs(&self) -> f64 {
         self.w.iter().fold(0.0f64, |m, x| m.max(x.abs()))
     }
 
@@ -360,7 +361,6 @@ pub fn components(c: &Coupling) -> Vec<(Vec<usize>, Coupling)> {
 /// The lower bound is the largest component's: restricting any synthesis of the whole
 /// to one component's ions synthesises that component at no more weight.
 pub fn side_by_side(n: usize, parts: &[(Vec<usize>, Synthesis)]) -> Synthesis {
-    let total = parts.iter().map(|(_, s)| s.weight).fold(0.0f64, f64::max);
     let lower_bound = parts
         .iter()
         .map(|(_, s)| s.lower_bound)
@@ -369,47 +369,13 @@ pub fn side_by_side(n: usize, parts: &[(Vec<usize>, Synthesis)]) -> Synthesis {
         .iter()
         .max_by(|a, b| a.1.weight.total_cmp(&b.1.weight))
         .map_or(Method::Single, |p| p.1.method);
-    // Each part as a step function: (end time, signs on its ions).
-    let mut steps: Vec<Vec<(f64, Vec<i8>)>> = Vec::with_capacity(parts.len());
-    let mut cuts: Vec<f64> = Vec::new();
-    for (ions, s) in parts {
-        let mut t = 0.0;
-        let mut part = Vec::new();
-        for p in &s.pulses {
-            if p.weight <= 0.0 {
-                continue;
-            }
-            t += p.weight;
-            part.push((t, p.signs.clone()));
-        }
-        let spare = total - t;
-        if spare > 1e-15 * total.max(1.0) {
-            let h = smallest_hadamard(ions.len());
-            for row in &h {
-                t += spare / h.len() as f64;
-                part.push((t, row[..ions.len()].to_vec()));
-            }
-        }
-        if let Some(last) = part.last_mut() {
-            last.0 = total;
-        }
-        cuts.extend(part.iter().map(|p| p.0));
-        steps.push(part);
-    }
-    cuts.sort_by(f64::total_cmp);
-    cuts.dedup_by(|a, b| (*a - *b).abs() <= 1e-15 * total.max(1.0));
+    let plan = SideBySide::new(parts);
     let h = smallest_hadamard(parts.len());
     let mut pulses = Vec::new();
-    let mut start = 0.0;
     let mut at = vec![0usize; parts.len()];
-    for &end in &cuts {
-        let length = end - start;
-        let mid = start + length / 2.0;
-        start = end;
-        if length <= 0.0 {
-            continue;
-        }
-        for (k, part) in steps.iter().enumerate() {
+    for (start, end) in plan.slices() {
+        let mid = start + (end - start) / 2.0;
+        for (k, part) in plan.steps.iter().enumerate() {
             while at[k] + 1 < part.len() && part[at[k]].0 < mid {
                 at[k] += 1;
             }
@@ -418,16 +384,73 @@ pub fn side_by_side(n: usize, parts: &[(Vec<usize>, Synthesis)]) -> Synthesis {
             let mut signs = vec![1i8; n];
             for (k, (ions, _)) in parts.iter().enumerate() {
                 for (x, &ion) in ions.iter().enumerate() {
-                    signs[ion] = row[k] * steps[k][at[k]].1[x];
+                    signs[ion] = row[k] * plan.steps[k][at[k]].1[x];
                 }
             }
             pulses.push(Pulse {
                 signs,
-                weight: length / h.len() as f64,
+                weight: (end - start) / h.len() as f64,
             });
         }
     }
     finish(order_pulses(pulses), lower_bound, method)
+}
+
+/// How many pulses [`side_by_side`] makes of `parts`, without making them: one per
+/// Hadamard row in each slice of time.
+pub fn side_by_side_pulses(parts: &[(Vec<usize>, Synthesis)]) -> usize {
+    crate::compile::hadamard::smallest_order(parts.len()) * SideBySide::new(parts).slices().count()
+}
+
+/// The time plan of [`side_by_side`]: each part as a step function over
+/// `[0, total]` (end time, signs on its ions), padded to `total` with Hadamard rows,
+/// and the times where any part changes pulse.
+struct SideBySide {
+    steps: Vec<Vec<(f64, Vec<i8>)>>,
+    cuts: Vec<f64>,
+}
+
+impl SideBySide {
+    fn new(parts: &[(Vec<usize>, Synthesis)]) -> SideBySide {
+        let total = parts.iter().map(|(_, s)| s.weight).fold(0.0f64, f64::max);
+        let mut steps: Vec<Vec<(f64, Vec<i8>)>> = Vec::with_capacity(parts.len());
+        let mut cuts: Vec<f64> = Vec::new();
+        for (ions, s) in parts {
+            let mut t = 0.0;
+            let mut part = Vec::new();
+            for p in &s.pulses {
+                if p.weight <= 0.0 {
+                    continue;
+                }
+                t += p.weight;
+                part.push((t, p.signs.clone()));
+            }
+            let spare = total - t;
+            if spare > 1e-15 * total.max(1.0) {
+                let h = smallest_hadamard(ions.len());
+                for row in &h {
+                    t += spare / h.len() as f64;
+                    part.push((t, row[..ions.len()].to_vec()));
+                }
+            }
+            if let Some(last) = part.last_mut() {
+                last.0 = total;
+            }
+            cuts.extend(part.iter().map(|p| p.0));
+            steps.push(part);
+        }
+        cuts.sort_by(f64::total_cmp);
+        cuts.dedup_by(|a, b| (*a - *b).abs() <= 1e-15 * total.max(1.0));
+        SideBySide { steps, cuts }
+    }
+
+    /// The slices of time of positive length, as (start, end).
+    fn slices(&self) -> impl Iterator<Item = (f64, f64)> + '_ {
+        let starts = std::iter::once(0.0).chain(self.cuts.iter().copied());
+        starts
+            .zip(self.cuts.iter().copied())
+            .filter(|(a, b)| b - a > 0.0)
+    }
 }
 
 fn finish(pulses: Vec<Pulse>, lower_bound: f64, method: Method) -> Synthesis {

@@ -309,101 +309,153 @@ pub fn compile_optimized(
 ) -> Result<Optimized, CompileError> {
     super::baseline::check_device(c, profile, cfg.target)?;
     let ions = profile.device.ions;
-    let mut emitter = emit::Emitter::new(profile, cfg.target, cfg.objective);
-    emitter.synth.time_limit = cfg.block_time;
-    emitter.solver_left = cfg.solver_time;
-    if cfg.keep_certificates {
-        emitter.certificates = Some(Vec::new());
-    }
+    let shared = emit::Shared::new(cfg.solver_time);
     let mut seq = Sequence::new(ions, c.cregs.clone());
     let mut sync = Vec::new();
+    let mut blocks = Vec::new();
+    let mut certificates = Vec::new();
     let n = c.n_qubits() as usize;
     let (final_qubits, final_start) = final_measured(c);
     let no_drop = vec![false; n];
-    for range in ranges(c, cfg.window_qubits, cfg.max_range_instrs) {
-        let (end, steps) = match range {
-            Range::Gates(r) => {
-                let ops = canonical(c, &c.instrs[r.clone()], cfg.target)?;
-                let s = schedule::schedule(&ops, n);
-                // Only barriers may lie between this range and the final run.
-                let last = c.instrs[r.end..final_start]
-                    .iter()
-                    .all(|i| matches!(i.op, Op::Barrier { .. }) && i.condition.is_none());
-                let drop = if cfg.drop_final_z && last {
-                    &final_qubits
-                } else {
-                    &no_drop
-                };
-                (r.end, emitter.segment(&s, None, drop))
-            }
-            Range::Conditioned(i) => {
-                let instr = &c.instrs[i];
-                let steps = match instr.op {
-                    Op::Measure { qubit, clbit } => vec![Step {
-                        op: NativeOp::Measure {
-                            ion: qubit.0,
-                            clbit: clbit.0,
-                        },
-                        condition: instr.condition.clone().map(Box::new),
-                    }],
-                    Op::Reset { qubit } => vec![Step {
-                        op: NativeOp::Reset { ion: qubit.0 },
-                        condition: instr.condition.clone().map(Box::new),
-                    }],
-                    Op::Barrier { .. } => Vec::new(),
-                    _ => {
-                        let mut bare = instr.clone();
-                        bare.condition = None;
-                        let ops = canonical(c, std::slice::from_ref(&bare), cfg.target)?;
-                        let s = schedule::schedule(&ops, n);
-                        emitter.segment(&s, instr.condition.as_ref(), &no_drop)
+    let all = ranges(c, cfg.window_qubits, cfg.max_range_instrs);
+    // Ranges are compiled on their own, so a few at a time run in parallel (sharing
+    // the synthesis cache and the solver time) and join in order: the output is
+    // the same as one after the other, unless the solver time runs out.
+    let batch = rayon::current_num_threads().max(1);
+    for chunk in all.chunks(batch) {
+        use rayon::prelude::*;
+        let made: Vec<Result<RangeOut, CompileError>> = chunk
+            .par_iter()
+            .map(|range| {
+                let mut emitter = emit::Emitter::new(profile, cfg.target, cfg.objective, &shared);
+                emitter.synth.time_limit = cfg.block_time;
+                if cfg.keep_certificates {
+                    emitter.certificates = Some(Vec::new());
+                }
+                let drop = match range {
+                    // Only barriers may lie between this range and the final run.
+                    Range::Gates(r)
+                        if cfg.drop_final_z
+                            && c.instrs[r.end..final_start].iter().all(|i| {
+                                matches!(i.op, Op::Barrier { .. }) && i.condition.is_none()
+                            }) =>
+                    {
+                        &final_qubits
                     }
+                    _ => &no_drop,
                 };
-                (i + 1, steps)
+                let (end, steps) = compile_range(c, range, cfg.target, n, &mut emitter, drop)?;
+                Ok(RangeOut {
+                    end,
+                    steps,
+                    reports: emitter.reports,
+                    certificates: emitter.certificates.unwrap_or_default(),
+                })
+            })
+            .collect();
+        for out in made {
+            let out = out?;
+            if seq.steps.len() + out.steps.len() > cfg.max_steps {
+                return Err(CompileError::TooManySteps {
+                    limit: cfg.max_steps,
+                    instruction: out.end,
+                    bytes_per_step: BYTES_PER_STEP,
+                });
             }
-            Range::Fence(i) => {
-                let step = match c.instrs[i].op {
-                    Op::Measure { qubit, clbit } => NativeOp::Measure {
-                        ion: qubit.0,
-                        clbit: clbit.0,
-                    },
-                    Op::Reset { qubit } => NativeOp::Reset { ion: qubit.0 },
-                    _ => unreachable!("fences are measurements and resets"),
-                };
-                (
-                    i + 1,
-                    vec![Step {
-                        op: step,
-                        condition: None,
-                    }],
-                )
-            }
-            Range::Barrier(i) => (i + 1, Vec::new()),
-        };
-        if seq.steps.len() + steps.len() > cfg.max_steps {
-            return Err(CompileError::TooManySteps {
-                limit: cfg.max_steps,
-                instruction: end,
-                bytes_per_step: BYTES_PER_STEP,
+            seq.steps
+                .try_reserve(out.steps.len())
+                .map_err(|_| CompileError::OutOfMemory {
+                    steps: seq.steps.len(),
+                    instruction: out.end,
+                })?;
+            seq.steps.extend(out.steps);
+            blocks.extend(out.reports);
+            certificates.extend(out.certificates);
+            sync.push(SyncPoint {
+                instrs: out.end,
+                steps: seq.steps.len(),
             });
         }
-        seq.steps
-            .try_reserve(steps.len())
-            .map_err(|_| CompileError::OutOfMemory {
-                steps: seq.steps.len(),
-                instruction: end,
-            })?;
-        seq.steps.extend(steps);
-        sync.push(SyncPoint {
-            instrs: end,
-            steps: seq.steps.len(),
-        });
     }
     Ok(Optimized {
         sequence: seq,
         sync,
-        solver_time: emitter.solver_spent,
-        certificates: emitter.certificates.unwrap_or_default(),
-        blocks: emitter.reports,
+        solver_time: shared.solver_spent(),
+        certificates,
+        blocks,
+    })
+}
+
+/// What one range made: the instruction it ends before, its steps, and its block
+/// reports and certificates.
+struct RangeOut {
+    end: usize,
+    steps: Vec<Step>,
+    reports: Vec<BlockReport>,
+    certificates: Vec<(
+        crate::compile::couple::Coupling,
+        std::sync::Arc<crate::compile::couple::Synthesis>,
+    )>,
+}
+
+/// The steps of one range, and the instruction it ends before.
+fn compile_range(
+    c: &Circuit,
+    range: &Range,
+    target: Target,
+    n: usize,
+    emitter: &mut emit::Emitter,
+    drop: &[bool],
+) -> Result<(usize, Vec<Step>), CompileError> {
+    let no_drop = vec![false; n];
+    Ok(match *range {
+        Range::Gates(ref r) => {
+            let ops = canonical(c, &c.instrs[r.clone()], target)?;
+            let s = schedule::schedule(&ops, n);
+            (r.end, emitter.segment(&s, None, drop))
+        }
+        Range::Conditioned(i) => {
+            let instr = &c.instrs[i];
+            let steps = match instr.op {
+                Op::Measure { qubit, clbit } => vec![Step {
+                    op: NativeOp::Measure {
+                        ion: qubit.0,
+                        clbit: clbit.0,
+                    },
+                    condition: instr.condition.clone().map(Box::new),
+                }],
+                Op::Reset { qubit } => vec![Step {
+                    op: NativeOp::Reset { ion: qubit.0 },
+                    condition: instr.condition.clone().map(Box::new),
+                }],
+                Op::Barrier { .. } => Vec::new(),
+                _ => {
+                    let mut bare = instr.clone();
+                    bare.condition = None;
+                    let ops = canonical(c, std::slice::from_ref(&bare), target)?;
+                    let s = schedule::schedule(&ops, n);
+                    emitter.segment(&s, instr.condition.as_ref(), &no_drop)
+                }
+            };
+            (i + 1, steps)
+        }
+        Range::Fence(i) => {
+            let step = match c.instrs[i].op {
+                Op::Measure { qubit, clbit } => NativeOp::Measure {
+                    ion: qubit.0,
+                    clbit: clbit.0,
+                },
+                Op::Reset { qubit } => NativeOp::Reset { ion: qubit.0 },
+                _ => unreachable!("fences are measurements and resets"),
+            };
+            (
+                i + 1,
+                vec![Step {
+                    op: step,
+                    condition: None,
+                }],
+            )
+        }
+        Range::Barrier(i) => (i + 1, Vec::new()),
     })
 }

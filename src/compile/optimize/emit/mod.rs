@@ -22,10 +22,10 @@ use super::schedule::Schedule;
 use super::Objective;
 use crate::circuit::{Condition, Mat2};
 use crate::compile::couple::{
-    components, hadamard_each, matching, order_pulses, pad_idle, side_by_side, synthesize,
-    Budget as SynthBudget, Coupling, Method, Pulse, Synthesis,
+    components, hadamard_each, matching, order_pulses, pad_idle, side_by_side, side_by_side_pulses,
+    synthesize, Budget as SynthBudget, Coupling, Method, Pulse, Synthesis,
 };
-use crate::compile::hadamard::smallest_hadamard;
+use crate::compile::hadamard::{smallest_hadamard, smallest_order};
 use crate::compile::lower::zyz;
 use crate::compile::Target;
 use crate::native::budget::budget;
@@ -33,6 +33,7 @@ use crate::native::profile::Profile;
 use crate::native::{NativeOp, Sequence, Step};
 use rustc_hash::FxHashMap;
 use std::f64::consts::{FRAC_PI_2, PI};
+use std::sync::atomic::{AtomicU64, Ordering};
 use std::sync::Arc;
 
 mod peephole;
@@ -60,35 +61,74 @@ pub struct BlockReport {
     pub pulses: usize,
 }
 
-/// Settings and caches shared by every segment of one compile.
+/// What every range of one compile shares, across threads: the syntheses found so
+/// far (by coupling), and the solver time left and spent.
+pub struct Shared {
+    cache: std::sync::Mutex<FxHashMap<Vec<u64>, Arc<Synthesis>>>,
+    /// Solver time for the whole compile, in nanoseconds; once spent, blocks the
+    /// cache does not know are made by the constructions alone.
+    solver_left_ns: AtomicU64,
+    solver_spent_ns: AtomicU64,
+}
+
+impl Shared {
+    pub fn new(solver_time: std::time::Duration) -> Shared {
+        Shared {
+            cache: std::sync::Mutex::new(FxHashMap::default()),
+            solver_left_ns: AtomicU64::new(solver_time.as_nanos().min(u64::MAX as u128) as u64),
+            solver_spent_ns: AtomicU64::new(0),
+        }
+    }
+
+    /// Solver time spent so far.
+    pub fn solver_spent(&self) -> std::time::Duration {
+        std::time::Duration::from_nanos(self.solver_spent_ns.load(Ordering::Relaxed))
+    }
+
+    fn solver_left(&self) -> std::time::Duration {
+        std::time::Duration::from_nanos(self.solver_left_ns.load(Ordering::Relaxed))
+    }
+
+    fn spend(&self, spent: std::time::Duration) {
+        let ns = spent.as_nanos().min(u64::MAX as u128) as u64;
+        self.solver_spent_ns.fetch_add(ns, Ordering::Relaxed);
+        let _ = self
+            .solver_left_ns
+            .fetch_update(Ordering::Relaxed, Ordering::Relaxed, |left| {
+                Some(left.saturating_sub(ns))
+            });
+    }
+}
+
+/// Settings of one compile and what one range made: its block reports and, when
+/// asked, its certificates. Ranges may run on several threads, each with an
+/// emitter of its own over one [`Shared`].
 pub struct Emitter<'a> {
     pub profile: &'a Profile,
     pub target: Target,
     pub objective: Objective,
     pub synth: SynthBudget,
-    cache: FxHashMap<Vec<u64>, Arc<Synthesis>>,
+    shared: &'a Shared,
     pub reports: Vec<BlockReport>,
-    /// Solver time left for the whole compile; once spent, blocks the cache does
-    /// not know are made by the constructions alone.
-    pub solver_left: std::time::Duration,
-    /// Solver time spent.
-    pub solver_spent: std::time::Duration,
     /// When set, every block's coupling (on its own ions) and the synthesis it was
     /// offered, for checking the certificates.
     pub certificates: Option<Vec<(Coupling, Arc<Synthesis>)>>,
 }
 
 impl<'a> Emitter<'a> {
-    pub fn new(profile: &'a Profile, target: Target, objective: Objective) -> Emitter<'a> {
+    pub fn new(
+        profile: &'a Profile,
+        target: Target,
+        objective: Objective,
+        shared: &'a Shared,
+    ) -> Emitter<'a> {
         Emitter {
             profile,
             target,
             objective,
             synth: SynthBudget::default(),
-            cache: FxHashMap::default(),
+            shared,
             reports: Vec::new(),
-            solver_left: std::time::Duration::from_secs(3),
-            solver_spent: std::time::Duration::ZERO,
             certificates: None,
         }
     }
@@ -320,32 +360,125 @@ impl<'a> Emitter<'a> {
         for &(a, b, w) in &terms {
             device.set(a as usize, b as usize, w);
         }
+        let active_idx: Vec<usize> = active.iter().map(|&q| q as usize).collect();
+        let idle = n - active.len();
+        // Each candidate comes with a lower bound on its key, known before it is
+        // built; `choose` builds the costly ones only while that bound could still
+        // beat the best built so far. First those that need no coupling program.
+        let mut cheap: Vec<Candidate> = Vec::new();
+        if let Some(m) = matching(&device) {
+            cheap.push(Candidate::built(
+                self,
+                Made::Pulses(m.pulses),
+                Method::Matching,
+                m.weight,
+            ));
+        }
+        // Fact 6 for each coupling: m pulses of weight |w|/m, m >= n - 1, the m rows
+        // of a Hadamard matrix (distinct, so at least m - 1 flip layers).
+        let nonzero = device.w.iter().filter(|w| **w != 0.0).count();
+        let m_each = smallest_order(n.saturating_sub(1).max(1));
+        let h_total: f64 = device.w.iter().map(|w| 2.0 * w.abs()).sum();
+        {
+            let device = &device;
+            cheap.push(Candidate {
+                lower: self.pulse_bound(nonzero * m_each, h_total, m_each - 1),
+                method: Method::Hadamard,
+                weight: h_total / 2.0,
+                build: Box::new(move || Some(Made::Pulses(hadamard_each(device).pulses))),
+            });
+        }
+        if self.target == Target::Addressed && self.profile.capabilities.pair_ms {
+            let pair: Vec<NativeOp> = terms
+                .iter()
+                .map(|&(a, b, w)| NativeOp::PairMs {
+                    a,
+                    b,
+                    theta: 2.0 * w,
+                    phi: 0.0,
+                })
+                .collect();
+            let weight = terms.iter().map(|t| t.2.abs()).sum();
+            cheap.push(Candidate::built(
+                self,
+                Made::Ops(pair),
+                Method::Single,
+                weight,
+            ));
+        }
+        let found = self.choose(cheap, None);
+        // The candidates made from the coupling program's synthesis: their bounds
+        // before it runs (total angle at least twice the largest coupling, since
+        // every pulse adds at most its weight to a coupling; pulse and flip counts
+        // from the Hadamard orders alone). When none can beat what was found, the
+        // program is not run at all (unless certificates are kept).
+        let parts = components(&local);
+        let quiet_others =
+            (quiet.iter().any(|&q| q)).then(|| idle - quiet.iter().filter(|&&q| q).count());
+        let theta_min = 2.0 * local.max_abs();
+        let m_pad = if idle == 0 {
+            1
+        } else {
+            smallest_order(idle + 1)
+        };
+        let mut pre: Vec<(f64, f64)> = vec![self.pulse_bound(m_pad, theta_min, m_pad - 1)];
+        if let Some(others) = quiet_others {
+            let m = smallest_order(others + 2);
+            pre.push(self.pulse_bound(m, theta_min, m - 1));
+        }
+        if parts.len() > 1 {
+            let m = smallest_order(parts.len() + idle);
+            pre.push(self.pulse_bound(m, theta_min, m - 1));
+        }
+        let hiding = self.target == Target::Addressed
+            && self.profile.capabilities.hiding
+            && active.len() < n;
+        if hiding {
+            pre.push(self.hiding_bound(idle, theta_min));
+        }
+        let could_win = match &found {
+            None => true,
+            Some((k, _)) => pre.iter().any(|b| b.0 <= k.0 + 1e-12 * k.0.abs()),
+        };
+        if !could_win && self.certificates.is_none() {
+            let (_, (chosen, method, weight, _)) = found.expect("a candidate was found");
+            return (
+                Part::Ops(self.sandwich(chosen.clone())),
+                Some(BlockReport {
+                    ions: active.len(),
+                    couplings: terms.len(),
+                    area: 2.0 * weight / FRAC_PI_2,
+                    lower_bound: 0.0,
+                    method,
+                    pulses: chosen.iter().filter(|op| op.is_entangling()).count(),
+                }),
+            );
+        }
         let best = self.synthesis(&local);
         if let Some(certs) = &mut self.certificates {
             certs.push((local.clone(), Arc::clone(&best)));
         }
         let mut candidates: Vec<Candidate> = Vec::new();
-        let active_idx: Vec<usize> = active.iter().map(|&q| q as usize).collect();
-        candidates.push((
-            Made::Pulses(pad_idle(&best, &active_idx, n)),
-            best.method,
-            best.weight,
-        ));
+        let total: f64 = best.pulses.iter().map(|p| 2.0 * p.weight).sum();
+        candidates.push(Candidate {
+            lower: self.pulse_bound(best.pulses.len() * m_pad, total, m_pad - 1),
+            method: best.method,
+            weight: best.weight,
+            build: Box::new(|| Some(Made::Pulses(pad_idle(&best, &active_idx, n)))),
+        });
         // The same pulses, decoupled from the quiet ions by one shared column.
-        let n_quiet = quiet.iter().filter(|&&q| q).count();
-        let groups = (n_quiet > 0).then(|| quiet_groups(&best, &active_idx, quiet));
-        if let Some(groups) = &groups {
-            let flat: Vec<Pulse> = groups.iter().flat_map(|g| g.pulses.clone()).collect();
-            candidates.push((Made::Pulses(flat), best.method, best.weight));
-        }
-        let quiet_candidate = if n_quiet > 0 { 1 } else { usize::MAX };
-        if let Some(m) = matching(&device) {
-            candidates.push((Made::Pulses(m.pulses), Method::Matching, m.weight));
+        if let Some(others) = quiet_others {
+            let m = smallest_order(others + 2);
+            candidates.push(Candidate {
+                lower: self.pulse_bound(best.pulses.len() * m, total, m - 1),
+                method: best.method,
+                weight: best.weight,
+                build: Box::new(|| Some(Made::Quiet(quiet_groups(&best, &active_idx, quiet)))),
+            });
         }
         // Components side by side over the whole device, every other ion a column of
         // its own: one Hadamard matrix for both, where padding each component's
         // pulses for the idle ions would multiply the pulse count again.
-        let parts = components(&local);
         if parts.len() > 1 {
             let mut on_device: Vec<(Vec<usize>, Synthesis)> = Vec::new();
             let mut used = vec![false; n];
@@ -358,59 +491,63 @@ impl<'a> Emitter<'a> {
             for ion in (0..n).filter(|&i| !used[i]) {
                 on_device.push((vec![ion], Synthesis::empty()));
             }
-            let joined = side_by_side(n, &on_device);
-            if joined.certifies(&device) {
-                candidates.push((Made::Pulses(joined.pulses), joined.method, joined.weight));
-            }
+            // Its pulse count is known before it is built (one per Hadamard row in
+            // each slice of time); the weight and method are the costliest part's.
+            let costliest = on_device
+                .iter()
+                .max_by(|a, b| a.1.weight.total_cmp(&b.1.weight))
+                .map_or((0.0, Method::Single), |p| (p.1.weight, p.1.method));
+            let m = smallest_order(on_device.len());
+            let device = &device;
+            candidates.push(Candidate {
+                lower: self.pulse_bound(side_by_side_pulses(&on_device), 2.0 * costliest.0, m - 1),
+                method: costliest.1,
+                weight: costliest.0,
+                build: Box::new(move || {
+                    let joined = side_by_side(n, &on_device);
+                    joined
+                        .certifies(device)
+                        .then_some(Made::Pulses(joined.pulses))
+                }),
+            });
         }
-        let h = hadamard_each(&device);
-        candidates.push((Made::Pulses(h.pulses), Method::Hadamard, h.weight));
-        if self.target == Target::Addressed {
-            let caps = self.profile.capabilities;
-            if caps.pair_ms {
-                let pair: Vec<NativeOp> = terms
-                    .iter()
-                    .map(|&(a, b, w)| NativeOp::PairMs {
-                        a,
-                        b,
-                        theta: 2.0 * w,
-                        phi: 0.0,
-                    })
-                    .collect();
-                let weight = terms.iter().map(|t| t.2.abs()).sum();
-                candidates.push((Made::Ops(pair), Method::Single, weight));
-            }
-            if caps.hiding && active.len() < n {
-                let on_active: Vec<Pulse> = best
-                    .pulses
-                    .iter()
-                    .map(|p| {
-                        let mut signs = vec![1i8; n];
-                        for (k, &q) in active.iter().enumerate() {
-                            signs[q as usize] = p.signs[k];
-                        }
-                        Pulse {
-                            signs,
-                            weight: p.weight,
-                        }
-                    })
-                    .collect();
-                let mut hidden = Vec::new();
-                for ion in 0..n as u32 {
-                    if active.binary_search(&ion).is_err() {
-                        hidden.push(NativeOp::Hide { ion });
+        if hiding {
+            let on_active: Vec<Pulse> = best
+                .pulses
+                .iter()
+                .map(|p| {
+                    let mut signs = vec![1i8; n];
+                    for (k, &q) in active.iter().enumerate() {
+                        signs[q as usize] = p.signs[k];
                     }
+                    Pulse {
+                        signs,
+                        weight: p.weight,
+                    }
+                })
+                .collect();
+            let mut hidden = Vec::new();
+            for ion in 0..n as u32 {
+                if active.binary_search(&ion).is_err() {
+                    hidden.push(NativeOp::Hide { ion });
                 }
-                let mut body = hidden.clone();
-                body.extend(pulse_ops(on_active));
-                body.extend(hidden.iter().map(|h| match *h {
-                    NativeOp::Hide { ion } => NativeOp::Unhide { ion },
-                    other => other,
-                }));
-                candidates.push((Made::Ops(body), best.method, best.weight));
             }
+            let mut body = hidden.clone();
+            body.extend(pulse_ops(on_active));
+            body.extend(hidden.iter().map(|h| match *h {
+                NativeOp::Hide { ion } => NativeOp::Unhide { ion },
+                other => other,
+            }));
+            candidates.push(Candidate::built(
+                self,
+                Made::Ops(body),
+                best.method,
+                best.weight,
+            ));
         }
-        let (index, (chosen, method, weight)) = self.choose(candidates);
+        let (_, (chosen, method, weight, groups)) = self
+            .choose(candidates, found)
+            .expect("at least one candidate");
         let report = Some(BlockReport {
             ions: active.len(),
             couplings: terms.len(),
@@ -419,10 +556,15 @@ impl<'a> Emitter<'a> {
             method,
             pulses: chosen.iter().filter(|op| op.is_entangling()).count(),
         });
-        if index == quiet_candidate {
-            return (Part::Quiet(groups.expect("the quiet candidate")), report);
+        if let Some(groups) = groups {
+            return (Part::Quiet(groups), report);
         }
-        // Z to X: R(pi/2, pi/2) maps X to Z (Ry(-pi/2) X Ry(pi/2) = Z).
+        (Part::Ops(self.sandwich(chosen)), report)
+    }
+
+    /// A block's pulses between the collective rotations that take Z to X and back:
+    /// R(pi/2, pi/2) maps X to Z (Ry(-pi/2) X Ry(pi/2) = Z).
+    fn sandwich(&self, chosen: Vec<NativeOp>) -> Vec<NativeOp> {
         let mut ops = vec![NativeOp::Collective {
             theta: FRAC_PI_2,
             phi: FRAC_PI_2,
@@ -432,16 +574,17 @@ impl<'a> Emitter<'a> {
             theta: -FRAC_PI_2,
             phi: FRAC_PI_2,
         });
-        (Part::Ops(ops), report)
+        ops
     }
 
     fn synthesis(&mut self, c: &Coupling) -> Arc<Synthesis> {
         let mut key: Vec<u64> = vec![c.n as u64];
         key.extend(c.w.iter().map(|w| w.to_bits()));
-        if let Some(s) = self.cache.get(&key) {
+        if let Some(s) = self.shared.cache.lock().expect("cache").get(&key) {
             return Arc::clone(s);
         }
-        let s = if c.n <= 2 || self.solver_left.is_zero() {
+        let left = self.shared.solver_left();
+        let s = if c.n <= 2 || left.is_zero() {
             // Two ions need no solver; without solver time, the construction.
             let mut cheap = SynthBudget {
                 time_limit: std::time::Duration::ZERO,
@@ -454,22 +597,62 @@ impl<'a> Emitter<'a> {
         } else {
             let start = std::time::Instant::now();
             let budget = SynthBudget {
-                time_limit: self.synth.time_limit.min(self.solver_left),
+                time_limit: self.synth.time_limit.min(left),
                 ..self.synth
             };
             let s = synthesize(c, budget);
-            let spent = start.elapsed();
-            self.solver_spent += spent;
-            self.solver_left = self.solver_left.saturating_sub(spent);
+            self.shared.spend(start.elapsed());
             Arc::new(s)
         };
-        self.cache.insert(key, Arc::clone(&s));
+        self.shared
+            .cache
+            .lock()
+            .expect("cache")
+            .insert(key, Arc::clone(&s));
         s
     }
 
-    /// The candidate the objective prefers, costed by the budget model.
-    /// A lower bound on a candidate's key from its entangling pulses alone (the
-    /// other operations only add time and error).
+    /// A lower bound on the key of `count` global MS pulses of total angle `theta`
+    /// with at least `flips` layers of light shifts between them (distinct sign
+    /// vectors in a row need one flip layer each): their time and error alone (the
+    /// other operations only add to both). The profile's costs are affine in the
+    /// angle, so the pulses' sum is exact; a flip layer lasts at least one light
+    /// shift of angle pi; the error of independent operations is at least
+    /// `1 - exp(-sum e_k)`, since `1 - e <= exp(-e)`.
+    fn pulse_bound(&self, count: usize, theta: f64, flips: usize) -> (f64, f64) {
+        let (d, e) = (&self.profile.durations_us, &self.profile.errors);
+        let count_f = count as f64;
+        let flips = flips as f64;
+        let area = theta / FRAC_PI_2;
+        let time = count_f * d.ms.fixed + d.ms.per_rad * theta + flips * d.light_shift.at(PI);
+        let error = 1.0
+            - (-(count_f * e.ms.fixed + e.ms.per_rad * theta + flips * e.light_shift.at(PI))).exp();
+        match self.objective {
+            Objective::Pulses => (count_f, area),
+            Objective::Area => (area, count_f),
+            Objective::Duration => (time, area),
+            Objective::Error => (error, time),
+        }
+    }
+
+    /// A lower bound on the key of hiding `idle` ions around global pulses of total
+    /// angle `theta` (at least one pulse; each idle ion hidden and unhidden).
+    fn hiding_bound(&self, idle: usize, theta: f64) -> (f64, f64) {
+        let (d, e) = (&self.profile.durations_us, &self.profile.errors);
+        let at = |c: Option<crate::native::profile::Cost>| c.map_or(0.0, |c| c.at(0.0));
+        let idle = idle as f64;
+        let area = theta / FRAC_PI_2;
+        let time = d.ms.at(theta) + idle * (at(d.hide) + at(d.unhide));
+        let error = 1.0 - (-(e.ms.at(theta) + idle * (at(e.hide) + at(e.unhide)))).exp();
+        match self.objective {
+            Objective::Pulses => (1.0, area),
+            Objective::Area => (area, 1.0),
+            Objective::Duration => (time, area),
+            Objective::Error => (error, time),
+        }
+    }
+
+    /// A lower bound on a built candidate's key from its entangling pulses alone.
     fn lower_key(&self, made: &Made) -> (f64, f64) {
         let d = &self.profile.durations_us;
         let e = &self.profile.errors;
@@ -487,6 +670,10 @@ impl<'a> Emitter<'a> {
         };
         match made {
             Made::Pulses(p) => p.iter().for_each(|p| add(2.0 * p.weight, false)),
+            Made::Quiet(groups) => groups
+                .iter()
+                .flat_map(|g| &g.pulses)
+                .for_each(|p| add(2.0 * p.weight, false)),
             Made::Ops(ops) => ops.iter().for_each(|op| match *op {
                 NativeOp::Ms { theta, .. } => add(theta, false),
                 NativeOp::PairMs { theta, .. } => add(theta, true),
@@ -501,29 +688,42 @@ impl<'a> Emitter<'a> {
         }
     }
 
-    /// The candidate the objective prefers, costed by the budget model; candidates
-    /// whose entangling pulses alone cost more than the best found are not built.
-    fn choose(&self, candidates: Vec<Candidate>) -> (usize, Built) {
-        let mut order: Vec<(usize, (f64, f64))> = candidates
-            .iter()
-            .enumerate()
-            .map(|(i, c)| (i, self.lower_key(&c.0)))
-            .collect();
-        order.sort_by(|a, b| a.1 .0.total_cmp(&b.1 .0));
-        let mut slots: Vec<Option<Candidate>> = candidates.into_iter().map(Some).collect();
-        let mut best: Option<((f64, f64), (usize, Built))> = None;
-        for (index, lower) in order {
+    /// The candidate the objective prefers, costed by the budget model, with its
+    /// key, starting from `best` (a candidate chosen before); candidates whose lower
+    /// bound is above the best key found are not built. A candidate's groups are
+    /// kept when it shares the quiet ions' column.
+    fn choose(
+        &self,
+        mut candidates: Vec<Candidate>,
+        mut best: Option<((f64, f64), Built)>,
+    ) -> Option<((f64, f64), Built)> {
+        candidates.sort_by(|a, b| a.lower.0.total_cmp(&b.lower.0));
+        for c in candidates {
             if let Some((k, _)) = &best {
-                if lower.0 > k.0 + 1e-12 * k.0.abs() {
+                if c.lower.0 > k.0 + 1e-12 * k.0.abs() {
                     break;
                 }
             }
-            let (made, method, weight) = slots[index].take().expect("each once");
-            let ops = match made {
-                Made::Pulses(p) => pulse_ops(p),
-                Made::Ops(ops) => ops,
+            let Some(made) = (c.build)() else {
+                continue;
+            };
+            let (ops, groups) = match made {
+                Made::Pulses(p) => (pulse_ops(p), None),
+                Made::Ops(ops) => (ops, None),
+                Made::Quiet(groups) => {
+                    let flat: Vec<Pulse> = groups
+                        .iter()
+                        .flat_map(|g| g.pulses.iter().cloned())
+                        .collect();
+                    (pulse_ops(flat), Some(groups))
+                }
             };
             let key = self.key(&ops);
+            debug_assert!(
+                key.0 >= c.lower.0 - 1e-9 * c.lower.0.abs().max(1.0),
+                "a candidate's bound {:?} exceeds its key {key:?}",
+                c.lower
+            );
             let better = match &best {
                 None => true,
                 Some((k, _)) => {
@@ -532,25 +732,46 @@ impl<'a> Emitter<'a> {
                 }
             };
             if better {
-                best = Some((key, (index, (ops, method, weight))));
+                best = Some((key, (ops, c.method, c.weight, groups)));
             }
         }
-        best.expect("at least one candidate").1
+        best
     }
 }
 
-/// A chosen candidate: its operations, method and total weight.
-type Built = (Vec<NativeOp>, Method, f64);
+/// A chosen candidate: its operations, method, total weight, and its groups when it
+/// shares the quiet ions' column.
+type Built = (Vec<NativeOp>, Method, f64, Option<Vec<Group>>);
 
-/// A candidate's pulses: sign vectors still to be ordered, or operations.
+/// A candidate's pulses: sign vectors still to be ordered, the same in groups whose
+/// quiet ions still need their signs, or operations.
 enum Made {
     Pulses(Vec<Pulse>),
+    Quiet(Vec<Group>),
     Ops(Vec<NativeOp>),
 }
 
-/// One way to make a block: its pulses, how its couplings were found, and its
-/// total weight.
-type Candidate = (Made, Method, f64);
+/// One way to make a block: a lower bound on its key (before it is built), how its
+/// couplings were found, its total weight, and how to build it (`None` when the
+/// construction does not apply after all).
+struct Candidate<'c> {
+    lower: (f64, f64),
+    method: Method,
+    weight: f64,
+    build: Box<dyn FnOnce() -> Option<Made> + 'c>,
+}
+
+impl<'c> Candidate<'c> {
+    /// A candidate already built, bounded by its own pulses.
+    fn built(e: &Emitter, made: Made, method: Method, weight: f64) -> Candidate<'c> {
+        Candidate {
+            lower: e.lower_key(&made),
+            method,
+            weight,
+            build: Box::new(move || Some(made)),
+        }
+    }
+}
 
 /// Part of a segment's output: operations, or a block whose quiet ions still need
 /// their signs (see [`resolve_quiet`]).

@@ -501,3 +501,49 @@ fn a_swap_next_to_a_cnot_costs_two_units() {
         assert!(verdict(&c, &o.sequence), "{text}");
     }
 }
+
+/// The bounds that let a block skip building a candidate, or skip the coupling
+/// program, are lower bounds: the compile that builds every candidate and runs the
+/// program for every block (`build_all`) chooses blocks of the same cost.
+/// Duration objective, both targets, every circuit of circuits/; and the skip does
+/// happen on the addressed target (blocks without a certified bound).
+#[test]
+fn skipping_candidates_by_their_bounds_loses_nothing() {
+    use tutti::native::budget::budget;
+    let profile = Profile::demo();
+    let mut skipped = 0;
+    for path in common::files("circuits", "qasm") {
+        let c = common::read_ok(&path);
+        for target in [Target::Collective, Target::Addressed] {
+            let cfg = OptConfig {
+                target,
+                ..OptConfig::default()
+            };
+            let pruned = compile_optimized(&c, &profile, &cfg).unwrap();
+            let full = compile_optimized(
+                &c,
+                &profile,
+                &OptConfig {
+                    build_all: true,
+                    ..cfg
+                },
+            )
+            .unwrap();
+            let (a, b) = (
+                budget(&pruned.sequence, &profile, c.n_qubits()).duration_us,
+                budget(&full.sequence, &profile, c.n_qubits()).duration_us,
+            );
+            assert!(
+                (a - b).abs() <= 1e-9 * b,
+                "{} {target:?}: {a} us pruned, {b} us with every candidate",
+                path.display()
+            );
+            skipped += pruned
+                .blocks
+                .iter()
+                .filter(|r| r.lower_bound == 0.0)
+                .count();
+        }
+    }
+    assert!(skipped > 0, "no block skipped the coupling program");
+}

@@ -166,22 +166,34 @@ pub fn budget_table(b: &budget::Budget) -> String {
     out
 }
 
-/// One line on the optimizer's coupling blocks: how many, their MS area, and its
-/// ratio to the sum of the blocks' certified lower bounds (docs/budget.md: quality
-/// per block against the optimum where it is computable). `None` for the baseline.
+/// One line on the optimizer's coupling blocks: how many, their MS area, and the
+/// ratio of the area of the blocks with a certified lower bound to the sum of those
+/// bounds (docs/budget.md: quality per block against the optimum where it is
+/// computable; a block made without the coupling program has none). `None` for the
+/// baseline.
 pub fn blocks_line(blocks: &[crate::compile::optimize::BlockReport]) -> Option<String> {
     if blocks.is_empty() {
         return None;
     }
     let area: f64 = blocks.iter().map(|b| b.area).sum();
-    let bound: f64 = blocks.iter().map(|b| b.lower_bound).sum();
+    let bounded: Vec<_> = blocks.iter().filter(|b| b.lower_bound > 0.0).collect();
+    let bound: f64 = bounded.iter().map(|b| b.lower_bound).sum();
     let ratio = if bound > 0.0 {
-        format!("{:.3}", area / bound)
+        let bounded_area: f64 = bounded.iter().map(|b| b.area).sum();
+        format!("{:.3}", bounded_area / bound)
     } else {
         "-".into()
     };
+    let of = if bounded.len() < blocks.len() {
+        format!(
+            " ({} of them; the others were made without the coupling program)",
+            bounded.len()
+        )
+    } else {
+        String::new()
+    };
     Some(format!(
-        "coupling blocks: {}, MS area {} (units of pi/2), {ratio} times the sum of their certified lower bounds",
+        "coupling blocks: {}, MS area {} (units of pi/2), {ratio} times the sum of their certified lower bounds{of}",
         blocks.len(),
         fixed(area, 3)
     ))

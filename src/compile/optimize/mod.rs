@@ -93,6 +93,11 @@ pub struct OptConfig {
     /// to a final diagonal on the measured qubits: verify it with
     /// `CheckConfig::up_to_final_diagonal`.
     pub drop_final_z: bool,
+    /// Build and cost every candidate construction of every block, and run the
+    /// coupling program for every block, instead of skipping those whose lower
+    /// bounds cannot win (docs/optimizer.md): slower, same costs; for tests and
+    /// measurements.
+    pub build_all: bool,
 }
 
 impl Default for OptConfig {
@@ -107,6 +112,7 @@ impl Default for OptConfig {
             solver_time: std::time::Duration::from_secs(3),
             keep_certificates: false,
             drop_final_z: false,
+            build_all: false,
         }
     }
 }
@@ -332,6 +338,7 @@ pub fn compile_optimized(
                 if cfg.keep_certificates {
                     emitter.certificates = Some(Vec::new());
                 }
+                emitter.build_all = cfg.build_all;
                 let drop = match range {
                     // Only barriers may lie between this range and the final run.
                     Range::Gates(r)

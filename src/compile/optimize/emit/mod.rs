@@ -113,6 +113,9 @@ pub struct Emitter<'a> {
     /// When set, every block's coupling (on its own ions) and the synthesis it was
     /// offered, for checking the certificates.
     pub certificates: Option<Vec<(Coupling, Arc<Synthesis>)>>,
+    /// Build and cost every candidate of every block, bounds unused (to measure
+    /// what the bounds save, and to test that they lose nothing).
+    pub build_all: bool,
 }
 
 impl<'a> Emitter<'a> {
@@ -130,6 +133,7 @@ impl<'a> Emitter<'a> {
             shared,
             reports: Vec::new(),
             certificates: None,
+            build_all: false,
         }
     }
 
@@ -440,7 +444,7 @@ impl<'a> Emitter<'a> {
             None => true,
             Some((k, _)) => pre.iter().any(|b| b.0 <= k.0 + 1e-12 * k.0.abs()),
         };
-        if !could_win && self.certificates.is_none() {
+        if !could_win && self.certificates.is_none() && !self.build_all {
             let (_, (chosen, method, weight, _)) = found.expect("a candidate was found");
             return (
                 Part::Ops(self.sandwich(chosen.clone())),
@@ -700,7 +704,7 @@ impl<'a> Emitter<'a> {
         candidates.sort_by(|a, b| a.lower.0.total_cmp(&b.lower.0));
         for c in candidates {
             if let Some((k, _)) = &best {
-                if c.lower.0 > k.0 + 1e-12 * k.0.abs() {
+                if c.lower.0 > k.0 + 1e-12 * k.0.abs() && !self.build_all {
                     break;
                 }
             }

@@ -10,11 +10,14 @@
 
 mod common;
 
-use common::{generated, Kind};
+use common::{generated_circuit, Kind};
 use std::time::Instant;
 use tutti::compile::optimize::{compile_optimized, OptConfig};
 use tutti::compile::Target;
 use tutti::native::profile::Profile;
+
+/// The gates of the generated circuits.
+const KINDS: [Kind; 5] = [Kind::Rz, Kind::Ry, Kind::H, Kind::Cx, Kind::Cu1];
 
 fn main() {
     let mut profile = Profile::demo();
@@ -26,16 +29,8 @@ fn main() {
         (Target::Collective, &[100_000usize][..]),
     ] {
         for &gates in sizes {
-            let text = generated(
-                50,
-                gates,
-                0x50,
-                &[Kind::Rz, Kind::Ry, Kind::H, Kind::Cx, Kind::Cu1],
-            );
             let t = Instant::now();
-            let circuit = tutti::qasm::read_str("generated.qasm", &text)
-                .circuit
-                .expect("the generated circuit reads");
+            let circuit = generated_circuit(50, gates, 0x50, &KINDS);
             let read = t.elapsed().as_secs_f64();
             let cfg = OptConfig {
                 target,
@@ -47,7 +42,7 @@ fn main() {
             let secs = t.elapsed().as_secs_f64();
             let solver = o.solver_time.as_secs_f64();
             println!(
-                "{:>10} target, 50 qubits, {gates:>9} gates: compile {secs:7.2} s = {:>10.0} ops/s on {} thread(s) (solver {solver:.2} s of time summed over threads, at most {:.0} s); {} steps, {} blocks; reading {read:.2} s",
+                "{:>10} target, 50 qubits, {gates:>9} gates: compile {secs:7.2} s = {:>10.0} ops/s on {} thread(s) (solver {solver:.2} s of time summed over threads, at most {:.0} s); {} steps, {} blocks; generating and reading {read:.2} s",
                 target.name(),
                 gates as f64 / secs,
                 rayon::current_num_threads(),
@@ -66,15 +61,7 @@ fn main() {
     );
     // Reference in the same run: the 100k addressed compile building every
     // candidate of every block (no bounds), on one thread and on all.
-    let text = generated(
-        50,
-        100_000,
-        0x50,
-        &[Kind::Rz, Kind::Ry, Kind::H, Kind::Cx, Kind::Cu1],
-    );
-    let circuit = tutti::qasm::read_str("generated.qasm", &text)
-        .circuit
-        .expect("the generated circuit reads");
+    let circuit = generated_circuit(50, 100_000, 0x50, &KINDS);
     let run = |build_all: bool| {
         let cfg = OptConfig {
             target: Target::Addressed,

@@ -8,7 +8,7 @@
 
 mod common;
 
-use common::{generated, Kind};
+use common::{generated_circuit, Kind};
 use std::time::Instant;
 use tutti::driver::{compile, CompileConfig};
 use tutti::native::profile::Profile;
@@ -20,16 +20,12 @@ fn peak_kib() -> Option<u64> {
 }
 
 fn main() {
-    let text = generated(
+    let circuit = generated_circuit(
         21,
         113_000,
         0x113,
         &[Kind::Rz, Kind::Ry, Kind::H, Kind::Cx, Kind::Cu1],
     );
-    let circuit = tutti::qasm::read_str("stand_in.qasm", &text)
-        .circuit
-        .expect("the generated circuit reads");
-    drop(text);
     let cfg = CompileConfig {
         max_steps: 200_000_000,
         ..CompileConfig::default()

@@ -5,7 +5,7 @@
 
 mod common;
 
-use common::{generated, Kind};
+use common::{generated_circuit, Kind};
 use std::time::Instant;
 use tutti::compile::{compile_baseline_traced, Target};
 use tutti::native::profile::Profile;
@@ -15,16 +15,12 @@ fn main() {
     let profile = Profile::demo();
     let mut times = Vec::new();
     for gates in [100_000usize, 1_000_000] {
-        let out = tutti::qasm::read_str(
-            "generated.qasm",
-            &generated(
-                20,
-                gates,
-                0x2026,
-                &[Kind::Rz, Kind::Ry, Kind::Cx, Kind::Cu1],
-            ),
+        let circuit = generated_circuit(
+            20,
+            gates,
+            0x2026,
+            &[Kind::Rz, Kind::Ry, Kind::Cx, Kind::Cu1],
         );
-        let circuit = out.circuit.expect("the generated circuit reads");
         let (seq, origin) =
             compile_baseline_traced(&circuit, &profile, Target::Addressed).expect("compiles");
         let sync = sync_points_from_origin(&origin, circuit.instrs.len()).expect("trace");

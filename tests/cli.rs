@@ -21,6 +21,24 @@ fn scratch(name: &str) -> PathBuf {
     dir.join(name)
 }
 
+/// Runs `tutti compile SRC -o OUT --force EXTRA...`, which must succeed, and reads
+/// OUT back as a sequence; also returns what the command printed.
+fn compile_and_load(
+    src: &str,
+    out: &std::path::Path,
+    extra: &[&str],
+) -> (tutti::native::Sequence, String) {
+    let mut args = vec!["compile", src, "-o", out.to_str().unwrap(), "--force"];
+    args.extend_from_slice(extra);
+    let (code, stdout, err) = tutti(&args);
+    assert_eq!(code, 0, "{err}");
+    let (loaded, _) = tutti::driver::load(out, &tutti::qasm::Limits::default()).unwrap();
+    let tutti::driver::Loaded::Sequence(seq) = loaded else {
+        panic!("{}: not a sequence", out.display())
+    };
+    (seq, format!("{stdout}{err}"))
+}
+
 #[test]
 fn inspect_json_has_the_documented_keys() {
     let (code, out, _) = tutti(&["inspect", "circuits/ghz_5.qasm", "--json"]);
@@ -673,18 +691,7 @@ fn provenance_is_in_every_format_round_trips_and_never_changes_a_verdict() {
     let want_hash = tutti::driver::sha256_hex(&source);
     for ext in ["pulses", "json", "qasm"] {
         let out = scratch(&format!("provenance.{ext}"));
-        let (code, _, err) = tutti(&[
-            "compile",
-            "circuits/ghz_5.qasm",
-            "-o",
-            out.to_str().unwrap(),
-            "--force",
-        ]);
-        assert_eq!(code, 0, "{err}");
-        let (loaded, _) = tutti::driver::load(&out, &tutti::qasm::Limits::default()).unwrap();
-        let tutti::driver::Loaded::Sequence(seq) = loaded else {
-            panic!("{ext}: not a sequence")
-        };
+        let (seq, _) = compile_and_load("circuits/ghz_5.qasm", &out, &[]);
         let p = seq
             .provenance
             .clone()
@@ -814,16 +821,7 @@ fn a_failed_write_is_an_error_in_every_format() {
 #[test]
 fn drop_final_z_outputs_need_the_final_diagonal_check() {
     let out = scratch("grover_dropped.pulses");
-    let (code, stdout, err) = tutti(&[
-        "compile",
-        "circuits/grover_3.qasm",
-        "-o",
-        out.to_str().unwrap(),
-        "--force",
-        "--drop-final-z",
-    ]);
-    assert_eq!(code, 0, "{err}");
-    let said = format!("{stdout}{err}");
+    let (seq, said) = compile_and_load("circuits/grover_3.qasm", &out, &["--drop-final-z"]);
     assert!(
         said.contains("EQUIVALENT up to Z rotations before the final measurements"),
         "{said}"
@@ -838,23 +836,12 @@ fn drop_final_z_outputs_need_the_final_diagonal_check() {
         "--up-to-final-diagonal",
     ]);
     assert_eq!(code, 0, "{stdout}");
-    let (loaded, _) = tutti::driver::load(&out, &tutti::qasm::Limits::default()).unwrap();
-    let tutti::driver::Loaded::Sequence(seq) = loaded else {
-        panic!("not a sequence")
-    };
     assert_eq!(
         seq.provenance.unwrap().verified,
         "whole, up to a diagonal before the final measurements"
     );
     // Without the option the output is the circuit's unitary: the plain check passes.
-    let (code, _, err) = tutti(&[
-        "compile",
-        "circuits/grover_3.qasm",
-        "-o",
-        out.to_str().unwrap(),
-        "--force",
-    ]);
-    assert_eq!(code, 0, "{err}");
+    compile_and_load("circuits/grover_3.qasm", &out, &[]);
     let (code, _, _) = tutti(&["check", "circuits/grover_3.qasm", out.to_str().unwrap()]);
     assert_eq!(code, 0);
 }
@@ -871,20 +858,7 @@ fn terminal_measurements_end_in_one_run_and_the_trace_stays_valid() {
     let (_, shared) = tutti::circuit::defer::measurements_last(&circuit)
         .expect("qaoa_n3 has a measurement to move");
     let out = scratch("qaoa_n3.pulses");
-    let (code, _, err) = tutti(&[
-        "compile",
-        src,
-        "-o",
-        out.to_str().unwrap(),
-        "--force",
-        "--trace-every",
-        "1",
-    ]);
-    assert_eq!(code, 0, "{err}");
-    let (loaded, _) = tutti::driver::load(&out, &tutti::qasm::Limits::default()).unwrap();
-    let tutti::driver::Loaded::Sequence(seq) = loaded else {
-        panic!("not a sequence")
-    };
+    let (seq, _) = compile_and_load(src, &out, &["--trace-every", "1"]);
     let first = seq
         .steps
         .iter()

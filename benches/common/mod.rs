@@ -36,3 +36,15 @@ pub fn generated(n: usize, gates: usize, seed: u64, kinds: &[Kind]) -> String {
     }
     text
 }
+
+/// [`generated`] read as a circuit.
+pub fn generated_circuit(
+    n: usize,
+    gates: usize,
+    seed: u64,
+    kinds: &[Kind],
+) -> tutti::circuit::Circuit {
+    tutti::qasm::read_str("generated.qasm", &generated(n, gates, seed, kinds))
+        .circuit
+        .expect("the generated circuit reads")
+}

@@ -515,8 +515,13 @@ fn skipping_candidates_by_their_bounds_loses_nothing() {
     for path in common::files("circuits", "qasm") {
         let c = common::read_ok(&path);
         for target in [Target::Collective, Target::Addressed] {
+            // Solver time without limits, so that no block falls back to a
+            // construction because the machine is busy (the build-all compile runs
+            // the coupling program for every block).
             let cfg = OptConfig {
                 target,
+                block_time: std::time::Duration::from_secs(3600),
+                solver_time: std::time::Duration::from_secs(3600),
                 ..OptConfig::default()
             };
             let pruned = compile_optimized(&c, &profile, &cfg).unwrap();

@@ -254,11 +254,13 @@ pub fn compile_with(
 /// in `counter` (which another thread may read to show progress).
 ///
 /// With `drop_final_z`, the Z rotations that would end on qubits just before the
-/// final measurements are left out only where a proof follows: verification on, the optimizer, a final run
-/// of measurements, and the whole comparison expected to run; it then compares up
-/// to a final diagonal on the measured qubits (what the measurements cannot see).
-/// When that comparison is refused, the circuit is compiled again with them kept,
-/// for the window-by-window proof (which compares unitaries).
+/// final measurements are left out only where a proof follows: verification on,
+/// the optimizer, a final run of measurements, and the whole comparison expected to
+/// run; it then compares up to a final diagonal on the measured qubits (what the
+/// measurements cannot see). When that comparison is refused, the circuit is
+/// compiled again with them kept, for the window-by-window proof (which compares
+/// unitaries). A failed window names instructions of the circuit with its terminal
+/// measurements moved last.
 pub fn compile_counted(
     c: &Circuit,
     profile: &Profile,

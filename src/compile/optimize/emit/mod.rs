@@ -55,7 +55,8 @@ pub struct BlockReport {
     /// The area the chosen pulses spend, in units of pi/2.
     pub area: f64,
     /// The smallest area the coupling program allows (its certified lower bound), in
-    /// units of pi/2; 0 when unknown.
+    /// units of pi/2; 0 when unknown (the block was made without the program, since
+    /// no candidate made from it could win).
     pub lower_bound: f64,
     pub method: Method,
     pub pulses: usize,
@@ -446,17 +447,15 @@ impl<'a> Emitter<'a> {
         };
         if !could_win && self.certificates.is_none() && !self.build_all {
             let (_, (chosen, method, weight, _)) = found.expect("a candidate was found");
-            return (
-                Part::Ops(self.sandwich(chosen.clone())),
-                Some(BlockReport {
-                    ions: active.len(),
-                    couplings: terms.len(),
-                    area: 2.0 * weight / FRAC_PI_2,
-                    lower_bound: 0.0,
-                    method,
-                    pulses: chosen.iter().filter(|op| op.is_entangling()).count(),
-                }),
-            );
+            let report = BlockReport {
+                ions: active.len(),
+                couplings: terms.len(),
+                area: 2.0 * weight / FRAC_PI_2,
+                lower_bound: 0.0,
+                method,
+                pulses: chosen.iter().filter(|op| op.is_entangling()).count(),
+            };
+            return (Part::Ops(self.sandwich(chosen)), Some(report));
         }
         let best = self.synthesis(&local);
         if let Some(certs) = &mut self.certificates {

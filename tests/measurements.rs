@@ -240,3 +240,48 @@ fn the_branching_simulation_sees_the_moves_the_rule_refuses() {
     assert!(!same(&distribution(&cond), &distribution(&bad)));
     assert!(reordered(&cond).is_none());
 }
+
+/// The checker's new freedom (matching cuts with terminal measurements moved last)
+/// never calls two programs equal whose outcome distributions differ: random
+/// programs against copies with one measurement moved to a random later place,
+/// judged by the checker and by the branching simulation above.
+#[test]
+fn the_checker_never_accepts_a_move_that_changes_the_outcomes() {
+    use tutti::sim::{check, CheckConfig};
+    let mut rng = rand::rngs::StdRng::seed_from_u64(0xC0FF_EE26);
+    let (mut accepted, mut refused) = (0, 0);
+    for _ in 0..1500 {
+        let steps = random_program(&mut rng);
+        let measures: Vec<usize> = (0..steps.len())
+            .filter(|&k| matches!(steps[k], Step::Measure(..)))
+            .collect();
+        if measures.is_empty() {
+            continue;
+        }
+        let from = measures[rng.gen_range(0..measures.len())];
+        let to = rng.gen_range(from..steps.len());
+        if to == from {
+            continue;
+        }
+        let mut moved = steps.clone();
+        let m = moved.remove(from);
+        moved.insert(to, m);
+        let program =
+            |s: &[Step]| tutti::sim::Program::from_circuit(&common::read_ok_str(&text(s))).unwrap();
+        let v = check(&program(&steps), &program(&moved), &CheckConfig::default()).unwrap();
+        let same = same(&distribution(&steps), &distribution(&moved));
+        if v.equivalent {
+            assert!(
+                same,
+                "accepted, yet the outcomes differ:\n{steps:?}\n{moved:?}"
+            );
+            accepted += 1;
+        } else {
+            refused += 1;
+        }
+    }
+    assert!(
+        accepted > 100 && refused > 100,
+        "{accepted} accepted, {refused} refused"
+    );
+}

@@ -402,6 +402,9 @@ fn split_off_qubits_follow_the_final_diagonal_rules() {
         format!("h q[0]; cx q[0],q[1]; ry(0.4) q[2]; ry(0.2) q[3]; rz(0.3) q[3];\n{measure}"),
         format!("h q[0]; cx q[0],q[1]; ry(0.40000001) q[2]; ry(0.2) q[3];\n{measure}"),
         format!("h q[0]; cx q[0],q[1]; ry(0.2) q[2]; ry(0.4) q[3];\n{measure}"),
+        // The Z rotation before the Y rotation instead of after it: not a final
+        // diagonal (the measured qubit's side of the split compares B = D A, D last).
+        format!("h q[0]; cx q[0],q[1]; rz(0.3) q[2]; ry(0.4) q[2]; ry(0.2) q[3];\n{measure}"),
     ] {
         let v = judge(&b);
         assert!(!v.equivalent, "{b}: {v:?}");

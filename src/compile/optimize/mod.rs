@@ -322,7 +322,12 @@ pub fn compile_optimized(
     let mut certificates = Vec::new();
     let n = c.n_qubits() as usize;
     let (final_qubits, final_start) = final_measured(c);
-    let no_drop = vec![false; n];
+    // A range ending at or after `last_start` has only barriers between it and the
+    // final run: its carried Z rotations end right before the final measurements.
+    let last_start = c.instrs[..final_start]
+        .iter()
+        .rposition(|i| !(matches!(i.op, Op::Barrier { .. }) && i.condition.is_none()))
+        .map_or(0, |k| k + 1);
     let all = ranges(c, cfg.window_qubits, cfg.max_range_instrs);
     // Ranges are compiled on their own, so a few at a time run in parallel (sharing
     // the synthesis cache and the solver time) and join in order: the output is
@@ -339,17 +344,9 @@ pub fn compile_optimized(
                     emitter.certificates = Some(Vec::new());
                 }
                 emitter.build_all = cfg.build_all;
-                let drop = match range {
-                    // Only barriers may lie between this range and the final run.
-                    Range::Gates(r)
-                        if cfg.drop_final_z
-                            && c.instrs[r.end..final_start].iter().all(|i| {
-                                matches!(i.op, Op::Barrier { .. }) && i.condition.is_none()
-                            }) =>
-                    {
-                        &final_qubits
-                    }
-                    _ => &no_drop,
+                let drop: &[bool] = match range {
+                    Range::Gates(r) if cfg.drop_final_z && r.end >= last_start => &final_qubits,
+                    _ => &[],
                 };
                 let (end, steps) = compile_range(c, range, cfg.target, n, &mut emitter, drop)?;
                 Ok(RangeOut {
@@ -414,7 +411,6 @@ fn compile_range(
     emitter: &mut emit::Emitter,
     drop: &[bool],
 ) -> Result<(usize, Vec<Step>), CompileError> {
-    let no_drop = vec![false; n];
     Ok(match *range {
         Range::Gates(ref r) => {
             let ops = canonical(c, &c.instrs[r.clone()], target)?;
@@ -441,7 +437,7 @@ fn compile_range(
                     bare.condition = None;
                     let ops = canonical(c, std::slice::from_ref(&bare), target)?;
                     let s = schedule::schedule(&ops, n);
-                    emitter.segment(&s, instr.condition.as_ref(), &no_drop)
+                    emitter.segment(&s, instr.condition.as_ref(), &[])
                 }
             };
             (i + 1, steps)

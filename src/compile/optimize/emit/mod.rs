@@ -170,9 +170,10 @@ impl<'a> Emitter<'a> {
     /// (the shared column needs the segment's weight split evenly over a Hadamard
     /// matrix's rows, which a short segment may not repay).
     ///
-    /// Qubits marked in `drop_z` are measured right after the segment: the Z
-    /// rotation each would carry out of it is left out (it cannot change what the
-    /// measurement reads; the caller must verify up to a final diagonal).
+    /// Qubits marked in `drop_z` (shorter than the register: the rest unmarked) are
+    /// measured right after the segment: the Z rotation each would carry out of it
+    /// is left out (it cannot change what the measurement reads; the caller must
+    /// verify up to a final diagonal).
     pub fn segment(
         &mut self,
         s: &Schedule,

@@ -15,10 +15,18 @@ fn tutti(args: &[&str]) -> (i32, String, String) {
     )
 }
 
+/// A path in this test process's own scratch folder: a fresh one, never a folder a
+/// past run with the same process id left behind (the CLI refuses to replace files).
 fn scratch(name: &str) -> PathBuf {
-    let dir = std::env::temp_dir().join(format!("tutti-cli-{}", std::process::id()));
-    std::fs::create_dir_all(&dir).unwrap();
-    dir.join(name)
+    static DIR: std::sync::OnceLock<tempfile::TempDir> = std::sync::OnceLock::new();
+    DIR.get_or_init(|| {
+        tempfile::Builder::new()
+            .prefix("tutti-cli-")
+            .tempdir()
+            .unwrap()
+    })
+    .path()
+    .join(name)
 }
 
 /// Runs `tutti compile SRC -o OUT --force EXTRA...`, which must succeed, and reads

@@ -165,8 +165,8 @@ fn every_output_format_reads_back_to_a_sequence_equal_to_the_circuit() {
     use tutti::driver::{load, Format, Loaded};
     use tutti::sim::{check_windows, sync_points_from_origin};
     let profile = Profile::demo();
-    let dir = std::env::temp_dir().join(format!("tutti-suite-{}", std::process::id()));
-    std::fs::create_dir_all(&dir).unwrap();
+    let tmp = tempfile::tempdir().unwrap();
+    let dir = tmp.path();
     let failures: Vec<String> = all_circuits()
         .par_iter()
         .flat_map_iter(|path| {
@@ -336,8 +336,8 @@ fn final_z_rotations_are_left_out_only_with_a_final_diagonal_proof() {
     use tutti::driver::{load, Format, Loaded};
     use tutti::sim::{check, Program};
     let profile = Profile::demo();
-    let dir = std::env::temp_dir().join(format!("tutti-final-z-{}", std::process::id()));
-    std::fs::create_dir_all(&dir).unwrap();
+    let tmp = tempfile::tempdir().unwrap();
+    let dir = tmp.path();
     let relaxed = CheckConfig {
         up_to_final_diagonal: true,
         ..CheckConfig::default()

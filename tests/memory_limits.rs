@@ -38,8 +38,8 @@ fn acceptable(what: &str, code: i32, err: &str) -> Option<String> {
 #[cfg(unix)]
 #[test]
 fn no_command_aborts_under_a_4_gib_address_space_limit() {
-    let dir = std::env::temp_dir().join(format!("tutti-memory-{}", std::process::id()));
-    std::fs::create_dir_all(&dir).unwrap();
+    let tmp = tempfile::tempdir().unwrap();
+    let dir = tmp.path();
     let files = common::files("tests/data/qasmbench", "qasm");
     assert!(files.len() >= 30, "{} vendored circuits", files.len());
     let failures: Vec<String> = files

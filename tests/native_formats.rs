@@ -316,9 +316,8 @@ fn multiplier_qasm() -> (Sequence, String) {
 }
 
 fn load_text(name: &str, text: &str) -> tutti::driver::Loaded {
-    let dir = std::env::temp_dir().join(format!("tutti-formats-{}", std::process::id()));
-    std::fs::create_dir_all(&dir).unwrap();
-    let path = dir.join(name);
+    let tmp = tempfile::tempdir().unwrap();
+    let path = tmp.path().join(name);
     std::fs::write(&path, text).unwrap();
     match tutti::driver::load(&path, &tutti::qasm::Limits::default()) {
         Ok((loaded, _)) => loaded,

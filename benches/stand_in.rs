@@ -10,7 +10,7 @@ mod common;
 
 use common::{generated_circuit, Kind};
 use std::time::Instant;
-use tutti::driver::{compile, CompileConfig};
+use tutti::driver::{compile_with, CompileConfig, Stage};
 use tutti::native::profile::Profile;
 
 fn peak_kib() -> Option<u64> {
@@ -20,9 +20,14 @@ fn peak_kib() -> Option<u64> {
 }
 
 fn main() {
+    // TUTTI_STAND_IN_GATES: a smaller case of the same kind, for profiling.
+    let gates = std::env::var("TUTTI_STAND_IN_GATES")
+        .ok()
+        .and_then(|g| g.parse().ok())
+        .unwrap_or(113_000);
     let circuit = generated_circuit(
         21,
-        113_000,
+        gates,
         0x113,
         &[Kind::Rz, Kind::Ry, Kind::H, Kind::Cx, Kind::Cu1],
     );
@@ -31,13 +36,28 @@ fn main() {
         ..CompileConfig::default()
     };
     let t = Instant::now();
-    let out = compile(&circuit, &Profile::demo(), &cfg).expect("compiles and verifies");
-    let secs = t.elapsed().as_secs_f64();
+    let mut stages: Vec<(Stage, Instant)> = Vec::new();
+    let out = compile_with(&circuit, &Profile::demo(), &cfg, &mut |s| {
+        stages.push((s, Instant::now()))
+    })
+    .expect("compiles and verifies");
+    let end = Instant::now();
+    let secs = (end - t).as_secs_f64();
+    let ends = stages.iter().skip(1).map(|s| s.1).chain([end]);
+    let spent: Vec<String> = stages
+        .iter()
+        .zip(ends)
+        .map(|((s, from), to)| format!("{} {:.1} s", s.describe(), (to - *from).as_secs_f64()))
+        .collect();
     println!(
-        "113k gates on 21 qubits, demo device, collective target: compile and verify {secs:.1} s; {} steps ({} MS pulses, {} light shifts); peak memory {} MiB (goal: 10 s, 1024 MiB)",
+        "{gates} gates on 21 qubits, demo device, collective target: compile and verify {secs:.1} s; {} steps ({} MS pulses, {} light shifts); peak memory {} MiB (goal: 10 s, 1024 MiB)",
         out.sequence.steps.len(),
         out.budget.ms_pulses,
         out.budget.light_shifts,
         peak_kib().map_or("unknown".into(), |k| (k / 1024).to_string())
     );
+    println!("  by stage: {}", spent.join("; "));
+    if let Some(v) = &out.verification {
+        println!("  {}", v.describe());
+    }
 }

@@ -62,31 +62,130 @@ fn cost_of(t: &PerOp, op: &NativeOp) -> f64 {
     }
 }
 
-/// The ions `op` acts on, given which are hidden: every visible ion for the
-/// whole-chain pulses, none for a frame change. Calls `f` on each.
-fn for_each_ion(op: &NativeOp, hidden: &[bool], mut f: impl FnMut(usize)) {
-    match *op {
-        NativeOp::Collective { .. } | NativeOp::Ms { .. } => {
-            (0..hidden.len()).filter(|&i| !hidden[i]).for_each(f)
-        }
-        NativeOp::PairMs { a, b, .. } => {
-            f(a as usize);
-            f(b as usize);
-        }
-        NativeOp::LightShift { ion, .. }
-        | NativeOp::Addressed { ion, .. }
-        | NativeOp::Hide { ion }
-        | NativeOp::Unhide { ion }
-        | NativeOp::Measure { ion, .. }
-        | NativeOp::Reset { ion } => f(ion as usize),
-        NativeOp::VirtualZ { .. } => {}
-    }
-}
-
 /// Computes the budget of `seq` on `profile`; `active` is the number of ions the
 /// source circuit uses (ions `0..active`).
 pub fn budget(seq: &Sequence, profile: &Profile, active: u32) -> Budget {
-    let n = seq.n_ions as usize;
+    tally(
+        seq.steps.iter().map(|s| &s.op),
+        seq.n_ions as usize,
+        profile,
+        active,
+        true,
+    )
+}
+
+/// The budget of `ops` on a chain of `n_ions` without the per-ion figures
+/// (`entangling_depth` is 0 and `idle_us` empty): what the optimizer ranks candidates
+/// by, at less cost. Every ion counts as used.
+pub fn figures(ops: &[NativeOp], n_ions: u32, profile: &Profile) -> Budget {
+    tally(ops.iter(), n_ions as usize, profile, n_ions, false)
+}
+
+/// Per-ion bookkeeping of [`budget`]: entangling depth and busy time. A whole-chain
+/// pulse is booked once, not per ion: the ions' depth is at least `floor` (the
+/// depth of the last whole-chain entangling pulse with nothing hidden), and every
+/// ion was busy for `chain` minus the whole-chain time it spent hidden.
+struct PerIon {
+    hidden: Vec<bool>,
+    n_hidden: usize,
+    depth: Vec<usize>,
+    floor: usize,
+    own: Vec<f64>,
+    chain: f64,
+    hidden_at: Vec<f64>,
+    missed: Vec<f64>,
+}
+
+impl PerIon {
+    fn new(n: usize) -> PerIon {
+        PerIon {
+            hidden: vec![false; n],
+            n_hidden: 0,
+            depth: vec![0; n],
+            floor: 0,
+            own: vec![0.0; n],
+            chain: 0.0,
+            hidden_at: vec![0.0; n],
+            missed: vec![0.0; n],
+        }
+    }
+
+    fn depth_of(&self, i: usize) -> usize {
+        self.depth[i].max(self.floor)
+    }
+
+    /// Books `op` (taking `dt`); returns its entangling depth, if it entangles.
+    fn book(&mut self, op: &NativeOp, dt: f64, deepest: usize) -> Option<usize> {
+        let mut d = None;
+        match *op {
+            NativeOp::Ms { .. } => {
+                if self.n_hidden == 0 {
+                    // Every ion reaches one more than the deepest.
+                    self.floor = deepest + 1;
+                    d = Some(self.floor);
+                } else {
+                    let visible = (0..self.hidden.len()).filter(|&i| !self.hidden[i]);
+                    let x = visible.clone().map(|i| self.depth_of(i)).max().unwrap_or(0) + 1;
+                    visible.for_each(|i| self.depth[i] = x);
+                    d = Some(x);
+                }
+                self.chain += dt;
+            }
+            NativeOp::Collective { .. } => self.chain += dt,
+            NativeOp::PairMs { a, b, .. } => {
+                let (a, b) = (a as usize, b as usize);
+                let x = self.depth_of(a).max(self.depth_of(b)) + 1;
+                self.depth[a] = x;
+                self.depth[b] = x;
+                d = Some(x);
+                self.own[a] += dt;
+                self.own[b] += dt;
+            }
+            NativeOp::LightShift { ion, .. }
+            | NativeOp::Addressed { ion, .. }
+            | NativeOp::Measure { ion, .. }
+            | NativeOp::Reset { ion } => self.own[ion as usize] += dt,
+            NativeOp::Hide { ion } => {
+                let i = ion as usize;
+                self.own[i] += dt;
+                if !self.hidden[i] {
+                    self.hidden[i] = true;
+                    self.n_hidden += 1;
+                    self.hidden_at[i] = self.chain;
+                }
+            }
+            NativeOp::Unhide { ion } => {
+                let i = ion as usize;
+                self.own[i] += dt;
+                if self.hidden[i] {
+                    self.hidden[i] = false;
+                    self.n_hidden -= 1;
+                    self.missed[i] += self.chain - self.hidden_at[i];
+                }
+            }
+            NativeOp::VirtualZ { .. } => {}
+        }
+        d
+    }
+
+    /// Ion `i`'s busy time.
+    fn busy(&self, i: usize) -> f64 {
+        let still_hidden = if self.hidden[i] {
+            self.chain - self.hidden_at[i]
+        } else {
+            0.0
+        };
+        self.own[i] + (self.chain - self.missed[i] - still_hidden)
+    }
+}
+
+fn tally<'a>(
+    ops: impl Iterator<Item = &'a NativeOp>,
+    n: usize,
+    profile: &Profile,
+    active: u32,
+    per_ion: bool,
+) -> Budget {
     let mut b = Budget {
         ms_pulses: 0,
         ms_area: 0.0,
@@ -103,13 +202,10 @@ pub fn budget(seq: &Sequence, profile: &Profile, active: u32) -> Budget {
         // with this function and does not need it.
         crosstalk_error: None,
     };
-    let mut hidden = vec![false; n];
-    let mut busy = vec![0.0f64; n];
-    let mut depth = vec![0usize; n];
+    let mut ions = per_ion.then(|| PerIon::new(n));
     let mut fidelity = 1.0f64;
-    let mut clock = Clock::new(profile);
-    for step in &seq.steps {
-        let op = &step.op;
+    let mut clock = Clock::new(profile, n);
+    for op in ops {
         let dt = cost_of(&profile.durations_us, op);
         let err = cost_of(&profile.errors, op);
         fidelity *= (1.0 - err).max(0.0);
@@ -125,19 +221,10 @@ pub fn budget(seq: &Sequence, profile: &Profile, active: u32) -> Budget {
             NativeOp::Measure { .. } => b.measurements += 1,
             _ => {}
         }
-        if op.is_entangling() {
-            let mut d = 0;
-            for_each_ion(op, &hidden, |i| d = d.max(depth[i]));
-            d += 1;
-            for_each_ion(op, &hidden, |i| depth[i] = d);
-            b.entangling_depth = b.entangling_depth.max(d);
-        }
-        // Busy while acting (a hidden ion is busy being hidden or unhidden).
-        for_each_ion(op, &hidden, |i| busy[i] += dt);
-        match *op {
-            NativeOp::Hide { ion } => hidden[ion as usize] = true,
-            NativeOp::Unhide { ion } => hidden[ion as usize] = false,
-            _ => {}
+        if let Some(ions) = ions.as_mut() {
+            if let Some(d) = ions.book(op, dt, b.entangling_depth) {
+                b.entangling_depth = b.entangling_depth.max(d);
+            }
         }
         clock.place(op, dt);
     }
@@ -148,9 +235,11 @@ pub fn budget(seq: &Sequence, profile: &Profile, active: u32) -> Budget {
         fidelity *= (-t / c.t2_us).exp() * (-t / (2.0 * c.t1_us)).exp();
     }
     b.est_error = 1.0 - fidelity;
-    b.idle_us = (0..active as usize)
-        .map(|i| (t - busy[i]).max(0.0))
-        .collect();
+    if let Some(ions) = ions {
+        b.idle_us = (0..active as usize)
+            .map(|i| (t - ions.busy(i)).max(0.0))
+            .collect();
+    }
     b
 }
 
@@ -176,17 +265,47 @@ struct Clock {
     parallel_light_shifts: bool,
     /// The end of everything placed so far.
     now: f64,
-    /// The open layer: measurements or light shifts, its ions, its start.
-    layer: Option<(bool, Vec<u32>, f64)>,
+    /// The open layer: measurements or light shifts, and its start.
+    layer: Option<(bool, f64)>,
+    /// The ions in the open layer, one bit each.
+    in_layer: Vec<u64>,
+    /// The words of `in_layer` set (cleared when a layer opens).
+    set_words: Vec<usize>,
 }
 
 impl Clock {
-    fn new(profile: &Profile) -> Clock {
+    fn new(profile: &Profile, n_ions: usize) -> Clock {
         Clock {
             parallel_light_shifts: profile.capabilities.parallel_light_shifts,
             now: 0.0,
             layer: None,
+            in_layer: vec![0; n_ions.div_ceil(64).max(1)],
+            set_words: Vec::new(),
         }
+    }
+
+    /// Marks `ion` in the open layer; false if it was there already.
+    fn mark(&mut self, ion: u32) -> bool {
+        let (w, bit) = (ion as usize / 64, 1u64 << (ion % 64));
+        if w >= self.in_layer.len() {
+            self.in_layer.resize(w + 1, 0);
+        }
+        if self.in_layer[w] & bit != 0 {
+            return false;
+        }
+        if self.in_layer[w] == 0 {
+            self.set_words.push(w);
+        }
+        self.in_layer[w] |= bit;
+        true
+    }
+
+    fn open(&mut self, kind: bool, ion: u32) {
+        for w in self.set_words.drain(..) {
+            self.in_layer[w] = 0;
+        }
+        self.layer = Some((kind, self.now));
+        self.mark(ion);
     }
 
     /// Places `op`, taking `dt` microseconds; returns its slot.
@@ -196,18 +315,15 @@ impl Clock {
             NativeOp::Measure { ion, .. } => Some((true, ion)),
             _ => None,
         };
-        match (layered, &mut self.layer) {
-            (Some((kind, ion)), Some((open, ions, start)))
-                if *open == kind && !ions.contains(&ion) =>
-            {
-                ions.push(ion);
-                self.now = self.now.max(*start + dt);
+        match (layered, self.layer) {
+            (Some((kind, ion)), Some((open, start))) if open == kind && self.mark(ion) => {
+                self.now = self.now.max(start + dt);
                 return Slot {
-                    start_us: *start,
+                    start_us: start,
                     duration_us: dt,
                 };
             }
-            (Some((kind, ion)), _) => self.layer = Some((kind, vec![ion], self.now)),
+            (Some((kind, ion)), _) => self.open(kind, ion),
             (None, _) => self.layer = None,
         }
         let slot = Slot {
@@ -222,9 +338,107 @@ impl Clock {
 /// The start and duration of every step of `seq` on `profile`, by the timing model
 /// of [`budget`] (its `duration_us` is the largest end).
 pub fn timeline(seq: &Sequence, profile: &Profile) -> Vec<Slot> {
-    let mut clock = Clock::new(profile);
+    let mut clock = Clock::new(profile, seq.n_ions as usize);
     seq.steps
         .iter()
         .map(|step| clock.place(&step.op, cost_of(&profile.durations_us, &step.op)))
         .collect()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::native::Step;
+    use rand::{Rng, SeedableRng};
+
+    /// Depth and busy time by their definitions, ion by ion (the bookkeeping of
+    /// [`PerIon`] books whole-chain pulses once instead).
+    fn by_definition(ops: &[NativeOp], n: usize, profile: &Profile) -> (usize, Vec<f64>) {
+        let mut hidden = vec![false; n];
+        let mut depth = vec![0usize; n];
+        let mut busy = vec![0.0f64; n];
+        let mut deepest = 0;
+        for op in ops {
+            let ions: Vec<usize> = match *op {
+                NativeOp::Collective { .. } | NativeOp::Ms { .. } => {
+                    (0..n).filter(|&i| !hidden[i]).collect()
+                }
+                NativeOp::PairMs { a, b, .. } => vec![a as usize, b as usize],
+                NativeOp::VirtualZ { .. } => vec![],
+                NativeOp::LightShift { ion, .. }
+                | NativeOp::Addressed { ion, .. }
+                | NativeOp::Hide { ion }
+                | NativeOp::Unhide { ion }
+                | NativeOp::Measure { ion, .. }
+                | NativeOp::Reset { ion } => vec![ion as usize],
+            };
+            if op.is_entangling() {
+                let d = ions.iter().map(|&i| depth[i]).max().unwrap_or(0) + 1;
+                ions.iter().for_each(|&i| depth[i] = d);
+                deepest = deepest.max(d);
+            }
+            let dt = cost_of(&profile.durations_us, op);
+            ions.iter().for_each(|&i| busy[i] += dt);
+            match *op {
+                NativeOp::Hide { ion } => hidden[ion as usize] = true,
+                NativeOp::Unhide { ion } => hidden[ion as usize] = false,
+                _ => {}
+            }
+        }
+        (deepest, busy)
+    }
+
+    #[test]
+    fn whole_chain_pulses_booked_once_give_the_per_ion_figures() {
+        let profile = Profile::demo();
+        let n = 6;
+        let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(5);
+        for _ in 0..200 {
+            let ops: Vec<NativeOp> = (0..rng.gen_range(1..60))
+                .map(|_| {
+                    let ion = rng.gen_range(0..n as u32);
+                    let theta = rng.gen_range(-2.0..2.0);
+                    match rng.gen_range(0..8) {
+                        0 => NativeOp::Ms { theta, phi: 0.0 },
+                        1 => NativeOp::Collective { theta, phi: 0.0 },
+                        2 => NativeOp::PairMs {
+                            a: ion,
+                            b: (ion + 1) % n as u32,
+                            theta,
+                            phi: 0.0,
+                        },
+                        3 => NativeOp::Hide { ion },
+                        4 => NativeOp::Unhide { ion },
+                        5 => NativeOp::Measure { ion, clbit: 0 },
+                        6 => NativeOp::VirtualZ { theta },
+                        _ => NativeOp::LightShift { ion, theta },
+                    }
+                })
+                .collect();
+            let seq = Sequence {
+                n_ions: n as u32,
+                steps: ops
+                    .iter()
+                    .map(|&op| Step {
+                        op,
+                        condition: None,
+                    })
+                    .collect(),
+                ..Sequence::default()
+            };
+            let b = budget(&seq, &profile, n as u32);
+            let (deepest, busy) = by_definition(&ops, n, &profile);
+            assert_eq!(b.entangling_depth, deepest, "{ops:?}");
+            for (i, idle) in b.idle_us.iter().enumerate() {
+                let want = (b.duration_us - busy[i]).max(0.0);
+                assert!((idle - want).abs() < 1e-9, "ion {i}: {idle} against {want}");
+            }
+            // The optimizer's figures are the budget's, without the per-ion ones.
+            let f = figures(&ops, n as u32, &profile);
+            assert_eq!(
+                (f.ms_pulses, f.ms_area, f.duration_us, f.est_error),
+                (b.ms_pulses, b.ms_area, b.duration_us, b.est_error)
+            );
+        }
+    }
 }

@@ -60,12 +60,8 @@ pub fn apply_kernel(s: &mut StateVector, k: &Kernel) {
         }
         Kernel::Ising { axis, terms } => {
             let qs = k.qubits();
-            if let Some(phi) = axis {
-                let (_, wd) = z_to_sigma(*phi);
-                s.apply_same_to_all(&qs, &wd);
-            }
             let terms = terms.clone();
-            s.apply_diagonal(move |i| {
+            apply_ising(s, *axis, &qs, move |i| {
                 let mut angle = 0.0;
                 for &(a, b, w) in &terms {
                     let parity = ((i >> a) ^ (i >> b)) & 1;
@@ -73,10 +69,6 @@ pub fn apply_kernel(s: &mut StateVector, k: &Kernel) {
                 }
                 C64::from_polar(1.0, angle)
             });
-            if let Some(phi) = axis {
-                let (w, _) = z_to_sigma(*phi);
-                s.apply_same_to_all(&qs, &w);
-            }
         }
         Kernel::Ms { theta, phi, qubits } => {
             let (w, wd) = z_to_sigma(*phi);
@@ -109,6 +101,25 @@ pub fn apply_kernel(s: &mut StateVector, k: &Kernel) {
     }
 }
 
+/// `exp(-i sum w P_a P_b)` with `P = sigma_axis` (Z without an axis), its diagonal
+/// phases given per basis state.
+fn apply_ising(
+    s: &mut StateVector,
+    axis: Option<f64>,
+    qubits: &[usize],
+    phase: impl Fn(usize) -> C64 + Sync,
+) {
+    if let Some(phi) = axis {
+        let (_, wd) = z_to_sigma(phi);
+        s.apply_same_to_all(qubits, &wd);
+    }
+    s.apply_diagonal(phase);
+    if let Some(phi) = axis {
+        let (w, _) = z_to_sigma(phi);
+        s.apply_same_to_all(qubits, &w);
+    }
+}
+
 /// Applies a list of kernels.
 pub fn run_kernels<'a>(kernels: impl IntoIterator<Item = &'a Kernel>, s: &mut StateVector) {
     for k in kernels {
@@ -116,17 +127,153 @@ pub fn run_kernels<'a>(kernels: impl IntoIterator<Item = &'a Kernel>, s: &mut St
     }
 }
 
+/// Most qubits one Ising kernel's phase table may span (2^16 phases, 1 MiB).
+const TABLE_QUBITS: usize = 16;
+
+/// A kernel list made ready to run many times (on the columns of a unitary): the
+/// phases of each Ising kernel tabulated once over its own qubits, instead of a sine
+/// and cosine per amplitude on every run.
+pub struct Tabled<'a> {
+    kernels: Vec<TabledKernel<'a>>,
+}
+
+enum TabledKernel<'a> {
+    As(&'a Kernel),
+    Ising {
+        axis: Option<f64>,
+        /// Sorted; bit `t` of a table index is the bit of `qubits[t]`.
+        qubits: Vec<usize>,
+        phases: Vec<C64>,
+    },
+}
+
+impl<'a> Tabled<'a> {
+    pub fn new(kernels: &'a [Kernel]) -> Tabled<'a> {
+        let kernels = kernels
+            .iter()
+            .map(|k| match k {
+                Kernel::Ising { axis, terms } if k.qubits().len() <= TABLE_QUBITS => {
+                    let qubits = k.qubits();
+                    let at = |q: usize| qubits.binary_search(&q).expect("a term's qubit");
+                    let local: Vec<(usize, usize, f64)> =
+                        terms.iter().map(|&(a, b, w)| (at(a), at(b), w)).collect();
+                    let phases = (0..1usize << qubits.len())
+                        .map(|i| {
+                            let mut angle = 0.0;
+                            for &(a, b, w) in &local {
+                                let parity = ((i >> a) ^ (i >> b)) & 1;
+                                angle -= if parity == 0 { w } else { -w };
+                            }
+                            C64::from_polar(1.0, angle)
+                        })
+                        .collect();
+                    TabledKernel::Ising {
+                        axis: *axis,
+                        qubits,
+                        phases,
+                    }
+                }
+                other => TabledKernel::As(other),
+            })
+            .collect();
+        Tabled { kernels }
+    }
+
+    /// Applies the kernels to `s`, as [`run_kernels`] does.
+    pub fn run(&self, s: &mut StateVector) {
+        for k in &self.kernels {
+            match k {
+                TabledKernel::As(k) => apply_kernel(s, k),
+                TabledKernel::Ising {
+                    axis,
+                    qubits,
+                    phases,
+                } => {
+                    if let Some(&q) = qubits.last().filter(|&&q| q >= s.n) {
+                        panic!(
+                            "an Ising kernel names qubit {q}, but the state has {} qubits",
+                            s.n
+                        );
+                    }
+                    // Qubits 0..k in order: the table index is the low bits.
+                    let low = qubits.iter().enumerate().all(|(t, &q)| t == q);
+                    let mask = (1usize << qubits.len()) - 1;
+                    if low {
+                        apply_ising(s, *axis, qubits, |i| phases[i & mask]);
+                    } else {
+                        apply_ising(s, *axis, qubits, |i| {
+                            let mut index = 0;
+                            for (t, &q) in qubits.iter().enumerate() {
+                                index |= ((i >> q) & 1) << t;
+                            }
+                            phases[index]
+                        });
+                    }
+                }
+            }
+        }
+    }
+}
+
 /// The full unitary of a list of kernels on `n` qubits, column by column (columns in
 /// parallel). Cost `2^n` simulations; meant for `n` up to about 12.
 pub fn unitary_of(kernels: &[Kernel], n: usize) -> DMatrix<C64> {
     let dim = 1usize << n;
+    let tabled = Tabled::new(kernels);
     let columns: Vec<Vec<C64>> = (0..dim)
         .into_par_iter()
         .map(|j| {
             let mut s = StateVector::basis(n, j);
-            run_kernels(kernels, &mut s);
+            tabled.run(&mut s);
             s.amps
         })
         .collect();
     DMatrix::from_fn(dim, dim, |i, j| columns[j][i])
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::sim::program::rotation;
+    use rand::{Rng, SeedableRng};
+
+    /// Tabulated Ising phases against the per-amplitude ones of [`run_kernels`], on
+    /// random states and kernel lists: terms on qubits in any order, with and
+    /// without an axis, mixed with single-qubit rotations.
+    #[test]
+    fn tabled_kernels_run_as_the_kernels_do() {
+        let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(11);
+        let n = 6;
+        for _ in 0..50 {
+            let mut ks = Vec::new();
+            for _ in 0..8 {
+                if rng.gen_bool(0.5) {
+                    let terms = (0..rng.gen_range(1..5))
+                        .map(|_| {
+                            let a = rng.gen_range(0..n);
+                            let b = (a + rng.gen_range(1..n)) % n;
+                            (a, b, rng.gen_range(-2.0..2.0))
+                        })
+                        .collect();
+                    let axis = rng.gen_bool(0.5).then(|| rng.gen_range(-3.0..3.0));
+                    ks.push(Kernel::Ising { axis, terms });
+                } else {
+                    ks.push(Kernel::One {
+                        q: rng.gen_range(0..n),
+                        m: rotation(rng.gen_range(-3.0..3.0), rng.gen_range(-3.0..3.0)),
+                    });
+                }
+            }
+            let start = StateVector::basis(n, rng.gen_range(0..1 << n));
+            let (mut a, mut b) = (start.clone(), start);
+            run_kernels(&ks, &mut a);
+            Tabled::new(&ks).run(&mut b);
+            let d = a
+                .amps
+                .iter()
+                .zip(&b.amps)
+                .fold(0.0f64, |m, (x, y)| m.max((x - y).norm()));
+            assert!(d < 1e-12, "{d}");
+        }
+    }
 }

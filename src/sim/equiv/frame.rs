@@ -21,61 +21,96 @@ use super::prepass::{adjoint2, mul2};
 use crate::circuit::Mat2;
 use crate::sim::program::Kernel;
 use crate::sim::tableau::{as_pauli, CLIFFORD_EPS};
-use rustc_hash::FxHashMap;
+use num_complex::Complex64 as C64;
 
-/// The couplings gathered so far, to be applied after everything emitted.
+/// The couplings gathered so far, to be applied after everything emitted. Dense:
+/// the weight of the pair `a < b` is `sign[a] sign[b] w[a][b]`, so a Pauli moved
+/// through (a sign change of every coupling on one qubit) flips one sign, and an
+/// MS pulse on every ion adds to a contiguous triangle without hashing.
 struct Gathered {
-    weights: FxHashMap<(usize, usize), f64>,
-    partners: Vec<Vec<usize>>,
+    n: usize,
+    /// Row-major `n x n`; only `a < b` is used.
+    w: Vec<f64>,
+    sign: Vec<f64>,
+    /// Whether a row may hold a nonzero weight (as row or column).
+    touched: Vec<bool>,
 }
 
 impl Gathered {
-    fn add(&mut self, a: usize, b: usize, w: f64) {
-        use std::collections::hash_map::Entry;
-        let key = (a.min(b), a.max(b));
-        match self.weights.entry(key) {
-            Entry::Occupied(mut e) => *e.get_mut() += w,
-            Entry::Vacant(e) => {
-                e.insert(w);
-                self.partners[a].push(b);
-                self.partners[b].push(a);
+    /// Most qubits gathered densely (an `n x n` table of 8-byte weights: 32 MiB).
+    const MAX_QUBITS: usize = 2048;
+
+    fn new(n: usize) -> Gathered {
+        Gathered {
+            n,
+            w: vec![0.0; n * n],
+            sign: vec![1.0; n],
+            touched: vec![false; n],
+        }
+    }
+
+    /// Adds weight `t` to every pair of `qubits` (distinct).
+    fn add_all_pairs(&mut self, qubits: &[usize], t: f64) {
+        for (i, &x) in qubits.iter().enumerate() {
+            self.touched[x] = true;
+            let sx = t * self.sign[x];
+            for &y in &qubits[i + 1..] {
+                let (a, b) = (x.min(y), x.max(y));
+                self.w[a * self.n + b] += sx * self.sign[y];
             }
         }
     }
 
     /// Emits (and forgets) every coupling on `q`.
     fn flush(&mut self, q: usize, out: &mut Vec<Kernel>) {
+        if !std::mem::take(&mut self.touched[q]) {
+            return;
+        }
+        let n = self.n;
         let mut terms = Vec::new();
-        for p in std::mem::take(&mut self.partners[q]) {
-            self.partners[p].retain(|&x| x != q);
-            let key = (q.min(p), q.max(p));
-            if let Some(w) = self.weights.remove(&key) {
-                terms.push((key.0, key.1, w));
+        for y in (0..n).filter(|&y| y != q) {
+            let (a, b) = (q.min(y), q.max(y));
+            let w = std::mem::take(&mut self.w[a * n + b]);
+            if w != 0.0 {
+                terms.push((a, b, self.sign[a] * self.sign[b] * w));
             }
         }
         if !terms.is_empty() {
-            terms.sort_by_key(|t| (t.0, t.1));
             out.push(Kernel::Ising { axis: None, terms });
         }
     }
 
     fn negate(&mut self, q: usize) {
-        for &p in &self.partners[q] {
-            if let Some(w) = self.weights.get_mut(&(q.min(p), q.max(p))) {
-                *w = -*w;
-            }
-        }
+        self.sign[q] = -self.sign[q];
     }
 
     fn flush_all(&mut self, out: &mut Vec<Kernel>) {
-        let mut terms: Vec<(usize, usize, f64)> =
-            self.weights.drain().map(|((a, b), w)| (a, b, w)).collect();
+        let n = self.n;
+        let mut terms = Vec::new();
+        for a in (0..n).filter(|&a| self.touched[a]) {
+            for b in a + 1..n {
+                let w = std::mem::take(&mut self.w[a * n + b]);
+                if w != 0.0 {
+                    terms.push((a, b, self.sign[a] * self.sign[b] * w));
+                }
+            }
+        }
+        self.touched.iter_mut().for_each(|t| *t = false);
         if !terms.is_empty() {
-            terms.sort_by_key(|t| (t.0, t.1));
             out.push(Kernel::Ising { axis: None, terms });
         }
-        self.partners.iter_mut().for_each(Vec::clear);
     }
+}
+
+/// `|z|` without `hypot`'s care for overflow (entries here are at most about 1).
+fn modulus(z: C64) -> f64 {
+    z.norm_sqr().sqrt()
+}
+
+/// `C^dagger Z C`.
+fn z_in_frame(c: &Mat2) -> Mat2 {
+    let z: Mat2 = [[C64::ONE, C64::ZERO], [C64::ZERO, -C64::ONE]];
+    mul2(&adjoint2(c), &mul2(&z, c))
 }
 
 /// The rewritten kernels and their slack, or `None` when the list has no
@@ -92,20 +127,32 @@ pub(super) fn interaction_picture(ks: &[Kernel], n: usize) -> Option<(Vec<Kernel
         return None;
     }
     let mut c: Mat2 = super::prepass::identity2();
+    // C^dagger Z C, for diagonal kernels: C^dagger (a I + b Z) C = a I + b C^dagger Z C
+    // (one product per collective rotation instead of two per light shift).
+    let mut cz = z_in_frame(&c);
     let mut out = Vec::with_capacity(ks.len());
-    let mut g = Gathered {
-        weights: FxHashMap::default(),
-        partners: vec![Vec::new(); n],
-    };
+    if n > Gathered::MAX_QUBITS {
+        return None;
+    }
+    let mut g = Gathered::new(n);
     let mut slack = 0.0;
     for k in ks {
         match k {
             Kernel::Collective { m, qubits } if qubits.len() == n => {
                 c = mul2(m, &c);
+                cz = z_in_frame(&c);
             }
             Kernel::One { q, m } => {
-                let m = mul2(&adjoint2(&c), &mul2(m, &c));
-                let off = m[0][1].norm() + m[1][0].norm();
+                let m = if m[0][1] == C64::ZERO && m[1][0] == C64::ZERO {
+                    let (a, b) = ((m[0][0] + m[1][1]) * 0.5, (m[0][0] - m[1][1]) * 0.5);
+                    [
+                        [a + b * cz[0][0], b * cz[0][1]],
+                        [b * cz[1][0], a + b * cz[1][1]],
+                    ]
+                } else {
+                    mul2(&adjoint2(&c), &mul2(m, &c))
+                };
+                let off = modulus(m[0][1]) + modulus(m[1][0]);
                 if off <= CLIFFORD_EPS {
                     // Diagonal: commutes with every ZZ coupling (moving D + E
                     // instead of D costs at most 2 ||E||).
@@ -121,19 +168,10 @@ pub(super) fn interaction_picture(ks: &[Kernel], n: usize) -> Option<(Vec<Kernel
             Kernel::Ms { theta, phi, qubits } => {
                 // sigma_phi in the interaction picture.
                 let (s, co) = phi.sin_cos();
-                let sigma: Mat2 = [
-                    [
-                        num_complex::Complex64::new(0.0, 0.0),
-                        num_complex::Complex64::new(co, -s),
-                    ],
-                    [
-                        num_complex::Complex64::new(co, s),
-                        num_complex::Complex64::new(0.0, 0.0),
-                    ],
-                ];
+                let sigma: Mat2 = [[C64::ZERO, C64::new(co, -s)], [C64::new(co, s), C64::ZERO]];
                 let a = mul2(&adjoint2(&c), &mul2(&sigma, &c));
                 // a = n . sigma: n_z = a00, n_x = Re a10, n_y = Im a10.
-                let off = a[1][0].norm();
+                let off = modulus(a[1][0]);
                 if off > CLIFFORD_EPS {
                     return None;
                 }
@@ -141,11 +179,7 @@ pub(super) fn interaction_picture(ks: &[Kernel], n: usize) -> Option<(Vec<Kernel
                 // ||S_n - S_z|| <= m off, so the exponents differ by at most
                 // |theta| / 4 * 2 m * m off.
                 slack += theta.abs() / 2.0 * m * m * off;
-                for (i, &x) in qubits.iter().enumerate() {
-                    for &y in &qubits[i + 1..] {
-                        g.add(x, y, theta / 2.0);
-                    }
-                }
+                g.add_all_pairs(qubits, theta / 2.0);
             }
             _ => return None,
         }
@@ -170,16 +204,22 @@ mod tests {
     #[test]
     fn the_interaction_picture_keeps_the_unitary() {
         let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(3);
-        let n = 4;
+        let n = 5;
         let all: Vec<usize> = (0..n).collect();
-        for _ in 0..40 {
+        let mut gathered = 0;
+        for _ in 0..60 {
             let mut ks = vec![Kernel::Collective {
                 m: rotation(std::f64::consts::FRAC_PI_2, std::f64::consts::FRAC_PI_2),
                 qubits: all.clone(),
             }];
             for _ in 0..30 {
                 let q = rng.gen_range(0..n);
-                ks.push(match rng.gen_range(0..5) {
+                ks.push(match rng.gen_range(0..6) {
+                    5 => Kernel::Ms {
+                        theta: rng.gen_range(-1.0..1.0),
+                        phi: 0.0,
+                        qubits: vec![q, (q + rng.gen_range(1..n)) % n],
+                    },
                     0 => Kernel::Ms {
                         theta: rng.gen_range(-1.0..1.0),
                         phi: 0.0,
@@ -204,6 +244,9 @@ mod tests {
                 });
             }
             let (out, slack) = interaction_picture(&ks, n).expect("applies");
+            // Couplings gathered across pulses: fewer coupling kernels than pulses.
+            let count = |ks: &[Kernel]| ks.iter().filter(|k| k.qubits().len() > 1).count();
+            gathered += usize::from(count(&out) < count(&ks));
             let (a, b) = (unitary_of(&ks, n), unitary_of(&out, n));
             // Align the global phase on the largest entry.
             let (i, _) = a
@@ -215,5 +258,6 @@ mod tests {
             let d = (a * ph - b).iter().fold(0.0f64, |m, z| m.max(z.norm()));
             assert!(d < 1e-10 + slack, "distance {d}");
         }
+        assert!(gathered > 30, "{gathered}");
     }
 }

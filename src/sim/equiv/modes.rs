@@ -508,9 +508,10 @@ fn try_unitary(
 ) -> Result<Vec<C64>, std::collections::TryReserveError> {
     let dim = 1usize << n;
     let mut out = try_zeroed_amps(dim * dim)?;
+    let tabled = crate::sim::apply::Tabled::new(kernels);
     out.par_chunks_mut(dim).enumerate().for_each(|(j, col)| {
         let mut s = StateVector::basis(n, j);
-        run_kernels(kernels, &mut s);
+        tabled.run(&mut s);
         col.copy_from_slice(&s.amps);
     });
     Ok(out)

@@ -76,21 +76,81 @@ pub(super) fn prepare(
     measured: Option<&[usize]>,
     tolerance: f64,
 ) -> Result<Prepared, IdleMismatch> {
-    let plain = prepare_as_given(p, q, n, measured, tolerance, 0.0, false);
     // The interaction picture (module `frame`) of either side, when it applies:
-    // taken only when it leaves fewer qubits to compare.
+    // taken only when it leaves fewer qubits to compare than the programs as given.
     let ip = super::frame::interaction_picture(p, n);
     let iq = super::frame::interaction_picture(q, n);
     if ip.is_none() && iq.is_none() {
-        return plain;
+        return prepare_as_given(p, q, n, measured, tolerance, 0.0, false);
     }
+    // A tie goes to the programs as given: a Clifford pair stays readable as
+    // tableaux, and a difference can be traced to the qubits it acts on. But a side
+    // without a picture is the same in both preparations, and its firmly coupled
+    // qubits are kept by both: when that side is not Clifford (no tableau either
+    // way) and the picture keeps no more than those qubits, the programs as given
+    // cannot keep fewer, and are not prepared at all (a collective sequence as
+    // given couples every ion it pulses: preparing it costs as much again).
+    let floor = match (&ip, &iq) {
+        (None, Some(_)) if !all_clifford(p) => firmly_coupled(p, n),
+        (Some(_), None) if !all_clifford(q) => firmly_coupled(q, n),
+        _ => 0,
+    };
     let (pk, ps) = ip.unwrap_or_else(|| (p.to_vec(), 0.0));
     let (qk, qs) = iq.unwrap_or_else(|| (q.to_vec(), 0.0));
-    let framed = prepare_as_given(&pk, &qk, n, measured, tolerance, ps + qs, true);
-    match (plain, framed) {
-        (Err(e), _) | (_, Err(e)) => Err(e),
-        (Ok(a), Ok(b)) => Ok(if b.n < a.n { b } else { a }),
+    let framed = prepare_as_given(&pk, &qk, n, measured, tolerance, ps + qs, true)?;
+    if framed.n <= floor {
+        return Ok(framed);
     }
+    let plain = prepare_as_given(p, q, n, measured, tolerance, 0.0, false)?;
+    Ok(if framed.n < plain.n { framed } else { plain })
+}
+
+/// How many qubits `ks` couples in a way no pre-pass removes: after fusing MS runs
+/// and dropping cancelled couplings, a qubit some non-Ising kernel touches, or whose
+/// Ising weight is above what [`drop_stray_couplings`] may drop. Each is kept by
+/// [`prepare_as_given`] whatever the other program is.
+fn firmly_coupled(ks: &[Kernel], n: usize) -> usize {
+    let (fused, _) = fuse_xx_runs(ks);
+    let (fused, _) = drop_zero_couplings(fused);
+    let (_, other, weight) = survey(&fused, n);
+    (0..n)
+        .filter(|&x| other[x] || weight[x] > STRAY_COUPLING)
+        .count()
+}
+
+/// Whether every kernel of `ks` is Clifford (within the tableau's tolerance).
+fn all_clifford(ks: &[Kernel]) -> bool {
+    let (mut gates, mut dev) = (Vec::new(), 0.0);
+    ks.iter().all(|k| {
+        gates.clear();
+        crate::sim::tableau::kernel_to_clifford(k, &mut gates, &mut dev).is_some()
+    })
+}
+
+/// Per qubit: coupled at all, coupled by a non-Ising kernel, total Ising weight.
+fn survey(ks: &[Kernel], n: usize) -> (Vec<bool>, Vec<bool>, Vec<f64>) {
+    let mut coupled = vec![false; n];
+    let mut other = vec![false; n];
+    let mut weight = vec![0.0f64; n];
+    for k in ks.iter().filter(|k| is_multi(k)) {
+        match k {
+            Kernel::Ising { terms, .. } => {
+                for &(a, b, w) in terms {
+                    for x in [a, b] {
+                        coupled[x] = true;
+                        weight[x] += w.abs();
+                    }
+                }
+            }
+            _ => {
+                for x in k.qubits() {
+                    coupled[x] = true;
+                    other[x] = true;
+                }
+            }
+        }
+    }
+    (coupled, other, weight)
 }
 
 fn prepare_as_given(
@@ -138,33 +198,8 @@ fn drop_stray_couplings(
     q: Vec<Kernel>,
     n: usize,
 ) -> (Vec<Kernel>, Vec<Kernel>, Option<Stray>) {
-    // Per qubit: coupled at all, coupled by a non-Ising kernel, Ising weight.
-    let survey = |ks: &[Kernel]| {
-        let mut coupled = vec![false; n];
-        let mut other = vec![false; n];
-        let mut weight = vec![0.0f64; n];
-        for k in ks.iter().filter(|k| is_multi(k)) {
-            match k {
-                Kernel::Ising { terms, .. } => {
-                    for &(a, b, w) in terms {
-                        for x in [a, b] {
-                            coupled[x] = true;
-                            weight[x] += w.abs();
-                        }
-                    }
-                }
-                _ => {
-                    for x in k.qubits() {
-                        coupled[x] = true;
-                        other[x] = true;
-                    }
-                }
-            }
-        }
-        (coupled, other, weight)
-    };
-    let (cp, op, wp) = survey(&p);
-    let (cq, oq, wq) = survey(&q);
+    let (cp, op, wp) = survey(&p, n);
+    let (cq, oq, wq) = survey(&q, n);
     let stray_in =
         |coupled: &[bool], other: &[bool], weight: &[f64], coupled_elsewhere: &[bool]| {
             (0..n)
@@ -437,3 +472,77 @@ fn merge_single_qubit_runs(ks: &[Kernel], n: usize) -> Vec<Kernel> {
 }
 
 pub(super) use crate::circuit::mat2::{adjoint as adjoint2, identity as identity2, mul as mul2};
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::sim::program::{rotation, z_rotation};
+    use rand::{Rng, SeedableRng};
+
+    /// Skipping the preparation of the programs as given never costs qubits: on
+    /// random pairs (a circuit side of rotations and couplings, strong, tiny or
+    /// cancelling; a collective side of sandwiches, MS pulses and light shifts),
+    /// [`prepare`] keeps exactly as few qubits as the better of both preparations.
+    #[test]
+    fn skipping_the_programs_as_given_keeps_the_fewest_qubits() {
+        let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(21);
+        let n = 6;
+        let all: Vec<usize> = (0..n).collect();
+        let mut skipped = 0;
+        for _ in 0..300 {
+            let mut p = Vec::new();
+            for _ in 0..rng.gen_range(1..8) {
+                let a = rng.gen_range(0..n);
+                let b = (a + rng.gen_range(1..n)) % n;
+                p.push(match rng.gen_range(0..4) {
+                    0 => Kernel::Ising {
+                        axis: None,
+                        terms: vec![(a.min(b), a.max(b), rng.gen_range(-1.0..1.0))],
+                    },
+                    1 => Kernel::Ising {
+                        axis: None,
+                        terms: vec![(a.min(b), a.max(b), 1e-8)],
+                    },
+                    _ => Kernel::One {
+                        q: a,
+                        m: rotation(rng.gen_range(0.1..3.0), rng.gen_range(-3.0..3.0)),
+                    },
+                });
+            }
+            let sandwich = |theta: f64| Kernel::Collective {
+                m: rotation(theta, std::f64::consts::FRAC_PI_2),
+                qubits: all.clone(),
+            };
+            let mut q = vec![sandwich(std::f64::consts::FRAC_PI_2)];
+            // Half the time each pulse is undone at once (an echo that cancels).
+            let undone = rng.gen_bool(0.5);
+            for _ in 0..rng.gen_range(1..6) {
+                let theta = rng.gen_range(-1.0..1.0);
+                for t in [theta, -theta].into_iter().take(1 + usize::from(undone)) {
+                    q.push(Kernel::Ms {
+                        theta: t,
+                        phi: 0.0,
+                        qubits: all.clone(),
+                    });
+                }
+                q.push(Kernel::One {
+                    q: rng.gen_range(0..n),
+                    m: z_rotation(std::f64::consts::PI),
+                });
+            }
+            q.push(sandwich(-std::f64::consts::FRAC_PI_2));
+            let got = prepare(&p, &q, n, None, 1e9);
+            let plain = prepare_as_given(&p, &q, n, None, 1e9, 0.0, false);
+            let (qk, qs) = super::super::frame::interaction_picture(&q, n).expect("applies");
+            let framed = prepare_as_given(&p, &qk, n, None, 1e9, qs, true);
+            let (got, plain, framed) = match (got, plain, framed) {
+                (Ok(g), Ok(a), Ok(b)) => (g, a, b),
+                _ => panic!("a tolerance of 1e9 accepts every idle qubit"),
+            };
+            assert_eq!(got.n, plain.n.min(framed.n));
+            skipped += usize::from(got.framed && framed.n == plain.n);
+        }
+        // Ties taken in the picture: the preparation as given was skipped.
+        assert!(skipped > 20, "{skipped}");
+    }
+}

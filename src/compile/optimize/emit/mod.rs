@@ -28,9 +28,9 @@ use crate::compile::couple::{
 use crate::compile::hadamard::{smallest_hadamard, smallest_order};
 use crate::compile::lower::zyz;
 use crate::compile::Target;
-use crate::native::budget::budget;
+use crate::native::budget::figures;
 use crate::native::profile::Profile;
-use crate::native::{NativeOp, Sequence, Step};
+use crate::native::{NativeOp, Step};
 use rustc_hash::FxHashMap;
 use std::f64::consts::{FRAC_PI_2, PI};
 use std::sync::atomic::{AtomicU64, Ordering};
@@ -247,15 +247,7 @@ impl<'a> Emitter<'a> {
 
     /// The objective's figures of a list of operations (smaller is better).
     fn key(&self, ops: &[NativeOp]) -> (f64, f64) {
-        let mut seq = Sequence::new(self.n(), Vec::new());
-        seq.steps = ops
-            .iter()
-            .map(|&op| Step {
-                op,
-                condition: None,
-            })
-            .collect();
-        let b = budget(&seq, self.profile, self.n());
+        let b = figures(ops, self.n(), self.profile);
         match self.objective {
             Objective::Pulses => (b.ms_pulses as f64, b.ms_area),
             Objective::Area => (b.ms_area, b.ms_pulses as f64),

@@ -11,7 +11,7 @@ use crate::native::qasm_out::{read_qasm_sequence, write_qasm_to};
 use crate::native::text::{read_json, read_pulses, write_json_to, write_pulses_to};
 use crate::native::Sequence;
 use crate::qasm::{self, Limits};
-use crate::report::budget::{budget, with_crosstalk, Budget};
+use crate::report::budget::{budget, stray_error_of, with_crosstalk, Budget};
 use crate::sim::program::{circuit_check_bytes, sequence_check_bytes};
 use crate::sim::SyncPoint;
 use crate::sim::{
@@ -372,14 +372,23 @@ pub fn compile_counted(
         None
     };
     on_stage(Stage::Budget);
-    let mut budget = budget(&out.sequence, profile, c.n_qubits());
+    // The budget and the crosstalk model each read the whole sequence: side by side.
+    let (mut budget, stray) = rayon::join(
+        || budget(&out.sequence, profile, c.n_qubits()),
+        || {
+            out.compensation
+                .is_none()
+                .then(|| stray_error_of(&out.sequence, profile))
+                .flatten()
+        },
+    );
     let crosstalk = match out.compensation {
         Some(comp) => {
             budget.crosstalk_error = Some(comp.compensated);
             Some(comp)
         }
         None => {
-            budget = with_crosstalk(budget, &out.sequence, profile);
+            budget.crosstalk_error = stray;
             None
         }
     };

@@ -246,9 +246,15 @@ fn tally<'a>(
 /// `b` with its crosstalk error: that of `seq` as written, when the profile has
 /// crosstalk.
 pub fn with_crosstalk(mut b: Budget, seq: &Sequence, profile: &Profile) -> Budget {
-    b.crosstalk_error = crate::native::crosstalk::present(profile)
-        .then(|| crate::native::crosstalk::stray_error(seq, profile));
+    b.crosstalk_error = stray_error_of(seq, profile);
     b
+}
+
+/// The crosstalk error of `seq` as written, when the profile has crosstalk (the
+/// figure [`with_crosstalk`] sets).
+pub fn stray_error_of(seq: &Sequence, profile: &Profile) -> Option<f64> {
+    crate::native::crosstalk::present(profile)
+        .then(|| crate::native::crosstalk::stray_error(seq, profile))
 }
 
 /// When one step runs, by the timing model of [`budget`], in microseconds.

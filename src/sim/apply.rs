@@ -36,7 +36,7 @@ pub fn apply_kernel(s: &mut StateVector, k: &Kernel) {
     }
     match k {
         Kernel::One { q, m } => {
-            if m[0][1].norm() == 0.0 && m[1][0].norm() == 0.0 {
+            if m[0][1] == C64::ZERO && m[1][0] == C64::ZERO {
                 let bit = 1usize << q;
                 let (d0, d1) = (m[0][0], m[1][1]);
                 s.apply_diagonal(move |i| if i & bit == 0 { d0 } else { d1 });
@@ -86,7 +86,7 @@ pub fn apply_kernel(s: &mut StateVector, k: &Kernel) {
             s.apply_same_to_all(qubits, &w);
         }
         Kernel::Collective { m, qubits } => {
-            if m[0][1].norm() == 0.0 && m[1][0].norm() == 0.0 {
+            if m[0][1] == C64::ZERO && m[1][0] == C64::ZERO {
                 let mask = mask_of(qubits);
                 let (d0, d1) = (m[0][0], m[1][1]);
                 let ones: Vec<C64> = (0..=qubits.len())

@@ -309,10 +309,11 @@ pub(super) fn compare(
                 ca.iter()
                     .zip(cb)
                     .enumerate()
-                    .map(|(i, (x, y))| (y - phases.of(i) * x).norm())
+                    .map(|(i, (x, y))| (y - phases.of(i) * x).norm_sqr())
                     .fold(0.0, f64::max)
             })
             .reduce(|| 0.0, f64::max)
+            .sqrt()
             + slack;
         let tr: C64 = ua.iter().zip(&ub).map(|(x, y)| x.conj() * y).sum::<C64>() / dim as f64;
         let equal = distance <= tolerance;

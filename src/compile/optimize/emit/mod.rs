@@ -181,17 +181,12 @@ impl<'a> Emitter<'a> {
         drop_z: &[bool],
     ) -> Vec<Step> {
         let quiet = self.quiet_ions(s);
-        let (ops, reports, used_quiet) = self.plan(s, &quiet, drop_z);
-        let (ops, reports) = if used_quiet {
-            let none = vec![false; quiet.len()];
-            let (other, other_reports, _) = self.plan(s, &none, drop_z);
-            if self.key(&other) < self.key(&ops) {
+        let (ops, reports, without) = self.plan(s, &quiet, drop_z);
+        let (ops, reports) = match without {
+            Some((other, other_reports)) if self.key(&other) < self.key(&ops) => {
                 (other, other_reports)
-            } else {
-                (ops, reports)
             }
-        } else {
-            (ops, reports)
+            _ => (ops, reports),
         };
         self.reports.extend(reports);
         ops.into_iter()
@@ -202,23 +197,40 @@ impl<'a> Emitter<'a> {
             .collect()
     }
 
-    /// One way to make the segment: its operations (after the peephole), block
-    /// reports, and whether a block shares the quiet ions' column.
+    /// The segment made as planned (after the peephole) with its block reports, and,
+    /// when some block shares the quiet ions' column, the segment made without any
+    /// sharing (as with no quiet ions): one pass yields both, since the layers, the
+    /// carried Z rotations and every other candidate are the same.
     fn plan(
         &mut self,
         s: &Schedule,
         quiet: &[bool],
         drop_z: &[bool],
-    ) -> (Vec<NativeOp>, Vec<BlockReport>, bool) {
+    ) -> (Vec<NativeOp>, Vec<BlockReport>, Option<Plan>) {
         let mut parts: Vec<Part> = Vec::new();
         let mut ops = Vec::new();
         let mut reports = Vec::new();
+        let mut without: Plan = (Vec::new(), Vec::new());
         let mut used_quiet = false;
         let mut carry: FxHashMap<u32, f64> = FxHashMap::default();
         for (k, layer) in s.layers.iter().enumerate() {
+            let from = ops.len();
             self.layer(layer, &mut carry, &mut ops);
+            without.0.extend_from_slice(&ops[from..]);
             if let Some(block) = s.blocks.get(k) {
-                let (part, report) = self.block(block, &mut carry, quiet);
+                let (part, report, alternative) = self.block(block, &mut carry, quiet);
+                match alternative {
+                    Some((v, r)) => {
+                        without.0.extend(v);
+                        without.1.extend(r);
+                    }
+                    None => {
+                        if let Part::Ops(v) = &part {
+                            without.0.extend_from_slice(v);
+                        }
+                        without.1.extend(report.clone());
+                    }
+                }
                 reports.extend(report);
                 match part {
                     Part::Ops(v) => ops.extend(v),
@@ -235,13 +247,15 @@ impl<'a> Emitter<'a> {
         for (q, t) in rest {
             if !drop_z.get(q as usize).copied().unwrap_or(false) {
                 push_shift(&mut ops, q, t);
+                push_shift(&mut without.0, q, t);
             }
         }
         parts.push(Part::Ops(ops));
+        let without = used_quiet.then(|| (peephole(without.0, self.n()), without.1));
         (
             peephole(resolve_quiet(parts, quiet), self.n()),
             reports,
-            used_quiet,
+            without,
         )
     }
 
@@ -317,12 +331,14 @@ impl<'a> Emitter<'a> {
         }
     }
 
+    /// One block: its part of the segment and report, and, when that part shares the
+    /// quiet ions' column, what the block would be without it (ops and report).
     fn block(
         &mut self,
         block: &[(u32, u32, f64)],
         carry: &mut FxHashMap<u32, f64>,
         quiet: &[bool],
-    ) -> (Part, Option<BlockReport>) {
+    ) -> (Part, Option<BlockReport>, Option<Alternative>) {
         // exp(-i w ZZ): w mod pi is a global phase; w beyond pi/4 is -i Z Z (two
         // light shifts, carried) times a coupling of at most pi/4.
         let mut terms = Vec::new();
@@ -343,7 +359,7 @@ impl<'a> Emitter<'a> {
             }
         }
         if terms.is_empty() {
-            return (Part::Ops(Vec::new()), None);
+            return (Part::Ops(Vec::new()), None, None);
         }
         let mut active: Vec<u32> = terms.iter().flat_map(|&(a, b, _)| [a, b]).collect();
         active.sort_unstable();
@@ -420,10 +436,10 @@ impl<'a> Emitter<'a> {
             smallest_order(idle + 1)
         };
         let mut pre: Vec<(f64, f64)> = vec![self.pulse_bound(m_pad, theta_min, m_pad - 1)];
-        if let Some(others) = quiet_others {
+        let quiet_pre = quiet_others.map(|others| {
             let m = smallest_order(others + 2);
-            pre.push(self.pulse_bound(m, theta_min, m - 1));
-        }
+            self.pulse_bound(m, theta_min, m - 1)
+        });
         if parts.len() > 1 {
             let m = smallest_order(parts.len() + idle);
             pre.push(self.pulse_bound(m, theta_min, m - 1));
@@ -434,11 +450,15 @@ impl<'a> Emitter<'a> {
         if hiding {
             pre.push(self.hiding_bound(idle, theta_min));
         }
-        let could_win = match &found {
+        let could_win = |pre: &[(f64, f64)]| match &found {
             None => true,
             Some((k, _)) => pre.iter().any(|b| b.0 <= k.0 + 1e-12 * k.0.abs()),
         };
-        if !could_win && self.certificates.is_none() && !self.build_all {
+        let forced = self.certificates.is_some() || self.build_all;
+        // Without the quiet column (as a segment planned with no quiet ions would
+        // have it): the cheap candidate, when no other can beat it.
+        let plain_could_win = could_win(&pre) || forced;
+        let cheap_result = |e: &Self, found: Option<((f64, f64), Built)>| {
             let (_, (chosen, method, weight, _)) = found.expect("a candidate was found");
             let report = BlockReport {
                 ions: active.len(),
@@ -448,7 +468,11 @@ impl<'a> Emitter<'a> {
                 method,
                 pulses: chosen.iter().filter(|op| op.is_entangling()).count(),
             };
-            return (Part::Ops(self.sandwich(chosen)), Some(report));
+            (e.sandwich(chosen), Some(report))
+        };
+        if !plain_could_win && !could_win(quiet_pre.as_slice()) {
+            let (ops, report) = cheap_result(self, found);
+            return (Part::Ops(ops), report, None);
         }
         let best = self.synthesis(&local);
         if let Some(certs) = &mut self.certificates {
@@ -463,15 +487,15 @@ impl<'a> Emitter<'a> {
             build: Box::new(|| Some(Made::Pulses(pad_idle(&best, &active_idx, n)))),
         });
         // The same pulses, decoupled from the quiet ions by one shared column.
-        if let Some(others) = quiet_others {
+        let quiet_candidate = quiet_others.map(|others| {
             let m = smallest_order(others + 2);
-            candidates.push(Candidate {
+            Candidate {
                 lower: self.pulse_bound(best.pulses.len() * m, total, m - 1),
                 method: best.method,
                 weight: best.weight,
                 build: Box::new(|| Some(Made::Quiet(quiet_groups(&best, &active_idx, quiet)))),
-            });
-        }
+            }
+        });
         // Components side by side over the whole device, every other ion a column of
         // its own: one Hadamard matrix for both, where padding each component's
         // pulses for the idle ions would multiply the pulse count again.
@@ -541,21 +565,42 @@ impl<'a> Emitter<'a> {
                 best.weight,
             ));
         }
-        let (_, (chosen, method, weight, groups)) = self
-            .choose(candidates, found)
-            .expect("at least one candidate");
-        let report = Some(BlockReport {
+        // The best without the quiet column, then the quiet column against it.
+        let plain = if plain_could_win {
+            self.choose(candidates, found)
+        } else {
+            found
+        };
+        let report_of = |built: &Built| BlockReport {
             ions: active.len(),
             couplings: terms.len(),
-            area: 2.0 * weight / FRAC_PI_2,
+            area: 2.0 * built.2 / FRAC_PI_2,
             lower_bound: 2.0 * best.lower_bound / FRAC_PI_2,
-            method,
-            pulses: chosen.iter().filter(|op| op.is_entangling()).count(),
-        });
+            method: built.1,
+            pulses: built.0.iter().filter(|op| op.is_entangling()).count(),
+        };
+        let plain_report = if plain_could_win {
+            plain.as_ref().map(|(_, b)| report_of(b))
+        } else {
+            None
+        };
+        let with_quiet = match quiet_candidate {
+            Some(c) => self.choose(vec![c], plain.clone()),
+            None => plain.clone(),
+        };
+        let (_, built) = with_quiet.expect("at least one candidate");
+        let report = Some(report_of(&built));
+        let (chosen, _, _, groups) = built;
         if let Some(groups) = groups {
-            return (Part::Quiet(groups), report);
+            let (ops, plain_report) = if plain_could_win {
+                let (_, (chosen, ..)) = plain.expect("at least one candidate");
+                (self.sandwich(chosen), plain_report)
+            } else {
+                cheap_result(self, plain)
+            };
+            return (Part::Quiet(groups), report, Some((ops, plain_report)));
         }
-        (Part::Ops(self.sandwich(chosen)), report)
+        (Part::Ops(self.sandwich(chosen)), report, None)
     }
 
     /// A block's pulses between the collective rotations that take Z to X and back:
@@ -738,6 +783,12 @@ impl<'a> Emitter<'a> {
 /// A chosen candidate: its operations, method, total weight, and its groups when it
 /// shares the quiet ions' column.
 type Built = (Vec<NativeOp>, Method, f64, Option<Vec<Group>>);
+
+/// A segment made: its operations and block reports.
+type Plan = (Vec<NativeOp>, Vec<BlockReport>);
+
+/// A block made without the quiet ions' column: its operations and report.
+type Alternative = (Vec<NativeOp>, Option<BlockReport>);
 
 /// A candidate's pulses: sign vectors still to be ordered, the same in groups whose
 /// quiet ions still need their signs, or operations.

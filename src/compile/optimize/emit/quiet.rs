@@ -62,6 +62,15 @@ pub(super) fn quiet_groups(s: &Synthesis, active: &[usize], quiet: &[bool]) -> V
 /// `1/m_Q` of the total weight (groups are split at the boundaries), so those
 /// couplings sum to zero over the segment.
 pub(super) fn resolve_quiet(parts: Vec<Part>, quiet: &[bool]) -> Vec<NativeOp> {
+    if parts.iter().all(|p| matches!(p, Part::Ops(_))) {
+        return parts
+            .into_iter()
+            .flat_map(|p| match p {
+                Part::Ops(v) => v,
+                Part::Quiet(_) => unreachable!("only operations"),
+            })
+            .collect();
+    }
     let quiet_ions: Vec<usize> = (0..quiet.len()).filter(|&i| quiet[i]).collect();
     let total: f64 = parts
         .iter()

@@ -116,7 +116,13 @@ impl Emit {
 
 /// Wraps an angle into (-pi, pi]; rotations by 2 pi are -1, a global phase here.
 pub(crate) fn wrap(theta: f64) -> f64 {
-    let mut t = theta % (2.0 * PI);
+    // `%` returns its left side exactly when that is smaller than the modulus:
+    // skipped then (it is a library call, and most angles here are small).
+    let mut t = if theta.abs() < 2.0 * PI {
+        theta
+    } else {
+        theta % (2.0 * PI)
+    };
     if t > PI {
         t -= 2.0 * PI;
     } else if t <= -PI {

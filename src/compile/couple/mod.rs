@@ -272,45 +272,58 @@ pub fn synthesize(c: &Coupling, budget: Budget) -> Synthesis {
 /// give the same pulse).
 pub fn order_pulses(pulses: Vec<Pulse>) -> Vec<Pulse> {
     let n = pulses.first().map_or(0, |p| p.signs.len());
-    let words = n.div_ceil(64);
-    // Sign vectors as bit sets (bit set = -1), so a distance is a few popcounts.
-    let pack = |signs: &[i8]| -> Vec<u64> {
-        let mut w = vec![0u64; words];
-        for (i, &s) in signs.iter().enumerate() {
-            if s < 0 {
-                w[i / 64] |= 1 << (i % 64);
-            }
+    let words = n.div_ceil(64).max(1);
+    // Sign vectors as bit sets (bit set = -1), one row of `words` per pulse, so a
+    // distance is a few popcounts; `-s` is the complement within the n bits.
+    let mut bits = vec![0u64; pulses.len() * words];
+    for (row, p) in bits.chunks_mut(words).zip(&pulses) {
+        for (word, signs) in row.iter_mut().zip(p.signs.chunks(64)) {
+            *word = signs
+                .iter()
+                .enumerate()
+                .fold(0u64, |w, (i, &s)| w | (u64::from(s < 0) << i));
         }
-        w
-    };
-    let mut left: std::collections::VecDeque<(Vec<u64>, Pulse)> =
-        pulses.into_iter().map(|p| (pack(&p.signs), p)).collect();
+    }
+    let all: Vec<u64> = (0..words)
+        .map(|w| match n - 64 * w {
+            r if r >= 64 => u64::MAX,
+            r => (1u64 << r) - 1,
+        })
+        .collect();
+    let row = |k: usize| &bits[k * words..(k + 1) * words];
+    let mut left: std::collections::VecDeque<usize> = (0..pulses.len()).collect();
     let mut frame = vec![0u64; words];
-    let dist = |a: &[u64], b: &[u64]| -> usize {
-        a.iter()
-            .zip(b)
-            .map(|(x, y)| (x ^ y).count_ones() as usize)
-            .sum()
-    };
-    let mut out = Vec::with_capacity(left.len());
+    let mut order: Vec<(usize, bool)> = Vec::with_capacity(pulses.len());
     while !left.is_empty() {
         let mut best = (usize::MAX, 0usize, false);
-        for (k, (bits, _)) in left.iter().take(ORDER_WINDOW).enumerate() {
-            let d = dist(&frame, bits);
+        for (at, &k) in left.iter().take(ORDER_WINDOW).enumerate() {
+            let d: usize = frame
+                .iter()
+                .zip(row(k))
+                .map(|(x, y)| (x ^ y).count_ones() as usize)
+                .sum();
             let (d, neg) = if n - d < d { (n - d, true) } else { (d, false) };
             if d < best.0 {
-                best = (d, k, neg);
+                best = (d, at, neg);
             }
         }
-        let (mut bits, mut p) = left.remove(best.1).expect("in range");
-        if best.2 {
-            p.signs.iter_mut().for_each(|s| *s = -*s);
-            bits = pack(&p.signs);
+        let k = left.remove(best.1).expect("in range");
+        for ((f, &b), &m) in frame.iter_mut().zip(row(k)).zip(&all) {
+            *f = if best.2 { !b & m } else { b };
         }
-        frame = bits;
-        out.push(p);
+        order.push((k, best.2));
     }
-    out
+    let mut slots: Vec<Option<Pulse>> = pulses.into_iter().map(Some).collect();
+    order
+        .into_iter()
+        .map(|(k, neg)| {
+            let mut p = slots[k].take().expect("each pulse once");
+            if neg {
+                p.signs.iter_mut().for_each(|s| *s = -*s);
+            }
+            p
+        })
+        .collect()
 }
 
 /// How many of the remaining pulses [`order_pulses`] considers for the next one.

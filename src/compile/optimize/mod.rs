@@ -331,8 +331,10 @@ pub fn compile_optimized(
     let all = ranges(c, cfg.window_qubits, cfg.max_range_instrs);
     // Ranges are compiled on their own, so a few at a time run in parallel (sharing
     // the synthesis cache and the solver time) and join in order: the output is
-    // the same as one after the other, unless the solver time runs out.
-    let batch = rayon::current_num_threads().max(1);
+    // the same as one after the other, unless the solver time runs out. Several
+    // per thread in each batch, so that a long range does not leave threads idle;
+    // few enough that the outputs waiting to join stay small.
+    let batch = 8 * rayon::current_num_threads().max(1);
     for chunk in all.chunks(batch) {
         use rayon::prelude::*;
         let made: Vec<Result<RangeOut, CompileError>> = chunk

@@ -51,6 +51,20 @@ impl Gathered {
 
     /// Adds weight `t` to every pair of `qubits` (distinct).
     fn add_all_pairs(&mut self, qubits: &[usize], t: f64) {
+        let n = self.n;
+        if qubits.len() == n && qubits.iter().enumerate().all(|(i, &q)| i == q) {
+            // Every qubit in order (a pulse on the whole chain): row by row over
+            // contiguous slices.
+            self.touched.iter_mut().for_each(|x| *x = true);
+            for a in 0..n {
+                let ta = t * self.sign[a];
+                let row = &mut self.w[a * n + a + 1..(a + 1) * n];
+                for (x, &sb) in row.iter_mut().zip(&self.sign[a + 1..]) {
+                    *x += ta * sb;
+                }
+            }
+            return;
+        }
         for (i, &x) in qubits.iter().enumerate() {
             self.touched[x] = true;
             let sx = t * self.sign[x];

@@ -278,15 +278,6 @@ fn drop_zero_couplings(ks: Vec<Kernel>) -> (Vec<Kernel>, f64) {
     (out, dropped)
 }
 
-/// The single-qubit part of `k` on qubit `q` (One or Collective kernels).
-fn local_part(k: &Kernel, q: usize) -> Option<Mat2> {
-    match k {
-        Kernel::One { q: kq, m } if *kq == q => Some(*m),
-        Kernel::Collective { m, qubits } if qubits.contains(&q) => Some(*m),
-        _ => None,
-    }
-}
-
 fn is_multi(k: &Kernel) -> bool {
     !matches!(k, Kernel::One { .. } | Kernel::Collective { .. })
 }
@@ -358,13 +349,25 @@ fn reduce(
     if entangled.iter().all(|&e| e) {
         return Ok((p, q, n, (0..n).collect()));
     }
+    // Each idle qubit's product in each program, in one pass over the kernels.
+    let products = |ks: &[Kernel]| {
+        let mut out: Vec<Mat2> = vec![identity2(); n];
+        for k in ks {
+            match k {
+                Kernel::One { q, m } if !entangled[*q] => out[*q] = mul2(m, &out[*q]),
+                Kernel::Collective { m, qubits } => {
+                    for &x in qubits.iter().filter(|&&x| !entangled[x]) {
+                        out[x] = mul2(m, &out[x]);
+                    }
+                }
+                _ => {}
+            }
+        }
+        out
+    };
+    let (pa, pb) = (products(&p), products(&q));
     for x in (0..n).filter(|&x| !entangled[x]) {
-        let product = |ks: &[Kernel]| {
-            ks.iter()
-                .filter_map(|k| local_part(k, x))
-                .fold(identity2(), |acc, m| mul2(&m, &acc))
-        };
-        let (a, b) = (product(&p), product(&q));
+        let (a, b) = (pa[x], pb[x]);
         let distance = if measured.is_some_and(|m| m.contains(&x)) {
             row_aligned_distance2(&a, &b)
         } else {

@@ -40,13 +40,18 @@ impl Gathered {
     /// Most qubits gathered densely (an `n x n` table of 8-byte weights: 32 MiB).
     const MAX_QUBITS: usize = 2048;
 
-    fn new(n: usize) -> Gathered {
-        Gathered {
+    /// `None` when the table cannot be allocated (the caller then goes the plain
+    /// way rather than abort).
+    fn new(n: usize) -> Option<Gathered> {
+        let mut w = Vec::new();
+        w.try_reserve_exact(n * n).ok()?;
+        w.resize(n * n, 0.0);
+        Some(Gathered {
             n,
-            w: vec![0.0; n * n],
+            w,
             sign: vec![1.0; n],
             touched: vec![false; n],
-        }
+        })
     }
 
     /// Adds weight `t` to every pair of `qubits` (distinct).
@@ -130,7 +135,9 @@ fn z_in_frame(c: &Mat2) -> Mat2 {
 /// The rewritten kernels and their slack, or `None` when the list has no
 /// collective rotation, or holds a kernel other than collective rotations on all
 /// `n` qubits, single-qubit operations and MS pulses, or an MS pulse whose axis in
-/// the interaction picture is not Z.
+/// the interaction picture is not Z; also `None` for more than
+/// `Gathered::MAX_QUBITS` qubits, or when the table of couplings cannot be
+/// allocated (the checker then compares the programs as given).
 pub(super) fn interaction_picture(ks: &[Kernel], n: usize) -> Option<(Vec<Kernel>, f64)> {
     // Most segments (every circuit, most addressed sequences) have no collective
     // rotation: say so before building anything.
@@ -148,7 +155,7 @@ pub(super) fn interaction_picture(ks: &[Kernel], n: usize) -> Option<(Vec<Kernel
     if n > Gathered::MAX_QUBITS {
         return None;
     }
-    let mut g = Gathered::new(n);
+    let mut g = Gathered::new(n)?;
     let mut slack = 0.0;
     for k in ks {
         match k {

@@ -566,7 +566,7 @@ impl<'a> Emitter<'a> {
             ));
         }
         // The best without the quiet column, then the quiet column against it.
-        let plain = if plain_could_win {
+        let mut plain = if plain_could_win {
             self.choose(candidates, found)
         } else {
             found
@@ -586,7 +586,8 @@ impl<'a> Emitter<'a> {
         };
         let with_quiet = match quiet_candidate {
             Some(c) => self.choose(vec![c], plain.clone()),
-            None => plain.clone(),
+            // Without the quiet column the plain best is the answer (and no groups).
+            None => plain.take(),
         };
         let (_, built) = with_quiet.expect("at least one candidate");
         let report = Some(report_of(&built));

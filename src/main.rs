@@ -19,6 +19,7 @@ use args::*;
 use progress::{BatchProgress, Progress};
 
 fn main() -> ExitCode {
+    tutti::memory::fit_allocator_to_limit();
     let cli = Cli::parse();
     let json = matches!(
         cli.command,

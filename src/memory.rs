@@ -30,6 +30,31 @@ pub fn advise_huge_pages<T>(v: &mut Vec<T>) {
     let _ = v;
 }
 
+/// Under an address-space limit (`ulimit -v`), keeps the C allocator to one arena.
+/// glibc reserves 64 MiB of address space for each thread's arena, so with a few
+/// threads a limit of 150 MiB was used up by reservations before any work (the
+/// compile then stopped on a failed allocation). One arena costs some contention
+/// between threads, so it is asked for only when a limit is set. Nothing changes
+/// off glibc.
+pub fn fit_allocator_to_limit() {
+    #[cfg(all(target_os = "linux", target_env = "gnu"))]
+    {
+        let mut lim = libc::rlimit {
+            rlim_cur: 0,
+            rlim_max: 0,
+        };
+        // SAFETY: getrlimit writes into the struct it is given; mallopt only sets an
+        // allocator parameter, before any thread has started.
+        unsafe {
+            if libc::getrlimit(libc::RLIMIT_AS, &mut lim) == 0
+                && lim.rlim_cur != libc::RLIM_INFINITY
+            {
+                libc::mallopt(libc::M_ARENA_MAX, 1);
+            }
+        }
+    }
+}
+
 /// What the process may really use for large buffers, in bytes: three quarters of
 /// the smaller of the room left under the address-space limit (`ulimit -v`) and the
 /// memory the system reports available. 8 GiB where neither can be read.

@@ -264,6 +264,15 @@ fn near_misses_of_shared_echo_columns_are_caught() {
     }
     let vd = verdict_or_refusal(&c, &d);
     assert_eq!(vd, Some(false), "a light shift on the wrong ion");
+    // A light shift's angle off by 1e-8: the couplings are unchanged, so the
+    // checker compares in the picture alone (the programs as given, which could
+    // keep no fewer qubits, are not prepared) and must still see it.
+    let mut e = seq.clone();
+    if let NativeOp::LightShift { theta, .. } = &mut e.steps[shift].op {
+        *theta += 1e-8;
+    }
+    let ve = verdict_or_refusal(&c, &e);
+    assert_eq!(ve, Some(false), "a light shift off by 1e-8");
 }
 
 /// Both targets and every objective verify on a circuit with a mid-circuit

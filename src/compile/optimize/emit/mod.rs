@@ -210,32 +210,36 @@ impl<'a> Emitter<'a> {
         let mut parts: Vec<Part> = Vec::new();
         let mut ops = Vec::new();
         let mut reports = Vec::new();
-        let mut without: Plan = (Vec::new(), Vec::new());
-        let mut used_quiet = false;
+        // The plan without the shared column: the same as `ops` and `reports` until
+        // a block shares it, so it is started only then.
+        let mut without: Option<Plan> = None;
         let mut carry: FxHashMap<u32, f64> = FxHashMap::default();
         for (k, layer) in s.layers.iter().enumerate() {
             let from = ops.len();
             self.layer(layer, &mut carry, &mut ops);
-            without.0.extend_from_slice(&ops[from..]);
+            if let Some(w) = &mut without {
+                w.0.extend_from_slice(&ops[from..]);
+            }
             if let Some(block) = s.blocks.get(k) {
                 let (part, report, alternative) = self.block(block, &mut carry, quiet);
-                match alternative {
-                    Some((v, r)) => {
-                        without.0.extend(v);
-                        without.1.extend(r);
+                match (alternative, &mut without) {
+                    (Some((v, r)), w) => {
+                        let w = w.get_or_insert_with(|| (ops.clone(), reports.clone()));
+                        w.0.extend(v);
+                        w.1.extend(r);
                     }
-                    None => {
+                    (None, Some(w)) => {
                         if let Part::Ops(v) = &part {
-                            without.0.extend_from_slice(v);
+                            w.0.extend_from_slice(v);
                         }
-                        without.1.extend(report.clone());
+                        w.1.extend(report.clone());
                     }
+                    (None, None) => {}
                 }
                 reports.extend(report);
                 match part {
                     Part::Ops(v) => ops.extend(v),
                     groups => {
-                        used_quiet = true;
                         parts.push(Part::Ops(std::mem::take(&mut ops)));
                         parts.push(groups);
                     }
@@ -247,11 +251,13 @@ impl<'a> Emitter<'a> {
         for (q, t) in rest {
             if !drop_z.get(q as usize).copied().unwrap_or(false) {
                 push_shift(&mut ops, q, t);
-                push_shift(&mut without.0, q, t);
+                if let Some(w) = &mut without {
+                    push_shift(&mut w.0, q, t);
+                }
             }
         }
         parts.push(Part::Ops(ops));
-        let without = used_quiet.then(|| (peephole(without.0, self.n()), without.1));
+        let without = without.map(|(ops, reports)| (peephole(ops, self.n()), reports));
         (
             peephole(resolve_quiet(parts, quiet), self.n()),
             reports,

@@ -4,7 +4,7 @@
 use rand::{Rng, SeedableRng};
 use std::time::Duration;
 use tutti::compile::couple::{
-    hadamard_each, matching, pad_idle, synthesize, Budget, Coupling, Method, Strategy,
+    floor, hadamard_each, matching, pad_idle, synthesize, Budget, Coupling, Method, Strategy,
 };
 
 fn coupling(n: usize, entries: &[(usize, usize, f64)]) -> Coupling {
@@ -302,5 +302,96 @@ fn uncoupled_components_cost_the_costliest() {
             s.weight
         );
         assert!((s.lower_bound - s.weight).abs() < 1e-6, "trial {trial}");
+    }
+}
+
+/// Distinct sign vectors of a pulse list, `s` and `-s` counted once.
+fn distinct_vectors(pulses: &[tutti::compile::couple::Pulse]) -> usize {
+    let mut seen: Vec<Vec<i8>> = pulses
+        .iter()
+        .filter(|p| p.weight > 0.0)
+        .map(|p| p.signs.iter().map(|&x| x * p.signs[0]).collect())
+        .collect();
+    seen.sort();
+    seen.dedup();
+    seen.len()
+}
+
+/// The floor the optimizer uses to skip the coupling program (derived in
+/// compile/couple: `sum t_k s_k s_k^T = T I + W` is positive semidefinite, so
+/// `T >= -lambda_min(W)`, and its rank bounds the distinct vectors from below) holds
+/// for the program's optimum and for every construction, on random couplings with
+/// and without zero entries (3 to 10 ions). It is tight for gate-set fact 7: k
+/// disjoint pairs of equal coupling theta cost theta and k distinct vectors when a
+/// Hadamard matrix of order k exists (k = 1, 2, 4). And it is not the trivial one:
+/// on most random couplings it lies above the largest weight and one vector.
+#[test]
+fn the_spectral_floor_holds_for_every_synthesis() {
+    let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(17);
+    let (mut above_largest, mut above_one, mut cases) = (0, 0, 0);
+    for n in 3..=10 {
+        for round in 0..6 {
+            let mut j = random_coupling(n, &mut rng);
+            if round % 2 == 1 {
+                // Sparse: most pairs uncoupled, the rest a CNOT's pi/4.
+                for w in j.w.iter_mut() {
+                    *w = if rng.gen_bool(0.3) {
+                        std::f64::consts::FRAC_PI_4 * if rng.gen_bool(0.5) { 1.0 } else { -1.0 }
+                    } else {
+                        0.0
+                    };
+                }
+            }
+            if j.max_abs() == 0.0 {
+                continue;
+            }
+            cases += 1;
+            let f = floor(&j);
+            let mut made = vec![synthesize(&j, Budget::default()), hadamard_each(&j)];
+            made.extend(matching(&j));
+            // Padded for two idle ions: a synthesis of the larger coupling.
+            let mut wide = Coupling::zero(n + 2);
+            for a in 0..n {
+                for b in a + 1..n {
+                    wide.set(a, b, j.get(a, b));
+                }
+            }
+            let padded = pad_idle(&made[0], &(0..n).collect::<Vec<_>>(), n + 2);
+            let fw = floor(&wide);
+            assert!((fw.weight - f.weight).abs() < 1e-12 && fw.distinct == f.distinct + 2);
+            for s in &made {
+                assert!(s.certifies(&j));
+                assert!(
+                    s.weight >= f.weight * (1.0 - 1e-9),
+                    "n = {n}: weight {} below the floor {}",
+                    s.weight,
+                    f.weight
+                );
+                assert!(
+                    distinct_vectors(&s.pulses) >= f.distinct,
+                    "n = {n}: {} distinct vectors, floor {} ({:?})",
+                    distinct_vectors(&s.pulses),
+                    f.distinct,
+                    j.w
+                );
+            }
+            assert!(distinct_vectors(&padded) >= fw.distinct);
+            above_largest += usize::from(f.weight > 1.01 * j.max_abs());
+            above_one += usize::from(f.distinct > 1);
+        }
+    }
+    assert!(above_largest * 2 > cases, "{above_largest} of {cases}");
+    assert!(above_one * 10 > cases * 9, "{above_one} of {cases}");
+    for pairs in [1usize, 2, 4] {
+        let theta = 0.37;
+        let entries: Vec<(usize, usize, f64)> = (0..pairs)
+            .map(|k| (2 * k, 2 * k + 1, if k % 2 == 0 { theta } else { -theta }))
+            .collect();
+        let j = coupling(2 * pairs, &entries);
+        let f = floor(&j);
+        let m = matching(&j).expect("a matching");
+        assert!((f.weight - theta).abs() < 1e-12 && (m.weight - theta).abs() < 1e-12);
+        assert_eq!(f.distinct, pairs);
+        assert_eq!(distinct_vectors(&m.pulses), pairs);
     }
 }

@@ -179,6 +179,51 @@ impl Synthesis {
     }
 }
 
+/// What any synthesis of a coupling must spend, known without solving the program:
+/// a floor on its total weight and on the number of its distinct sign vectors.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Floor {
+    /// No synthesis has total weight `sum t_k` below this.
+    pub weight: f64,
+    /// No synthesis has fewer distinct sign vectors (counting `s` and `-s` as one).
+    pub distinct: usize,
+}
+
+/// The floor of [`Floor`] from the spectrum of the coupling matrix (derived here).
+///
+/// Every sign vector has `s_i^2 = 1`, so a synthesis of total weight `T` satisfies
+/// `sum_k t_k s_k s_k^T = T I + W` with `W` the symmetric coupling matrix (zero
+/// diagonal). The left side is positive semidefinite, so `T >= -lambda_min(W)` (the
+/// spectral relaxation of the cut polytope, common practice since Goemans and
+/// Williamson's semidefinite relaxation of max-cut, J. ACM 42, 1995), and `T` is at
+/// least the largest `|w_ij|` (each pulse adds at most its weight to a pair). Its
+/// rank is at most the number of distinct `s_k s_k^T`, and `T I + W` with
+/// `T >= -lambda_min` has rank at least `n` minus the multiplicity of `lambda_min`
+/// (eigenvalues within a tolerance far above the certificate's rounding count as
+/// equal, so a certified synthesis, which meets `w` only to [`CERTIFICATE_EPS`],
+/// still obeys the floor).
+pub fn floor(c: &Coupling) -> Floor {
+    let n = c.n;
+    let largest = c.max_abs();
+    if n < 2 || largest == 0.0 {
+        return Floor {
+            weight: 0.0,
+            distinct: 0,
+        };
+    }
+    let m = DMatrix::from_fn(n, n, |i, j| c.get(i, j));
+    let values = m.symmetric_eigenvalues();
+    let lowest = values.iter().copied().fold(f64::INFINITY, f64::min);
+    // The certificate allows an error of CERTIFICATE_EPS * max(1, largest) per
+    // entry, which moves an eigenvalue by at most n times that.
+    let tol = 1e-6 * largest.max(1.0) * n as f64;
+    let multiplicity = values.iter().filter(|&&v| v <= lowest + tol).count();
+    Floor {
+        weight: largest.max(-lowest),
+        distinct: n - multiplicity,
+    }
+}
+
 /// Which program to solve.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum Strategy {

@@ -22,8 +22,9 @@ use super::schedule::Schedule;
 use super::Objective;
 use crate::circuit::{Condition, Mat2};
 use crate::compile::couple::{
-    components, hadamard_each, matching, order_pulses, pad_idle, side_by_side, side_by_side_pulses,
-    synthesize, Budget as SynthBudget, Coupling, Method, Pulse, Synthesis,
+    components, floor, hadamard_each, matching, order_pulses, pad_idle, side_by_side,
+    side_by_side_pulses, synthesize, Budget as SynthBudget, Coupling, Floor, Method, Pulse,
+    Synthesis,
 };
 use crate::compile::hadamard::{smallest_hadamard, smallest_order};
 use crate::compile::lower::zyz;
@@ -435,32 +436,82 @@ impl<'a> Emitter<'a> {
         let parts = components(&local);
         let quiet_others =
             (quiet.iter().any(|&q| q)).then(|| idle - quiet.iter().filter(|&&q| q).count());
-        let theta_min = 2.0 * local.max_abs();
         let m_pad = if idle == 0 {
             1
         } else {
             smallest_order(idle + 1)
         };
-        let mut pre: Vec<(f64, f64)> = vec![self.pulse_bound(m_pad, theta_min, m_pad - 1)];
-        let quiet_pre = quiet_others.map(|others| {
-            let m = smallest_order(others + 2);
-            self.pulse_bound(m, theta_min, m - 1)
-        });
-        if parts.len() > 1 {
-            let m = smallest_order(parts.len() + idle);
-            pre.push(self.pulse_bound(m, theta_min, m - 1));
-        }
         let hiding = self.target == Target::Addressed
             && self.profile.capabilities.hiding
             && active.len() < n;
-        if hiding {
-            pre.push(self.hiding_bound(idle, theta_min));
-        }
+        // Bounds from a floor on the synthesis (total weight, distinct sign vectors
+        // on the active ions): padded for the idle ions (each pulse times m_pad
+        // distinct rows), components side by side (a synthesis of the whole device's
+        // coupling: the idle ions add their zero eigenvalues above the lowest, so
+        // one distinct vector each), hiding (the pulses on the active ions alone).
+        // Side by side, each slice of time is played once per row of a Hadamard
+        // matrix of order at least `parts + idle`, and a part changes pulse at least
+        // once per distinct vector of its own: `slices` is the most any part needs.
+        let bounds = |floor: Floor, slices: usize| {
+            let theta = 2.0 * floor.weight;
+            let r = floor.distinct.max(1);
+            let mut pre = vec![self.pulse_bound(r * m_pad, theta, r * m_pad - 1)];
+            if parts.len() > 1 {
+                let m = (smallest_order(parts.len() + idle) * slices.max(1)).max(r + idle);
+                pre.push(self.pulse_bound(m, theta, m - 1));
+            }
+            if hiding {
+                // The synthesis on the active ions: side by side over its parts, or
+                // matching layers (one level per distinct weight) for lone pairs.
+                pre.push(self.hiding_bound(idle, theta, r.max(slices), r - 1));
+            }
+            let quiet_pre = quiet_others.map(|others| {
+                let m = smallest_order(others + 2);
+                self.pulse_bound(r * m, theta, m - 1)
+            });
+            (pre, quiet_pre)
+        };
         let could_win = |pre: &[(f64, f64)]| match &found {
             None => true,
             Some((k, _)) => pre.iter().any(|b| b.0 <= k.0 + 1e-12 * k.0.abs()),
         };
         let forced = self.certificates.is_some() || self.build_all;
+        // First the floor every coupling has (its largest weight, one vector); where
+        // that leaves a candidate of the program a chance, the spectral floor.
+        let (mut pre, mut quiet_pre) = bounds(
+            Floor {
+                weight: local.max_abs(),
+                distinct: 1,
+            },
+            1,
+        );
+        let mut distinct = 1;
+        if !forced && (could_win(&pre) || could_win(quiet_pre.as_slice())) {
+            let slices = if parts.len() > 1 {
+                // A part of two ions is one pulse, ending at its weight: distinct
+                // weights cut time apart (counted with a tolerance far above the
+                // plan's, so never more than it cuts). A larger part changes pulse
+                // at least once per distinct vector of its floor.
+                let mut ends: Vec<f64> = Vec::new();
+                let mut most = 1;
+                for (_, sub) in &parts {
+                    if sub.n == 2 {
+                        ends.push(sub.w[0].abs());
+                    } else {
+                        most = most.max(floor(sub).distinct);
+                    }
+                }
+                ends.sort_by(f64::total_cmp);
+                let tol = 1e-12 * ends.last().copied().unwrap_or(0.0);
+                ends.dedup_by(|a, b| *a - *b <= tol);
+                most.max(ends.len())
+            } else {
+                1
+            };
+            let f = floor(&local);
+            distinct = f.distinct.max(1);
+            (pre, quiet_pre) = bounds(f, slices);
+        }
         // Without the quiet column (as a segment planned with no quiet ions would
         // have it): the cheap candidate, when no other can beat it.
         let plain_could_win = could_win(&pre) || forced;
@@ -538,38 +589,34 @@ impl<'a> Emitter<'a> {
             });
         }
         if hiding {
-            let on_active: Vec<Pulse> = best
-                .pulses
-                .iter()
-                .map(|p| {
-                    let mut signs = vec![1i8; n];
-                    for (k, &q) in active.iter().enumerate() {
-                        signs[q as usize] = p.signs[k];
-                    }
-                    Pulse {
-                        signs,
-                        weight: p.weight,
-                    }
-                })
-                .collect();
-            let mut hidden = Vec::new();
-            for ion in 0..n as u32 {
-                if active.binary_search(&ion).is_err() {
-                    hidden.push(NativeOp::Hide { ion });
-                }
-            }
-            let mut body = hidden.clone();
-            body.extend(pulse_ops(on_active));
-            body.extend(hidden.iter().map(|h| match *h {
-                NativeOp::Hide { ion } => NativeOp::Unhide { ion },
-                other => other,
-            }));
-            candidates.push(Candidate::built(
-                self,
-                Made::Ops(body),
-                best.method,
-                best.weight,
-            ));
+            let (best, active) = (&best, &active);
+            candidates.push(Candidate {
+                lower: self.hiding_bound(idle, total, best.pulses.len(), distinct - 1),
+                method: best.method,
+                weight: best.weight,
+                build: Box::new(move || {
+                    let on_active: Vec<Pulse> = best
+                        .pulses
+                        .iter()
+                        .map(|p| {
+                            let mut signs = vec![1i8; n];
+                            for (k, &q) in active.iter().enumerate() {
+                                signs[q as usize] = p.signs[k];
+                            }
+                            Pulse {
+                                signs,
+                                weight: p.weight,
+                            }
+                        })
+                        .collect();
+                    let hidden = (0..n as u32).filter(|ion| active.binary_search(ion).is_err());
+                    let mut body: Vec<NativeOp> =
+                        hidden.clone().map(|ion| NativeOp::Hide { ion }).collect();
+                    body.extend(pulse_ops(on_active));
+                    body.extend(hidden.map(|ion| NativeOp::Unhide { ion }));
+                    Some(Made::Ops(body))
+                }),
+            });
         }
         // The best without the quiet column, then the quiet column against it.
         let mut plain = if plain_could_win {
@@ -683,17 +730,28 @@ impl<'a> Emitter<'a> {
         }
     }
 
-    /// A lower bound on the key of hiding `idle` ions around global pulses of total
-    /// angle `theta` (at least one pulse; each idle ion hidden and unhidden).
-    fn hiding_bound(&self, idle: usize, theta: f64) -> (f64, f64) {
+    /// A lower bound on the key of hiding `idle` ions around `count` global pulses
+    /// of total angle `theta` with at least `flips` layers of light shifts between
+    /// them (each idle ion hidden and unhidden, one at a time).
+    fn hiding_bound(&self, idle: usize, theta: f64, count: usize, flips: usize) -> (f64, f64) {
         let (d, e) = (&self.profile.durations_us, &self.profile.errors);
         let at = |c: Option<crate::native::profile::Cost>| c.map_or(0.0, |c| c.at(0.0));
         let idle = idle as f64;
+        let count = count.max(1) as f64;
+        let flips = flips as f64;
         let area = theta / FRAC_PI_2;
-        let time = d.ms.at(theta) + idle * (at(d.hide) + at(d.unhide));
-        let error = 1.0 - (-(e.ms.at(theta) + idle * (at(e.hide) + at(e.unhide)))).exp();
+        let time = count * d.ms.fixed
+            + d.ms.per_rad * theta
+            + flips * d.light_shift.at(PI)
+            + idle * (at(d.hide) + at(d.unhide));
+        let error = 1.0
+            - (-(count * e.ms.fixed
+                + e.ms.per_rad * theta
+                + flips * e.light_shift.at(PI)
+                + idle * (at(e.hide) + at(e.unhide))))
+            .exp();
         match self.objective {
-            Objective::Pulses => (1.0, area),
+            Objective::Pulses => (count, area),
             Objective::Area => (area, 1.0),
             Objective::Duration => (time, area),
             Objective::Error => (error, time),

@@ -347,6 +347,12 @@ fn the_spectral_floor_holds_for_every_synthesis() {
             }
             cases += 1;
             let f = floor(&j);
+            // The floor, assembled from the components' spectra, against nalgebra's
+            // eigenvalues of the whole matrix.
+            let lowest = nalgebra::DMatrix::from_fn(n, n, |a, b| j.get(a, b))
+                .symmetric_eigenvalues()
+                .min();
+            assert!((f.weight - j.max_abs().max(-lowest)).abs() < 1e-9 * f.weight);
             let mut made = vec![synthesize(&j, Budget::default()), hadamard_each(&j)];
             made.extend(matching(&j));
             // Padded for two idle ions: a synthesis of the larger coupling.

@@ -3,6 +3,8 @@
 //! interaction-picture path, which the optimizer's shared echo columns rely on.
 
 mod common;
+#[path = "../benches/common/mod.rs"]
+mod generated;
 
 use tutti::circuit::{Circuit, Gate, GateKind, Instr, Op, Qubit};
 use tutti::compile::lower::{lower, zyz, Canon};
@@ -560,4 +562,82 @@ fn skipping_candidates_by_their_bounds_loses_nothing() {
         }
     }
     assert!(skipped > 0, "no block skipped the coupling program");
+}
+
+/// The same on wide blocks, where the floors decide (the circuits above rarely
+/// have blocks of many parts): generated circuits on 50 qubits, the kind the
+/// compile benchmark times, for a 50-ion variant of the demo profile and one where
+/// hiding is cheap enough to win blocks (invented example numbers), both targets.
+/// Pruned and build-all compiles choose blocks of the same duration, and most
+/// blocks skip the coupling program.
+#[test]
+fn skipping_by_the_floors_loses_nothing_on_wide_blocks() {
+    use generated::{generated_circuit, Kind};
+    use tutti::native::budget::budget;
+    use tutti::native::profile::Cost;
+    let mut profile = Profile::demo();
+    profile.device.ions = 50;
+    let mut cheap_hiding = profile.clone();
+    let quick = Some(Cost {
+        fixed: 2.0,
+        per_rad: 0.0,
+    });
+    cheap_hiding.durations_us.hide = quick;
+    cheap_hiding.durations_us.unhide = quick;
+    let kinds = [Kind::Rz, Kind::Ry, Kind::H, Kind::Cx, Kind::Cu1];
+    let mut hides = 0;
+    for (k, (profile, target, gates)) in [
+        (&profile, Target::Addressed, 3000),
+        (&cheap_hiding, Target::Addressed, 3000),
+        (&profile, Target::Collective, 600),
+    ]
+    .into_iter()
+    .enumerate()
+    {
+        let c = generated_circuit(50, gates, 0x51, &kinds);
+        let cfg = OptConfig {
+            target,
+            block_time: std::time::Duration::from_secs(3600),
+            solver_time: std::time::Duration::from_secs(3600),
+            max_steps: 100_000_000,
+            ..OptConfig::default()
+        };
+        let pruned = compile_optimized(&c, profile, &cfg).unwrap();
+        let full = compile_optimized(
+            &c,
+            profile,
+            &OptConfig {
+                build_all: true,
+                ..cfg
+            },
+        )
+        .unwrap();
+        let (a, b) = (
+            budget(&pruned.sequence, profile, 50).duration_us,
+            budget(&full.sequence, profile, 50).duration_us,
+        );
+        assert!(
+            (a - b).abs() <= 1e-9 * b,
+            "{target:?}: {a} us pruned, {b} us with every candidate"
+        );
+        hides += pruned
+            .sequence
+            .steps
+            .iter()
+            .filter(|s| matches!(s.op, NativeOp::Hide { .. }))
+            .count();
+        let skipped = pruned
+            .blocks
+            .iter()
+            .filter(|r| r.lower_bound == 0.0)
+            .count();
+        if k == 0 {
+            assert!(
+                skipped * 2 > pruned.blocks.len(),
+                "{skipped} of {} blocks skipped the program",
+                pruned.blocks.len()
+            );
+        }
+    }
+    assert!(hides > 0, "hiding won no block");
 }

@@ -203,16 +203,44 @@ pub struct Floor {
 /// equal, so a certified synthesis, which meets `w` only to [`CERTIFICATE_EPS`],
 /// still obeys the floor).
 pub fn floor(c: &Coupling) -> Floor {
-    let n = c.n;
-    let largest = c.max_abs();
+    floor_of_parts(c.n, &components(c)).0
+}
+
+/// [`floor`] of a coupling from its connected components (as [`components`] gives
+/// them, covering all `n` ions): the spectrum of a block-diagonal matrix is the
+/// union of its blocks' spectra, a lone pair's is `+-|w|` and a lone ion's `0`, so
+/// only parts of three ions or more need an eigenvalue solver. Also the largest
+/// `distinct` floor of any one part.
+pub fn floor_of_parts(n: usize, parts: &[(Vec<usize>, Coupling)]) -> (Floor, usize) {
+    let mut values: Vec<f64> = Vec::with_capacity(n);
+    let mut largest = 0.0f64;
+    let mut most = 0;
+    for (_, sub) in parts {
+        let start = values.len();
+        match sub.n {
+            0 => {}
+            1 => values.push(0.0),
+            2 => values.extend([sub.w[0].abs(), -sub.w[0].abs()]),
+            _ => {
+                let m = DMatrix::from_fn(sub.n, sub.n, |i, j| sub.get(i, j));
+                values.extend(m.symmetric_eigenvalues().iter());
+            }
+        }
+        largest = largest.max(sub.max_abs());
+        most = most.max(spectral_floor(&values[start..], sub.max_abs(), sub.n).distinct);
+    }
+    (spectral_floor(&values, largest, n), most)
+}
+
+/// The floor from the eigenvalues of an `n`-ion coupling whose largest weight is
+/// `largest`.
+fn spectral_floor(values: &[f64], largest: f64, n: usize) -> Floor {
     if n < 2 || largest == 0.0 {
         return Floor {
             weight: 0.0,
             distinct: 0,
         };
     }
-    let m = DMatrix::from_fn(n, n, |i, j| c.get(i, j));
-    let values = m.symmetric_eigenvalues();
     let lowest = values.iter().copied().fold(f64::INFINITY, f64::min);
     // The certificate allows an error of CERTIFICATE_EPS * max(1, largest) per
     // entry, which moves an eigenvalue by at most n times that.

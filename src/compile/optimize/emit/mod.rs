@@ -22,7 +22,7 @@ use super::schedule::Schedule;
 use super::Objective;
 use crate::circuit::{Condition, Mat2};
 use crate::compile::couple::{
-    components, floor, hadamard_each, matching, order_pulses, pad_idle, side_by_side,
+    components, floor_of_parts, hadamard_each, matching, order_pulses, pad_idle, side_by_side,
     side_by_side_pulses, synthesize, Budget as SynthBudget, Coupling, Floor, Method, Pulse,
     Synthesis,
 };
@@ -461,9 +461,16 @@ impl<'a> Emitter<'a> {
                 pre.push(self.pulse_bound(m, theta, m - 1));
             }
             if hiding {
-                // The synthesis on the active ions: side by side over its parts, or
-                // matching layers (one level per distinct weight) for lone pairs.
-                pre.push(self.hiding_bound(idle, theta, r.max(slices), r - 1));
+                // The synthesis on the active ions: lone pairs in matching layers (a
+                // level per distinct weight); other parts side by side, a Hadamard
+                // row per part in each slice (or, without solver time, each coupling
+                // on its own, no fewer).
+                let count = if parts.len() > 1 && parts.iter().any(|(_, sub)| sub.n > 2) {
+                    smallest_order(parts.len()) * slices
+                } else {
+                    slices
+                };
+                pre.push(self.hiding_bound(idle, theta, count.max(r), r - 1));
             }
             let quiet_pre = quiet_others.map(|others| {
                 let m = smallest_order(others + 2);
@@ -487,20 +494,17 @@ impl<'a> Emitter<'a> {
         );
         let mut distinct = 1;
         if !forced && (could_win(&pre) || could_win(quiet_pre.as_slice())) {
+            let (f, most) = floor_of_parts(active.len(), &parts);
             let slices = if parts.len() > 1 {
                 // A part of two ions is one pulse, ending at its weight: distinct
                 // weights cut time apart (counted with a tolerance far above the
                 // plan's, so never more than it cuts). A larger part changes pulse
                 // at least once per distinct vector of its floor.
-                let mut ends: Vec<f64> = Vec::new();
-                let mut most = 1;
-                for (_, sub) in &parts {
-                    if sub.n == 2 {
-                        ends.push(sub.w[0].abs());
-                    } else {
-                        most = most.max(floor(sub).distinct);
-                    }
-                }
+                let mut ends: Vec<f64> = parts
+                    .iter()
+                    .filter(|(_, sub)| sub.n == 2)
+                    .map(|(_, sub)| sub.w[0].abs())
+                    .collect();
                 ends.sort_by(f64::total_cmp);
                 let tol = 1e-12 * ends.last().copied().unwrap_or(0.0);
                 ends.dedup_by(|a, b| *a - *b <= tol);
@@ -508,7 +512,6 @@ impl<'a> Emitter<'a> {
             } else {
                 1
             };
-            let f = floor(&local);
             distinct = f.distinct.max(1);
             (pre, quiet_pre) = bounds(f, slices);
         }

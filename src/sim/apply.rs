@@ -215,20 +215,54 @@ impl<'a> Tabled<'a> {
     }
 }
 
-/// The full unitary of a list of kernels on `n` qubits, column by column (columns in
-/// parallel). Cost `2^n` simulations; meant for `n` up to about 12.
+/// The full unitary of a list of kernels on `n` qubits (see [`unitary_into`]).
+/// Cost `2^n` simulations; meant for `n` up to about 12.
 pub fn unitary_of(kernels: &[Kernel], n: usize) -> DMatrix<C64> {
     let dim = 1usize << n;
+    let mut out = vec![C64::ZERO; dim * dim];
+    unitary_into(kernels, n, &mut out);
+    DMatrix::from_vec(dim, dim, out)
+}
+
+/// Amplitudes of one state in [`unitary_into`]'s blocks of columns.
+const BLOCK_AMPS: usize = 1 << 13;
+
+/// The unitary of `kernels` on `n` qubits into `out`, column-major (entry `(i, j)`
+/// at `j 2^n + i`). A block of `c` columns is simulated as one state on
+/// `n + log2 c` qubits: its index is `(j - j0) 2^n + i`, so the high bits number the
+/// column and start as the identity, and the kernels, which name only the low `n`
+/// qubits, act on every column at once (one pass per kernel, not one per column).
+/// Blocks run in parallel.
+///
+/// # Panics
+/// When a kernel names a qubit at or above `n`, or `out` is not `4^n` long.
+pub fn unitary_into(kernels: &[Kernel], n: usize, out: &mut [C64]) {
+    let dim = 1usize << n;
+    assert_eq!(out.len(), dim * dim, "a unitary on {n} qubits");
+    if let Some(q) = kernels
+        .iter()
+        .filter_map(Kernel::max_qubit)
+        .max()
+        .filter(|&q| q >= n)
+    {
+        panic!("a kernel names qubit {q}, but the unitary has {n} qubits");
+    }
     let tabled = Tabled::new(kernels);
-    let columns: Vec<Vec<C64>> = (0..dim)
-        .into_par_iter()
-        .map(|j| {
-            let mut s = StateVector::basis(n, j);
+    let per = (BLOCK_AMPS / dim).clamp(1, dim);
+    let extra = per.trailing_zeros() as usize;
+    out.par_chunks_mut(per * dim)
+        .enumerate()
+        .for_each(|(b, block)| {
+            let mut s = StateVector {
+                n: n + extra,
+                amps: crate::sim::state::zeroed_amps(per * dim),
+            };
+            for c in 0..per {
+                s.amps[c * dim + b * per + c] = C64::ONE;
+            }
             tabled.run(&mut s);
-            s.amps
-        })
-        .collect();
-    DMatrix::from_fn(dim, dim, |i, j| columns[j][i])
+            block.copy_from_slice(&s.amps);
+        });
 }
 
 #[cfg(test)]
@@ -274,6 +308,54 @@ mod tests {
                 .zip(&b.amps)
                 .fold(0.0f64, |m, (x, y)| m.max((x - y).norm()));
             assert!(d < 1e-12, "{d}");
+        }
+    }
+
+    /// The unitary built in blocks of columns against one simulation per basis
+    /// state with the untabled kernels, for 1 to 11 qubits (one column per block
+    /// from 7 qubits up to many per block below), every kind of kernel.
+    #[test]
+    fn blocks_of_columns_are_the_columns() {
+        let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(12);
+        for n in 1..=11usize {
+            let mut ks = Vec::new();
+            for _ in 0..12 {
+                let a = rng.gen_range(0..n);
+                let b = (a + rng.gen_range(1..n.max(2))) % n;
+                let m = rotation(rng.gen_range(-3.0..3.0), rng.gen_range(-3.0..3.0));
+                ks.push(match rng.gen_range(0..5) {
+                    0 => Kernel::One { q: a, m },
+                    1 if n > 1 => Kernel::Controlled {
+                        controls: vec![b],
+                        target: a,
+                        m,
+                    },
+                    2 if n > 1 => Kernel::Ising {
+                        axis: rng.gen_bool(0.5).then(|| rng.gen_range(-3.0..3.0)),
+                        terms: vec![(a, b, rng.gen_range(-2.0..2.0))],
+                    },
+                    3 => Kernel::Ms {
+                        theta: rng.gen_range(-3.0..3.0),
+                        phi: rng.gen_range(-3.0..3.0),
+                        qubits: (0..n).collect(),
+                    },
+                    _ => Kernel::Collective {
+                        m,
+                        qubits: (0..n).filter(|_| rng.gen_bool(0.7)).collect(),
+                    },
+                });
+            }
+            let u = unitary_of(&ks, n);
+            let columns = if n <= 8 { 1 << n } else { 16 };
+            for j in 0..columns {
+                let j = if n <= 8 { j } else { rng.gen_range(0..1 << n) };
+                let mut s = StateVector::basis(n, j);
+                run_kernels(&ks, &mut s);
+                let d = (0..1usize << n)
+                    .map(|i| (u[(i, j)] - s.amps[i]).norm())
+                    .fold(0.0f64, f64::max);
+                assert!(d < 1e-12, "n = {n}, column {j}: {d}");
+            }
         }
     }
 }

@@ -502,19 +502,14 @@ fn pattern_phases(a: &[C64], b: &[C64], rows: usize, mask: usize) -> PatternPhas
 }
 
 /// The unitary of `kernels` on `n` qubits as a column-major vector, allocated
-/// fallibly; columns are simulated in parallel.
+/// fallibly; blocks of columns are simulated in parallel.
 fn try_unitary(
     kernels: &[Kernel],
     n: usize,
 ) -> Result<Vec<C64>, std::collections::TryReserveError> {
     let dim = 1usize << n;
     let mut out = try_zeroed_amps(dim * dim)?;
-    let tabled = crate::sim::apply::Tabled::new(kernels);
-    out.par_chunks_mut(dim).enumerate().for_each(|(j, col)| {
-        let mut s = StateVector::basis(n, j);
-        tabled.run(&mut s);
-        col.copy_from_slice(&s.amps);
-    });
+    crate::sim::apply::unitary_into(kernels, n, &mut out);
     Ok(out)
 }
 

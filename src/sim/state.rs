@@ -59,15 +59,15 @@ unsafe impl Sync for SharedPtr {}
 
 #[inline(always)]
 fn butterfly(lo: &mut [C64], hi: &mut [C64], m: &Mat2) {
-    for (a, b) in lo.iter_mut().zip(hi.iter_mut()) {
-        let (x, y) = (*a, *b);
-        *a = m[0][0] * x + m[0][1] * y;
-        *b = m[1][0] * x + m[1][1] * y;
-    }
+    simd::mat2_butterfly(lo, hi, m);
 }
 
 /// Applies `m` to qubit `q` of a block whose length is a multiple of `2^(q+1)`.
 fn mat2_serial(block: &mut [C64], q: usize, m: &Mat2) {
+    if q == 0 {
+        simd::mat2_adjacent(block, m);
+        return;
+    }
     let half = 1usize << q;
     for pair in block.chunks_mut(2 * half) {
         let (lo, hi) = pair.split_at_mut(half);

@@ -1,6 +1,6 @@
 //! The vector kernels of the statevector passes: the real-arithmetic `Rx` butterfly
-//! (on pairs, on adjacent amplitudes, and two levels at once) and scaling by
-//! diagonal factors, each with an AVX2/FMA version chosen at run time and a scalar
+//! (on pairs, on adjacent amplitudes, and two levels at once), any 2x2 matrix (on
+//! pairs and on adjacent amplitudes) and scaling by diagonal factors, each with an AVX2/FMA version chosen at run time and a scalar
 //! version that computes the same values.
 //!
 //! Safety argument: every `unsafe fn` here is compiled with `target_feature(avx2,
@@ -11,14 +11,16 @@
 //! slice it came from; each `SAFETY` comment says why.
 //!
 //! One private module per kernel family, each stating its own safety argument:
-//! `rx` (the butterflies) and `scale` (diagonal factors).
+//! `rx` (the butterflies), `mat2` (any 2x2) and `scale` (diagonal factors).
 //!
 //! [`set_vector_kernels`] switches the vector versions off (for tests that must
 //! exercise the scalar ones on a machine with AVX2, and for comparisons).
 
+mod mat2;
 mod rx;
 mod scale;
 
+pub use mat2::{mat2_adjacent, mat2_butterfly};
 pub use rx::{rx4, rx_adjacent, rx_butterfly};
 pub use scale::scale;
 use std::sync::atomic::{AtomicBool, Ordering};
@@ -49,6 +51,7 @@ pub fn vector_kernels() -> bool {
 
 #[cfg(test)]
 mod tests {
+    use super::mat2::*;
     use super::rx::*;
     use super::scale::*;
     use num_complex::Complex64 as C64;
@@ -112,6 +115,26 @@ mod tests {
             for (fast, slow) in [&w, &x, &y, &z].into_iter().zip(&plain) {
                 assert!(close(fast, slow));
             }
+
+            let m = [
+                [C64::new(0.3, -0.2), C64::new(-0.7, 0.4)],
+                [C64::new(0.1, 0.9), C64::new(0.5, -0.6)],
+            ];
+            let apply = |a: C64, b: C64| (m[0][0] * a + m[0][1] * b, m[1][0] * a + m[1][1] * b);
+            let (mut lo, mut hi) = (sample(n, 0.15), sample(n, 0.75));
+            let (mut lo2, mut hi2) = (lo.clone(), hi.clone());
+            unsafe { mat2_butterfly_avx2(&mut lo, &mut hi, &m) };
+            for (a, b) in lo2.iter_mut().zip(hi2.iter_mut()) {
+                (*a, *b) = apply(*a, *b);
+            }
+            assert!(close(&lo, &lo2) && close(&hi, &hi2));
+            let mut t = sample(2 * n + 1, 0.35);
+            let mut t2 = t.clone();
+            unsafe { mat2_adjacent_avx2(&mut t, &m) };
+            for pair in t2.chunks_exact_mut(2) {
+                (pair[0], pair[1]) = apply(pair[0], pair[1]);
+            }
+            assert!(close(&t, &t2));
 
             let f = sample(n, 1.9);
             let (mut u, mut v) = (sample(n, 2.3), sample(n, 2.3));

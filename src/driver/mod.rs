@@ -177,7 +177,9 @@ impl Stage {
         match self {
             Stage::Compile => "compiling",
             Stage::Verify => "verifying the sequence against the circuit",
-            Stage::VerifyWindows => "verifying window by window (too large to compare whole)",
+            Stage::VerifyWindows => {
+                "verifying window by window (too large to compare whole), budgeting alongside"
+            }
             Stage::Budget => "budgeting",
         }
     }
@@ -299,6 +301,19 @@ pub fn compile_counted(
         drop_z,
         shared,
     )?;
+    // The budget and the crosstalk model each read the whole sequence: side by side.
+    let figures_of = |out: &Stage1| {
+        rayon::join(
+            || budget(&out.sequence, profile, c.n_qubits()),
+            || {
+                out.compensation
+                    .is_none()
+                    .then(|| stray_error_of(&out.sequence, profile))
+                    .flatten()
+            },
+        )
+    };
+    let mut budgeted = None;
     let verification = if cfg.verify {
         let whole = if hopeless {
             Err(CheckError::TooSlow {
@@ -360,7 +375,14 @@ pub fn compile_counted(
                 let (seq, sync) = applied
                     .as_ref()
                     .map_or((&out.sequence, &out.sync), |(s, y)| (s, y));
-                let b = check_windows_counted(cc, seq, sync, &cfg.check, counter)?;
+                // The sequence is final: its budget (sequential for the most part)
+                // is taken alongside the windows' proof.
+                let (b, figures) = rayon::join(
+                    || check_windows_counted(cc, seq, sync, &cfg.check, counter),
+                    || figures_of(&out),
+                );
+                budgeted = Some(figures);
+                let b = b?;
                 if !b.equivalent {
                     return Err(DriverError::NotEquivalent(b.detail));
                 }
@@ -371,17 +393,13 @@ pub fn compile_counted(
     } else {
         None
     };
-    on_stage(Stage::Budget);
-    // The budget and the crosstalk model each read the whole sequence: side by side.
-    let (mut budget, stray) = rayon::join(
-        || budget(&out.sequence, profile, c.n_qubits()),
-        || {
-            out.compensation
-                .is_none()
-                .then(|| stray_error_of(&out.sequence, profile))
-                .flatten()
-        },
-    );
+    let (mut budget, stray) = match budgeted {
+        Some(figures) => figures,
+        None => {
+            on_stage(Stage::Budget);
+            figures_of(&out)
+        }
+    };
     let crosstalk = match out.compensation {
         Some(comp) => {
             budget.crosstalk_error = Some(comp.compensated);

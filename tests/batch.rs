@@ -589,3 +589,49 @@ fn circuits_and_the_vendored_outside_circuits_compile_and_verify_in_one_batch_ru
     assert!(expected >= 50, "{expected} circuits");
     assert!(rows.iter().all(|r| r.contains(",verified,")), "{csv}");
 }
+
+/// A batch job's thread may wait for the shared memory pool; rayon's workers may not
+/// (they are refused, to avoid a deadlock). So the proof window by window must stay
+/// on the job's thread even when the budget is taken alongside it. Here the whole
+/// pool is held elsewhere when the compile reaches the windows, and given back a
+/// moment later: the compile waits and verifies (found when the budget first ran
+/// alongside the proof through rayon::join, which moved the proof onto a worker, and
+/// a batch under load reported "needs 1048576 bytes, more than the budget").
+#[test]
+fn the_window_proof_waits_for_a_busy_shared_pool() {
+    use std::sync::{mpsc, Arc};
+    use tutti::driver::{compile_with, CompileConfig, Stage};
+    use tutti::memory::{Pool, SharedPool};
+    let mib = 1usize << 20;
+    let pool = SharedPool(Arc::new(Pool::new(mib)));
+    let circuit = tutti::qasm::read_str(
+        "ghz_5.qasm",
+        &std::fs::read_to_string(Path::new(env!("CARGO_MANIFEST_DIR")).join("circuits/ghz_5.qasm"))
+            .unwrap(),
+    )
+    .circuit
+    .expect("reads");
+    let mut cfg = CompileConfig::default();
+    cfg.check.memory_budget = mib;
+    cfg.check.pool = Some(pool.clone());
+    let held = pool.0.reserve(mib).expect("the whole pool");
+    let (tx, rx) = mpsc::channel();
+    let profile = tutti::native::profile::Profile::demo();
+    std::thread::scope(|scope| {
+        let job = scope.spawn(|| {
+            compile_with(&circuit, &profile, &cfg, &mut |s| {
+                if s == Stage::VerifyWindows {
+                    let _ = tx.send(());
+                }
+            })
+        });
+        rx.recv().expect("the compile goes window by window");
+        std::thread::sleep(std::time::Duration::from_millis(300));
+        drop(held);
+        let out = job
+            .join()
+            .expect("no panic")
+            .expect("waited, then verified");
+        assert!(out.verification.is_some());
+    });
+}

@@ -376,11 +376,24 @@ pub fn compile_counted(
                     .as_ref()
                     .map_or((&out.sequence, &out.sync), |(s, y)| (s, y));
                 // The sequence is final: its budget (sequential for the most part)
-                // is taken alongside the windows' proof.
-                let (b, figures) = rayon::join(
-                    || check_windows_counted(cc, seq, sync, &cfg.check, counter),
-                    || figures_of(&out),
-                );
+                // is taken alongside the windows' proof, on a thread of its own. The
+                // proof stays on this thread: a batch job's thread is not one of
+                // rayon's workers, so it may wait for a shared memory pool (a worker
+                // would be refused instead).
+                let (b, figures) = std::thread::scope(|scope| {
+                    let side = std::thread::Builder::new()
+                        .name("budget".into())
+                        .spawn_scoped(scope, || figures_of(&out));
+                    let b = check_windows_counted(cc, seq, sync, &cfg.check, counter);
+                    let figures = match side {
+                        Ok(handle) => handle
+                            .join()
+                            .unwrap_or_else(|e| std::panic::resume_unwind(e)),
+                        // No thread to be had: one after the other.
+                        Err(_) => figures_of(&out),
+                    };
+                    (b, figures)
+                });
                 budgeted = Some(figures);
                 let b = b?;
                 if !b.equivalent {

@@ -464,7 +464,9 @@ impl<'a> Emitter<'a> {
                 // The synthesis on the active ions: lone pairs in matching layers (a
                 // level per distinct weight); other parts side by side, a Hadamard
                 // row per part in each slice (or, without solver time, each coupling
-                // on its own, no fewer).
+                // on its own, no fewer). This counts what `synthesize` makes of a
+                // coupling of several parts: a new construction there must keep to
+                // it, or this bound changes with it.
                 let count = if parts.len() > 1 && parts.iter().any(|(_, sub)| sub.n > 2) {
                     smallest_order(parts.len()) * slices
                 } else {

@@ -68,11 +68,7 @@ fn mat2_serial(block: &mut [C64], q: usize, m: &Mat2) {
         simd::mat2_adjacent(block, m);
         return;
     }
-    let half = 1usize << q;
-    for pair in block.chunks_mut(2 * half) {
-        let (lo, hi) = pair.split_at_mut(half);
-        butterfly(lo, hi, m);
-    }
+    simd::mat2_strided(block, 1usize << q, m);
 }
 
 /// The diagonal tables of one set of a collective rotation, indexed by the

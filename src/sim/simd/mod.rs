@@ -20,7 +20,7 @@ mod mat2;
 mod rx;
 mod scale;
 
-pub use mat2::{mat2_adjacent, mat2_butterfly};
+pub use mat2::{mat2_adjacent, mat2_butterfly, mat2_strided};
 pub use rx::{rx4, rx_adjacent, rx_butterfly};
 pub use scale::scale;
 use std::sync::atomic::{AtomicBool, Ordering};
@@ -135,6 +135,17 @@ mod tests {
                 (pair[0], pair[1]) = apply(pair[0], pair[1]);
             }
             assert!(close(&t, &t2));
+            for half in [1usize, 2, 4] {
+                let mut t = sample(2 * half * n, 0.45);
+                let mut t2 = t.clone();
+                unsafe { mat2_strided_avx2(&mut t, half, &m) };
+                for chunk in t2.chunks_exact_mut(2 * half) {
+                    for i in 0..half {
+                        (chunk[i], chunk[i + half]) = apply(chunk[i], chunk[i + half]);
+                    }
+                }
+                assert!(close(&t, &t2), "half {half}");
+            }
 
             let f = sample(n, 1.9);
             let (mut u, mut v) = (sample(n, 2.3), sample(n, 2.3));

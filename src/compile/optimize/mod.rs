@@ -316,10 +316,6 @@ pub fn compile_optimized(
     super::baseline::check_device(c, profile, cfg.target)?;
     let ions = profile.device.ions;
     let shared = emit::Shared::new(cfg.solver_time);
-    let mut seq = Sequence::new(ions, c.cregs.clone());
-    let mut sync = Vec::new();
-    let mut blocks = Vec::new();
-    let mut certificates = Vec::new();
     let n = c.n_qubits() as usize;
     let (final_qubits, final_start) = final_measured(c);
     // A range ending at or after `last_start` has only barriers between it and the
@@ -335,54 +331,54 @@ pub fn compile_optimized(
     // per thread in each batch, so that a long range does not leave threads idle;
     // few enough that the outputs waiting to join stay small.
     let batch = 8 * rayon::current_num_threads().max(1);
+    let make = |range: &Range| -> Result<RangeOut, CompileError> {
+        let mut emitter = emit::Emitter::new(profile, cfg.target, cfg.objective, &shared);
+        emitter.synth.time_limit = cfg.block_time;
+        if cfg.keep_certificates {
+            emitter.certificates = Some(Vec::new());
+        }
+        emitter.build_all = cfg.build_all;
+        let drop: &[bool] = match range {
+            Range::Gates(r) if cfg.drop_final_z && r.end >= last_start => &final_qubits,
+            _ => &[],
+        };
+        let (end, steps) = compile_range(c, range, cfg.target, n, &mut emitter, drop)?;
+        Ok(RangeOut {
+            end,
+            steps,
+            reports: emitter.reports,
+            certificates: emitter.certificates.unwrap_or_default(),
+        })
+    };
+    let mut joined = Joined {
+        seq: Sequence::new(ions, c.cregs.clone()),
+        sync: Vec::new(),
+        blocks: Vec::new(),
+        certificates: Vec::new(),
+        max_steps: cfg.max_steps,
+    };
+    // Each batch joins (a copy of its steps into the sequence, serial) while the
+    // next batch compiles, so that copy does not leave the other threads idle. A
+    // failure is reported in range order: a batch's joining ends before the next
+    // batch's outcomes are looked at.
+    let mut pending: Vec<Result<RangeOut, CompileError>> = Vec::new();
     for chunk in all.chunks(batch) {
         use rayon::prelude::*;
-        let made: Vec<Result<RangeOut, CompileError>> = chunk
-            .par_iter()
-            .map(|range| {
-                let mut emitter = emit::Emitter::new(profile, cfg.target, cfg.objective, &shared);
-                emitter.synth.time_limit = cfg.block_time;
-                if cfg.keep_certificates {
-                    emitter.certificates = Some(Vec::new());
-                }
-                emitter.build_all = cfg.build_all;
-                let drop: &[bool] = match range {
-                    Range::Gates(r) if cfg.drop_final_z && r.end >= last_start => &final_qubits,
-                    _ => &[],
-                };
-                let (end, steps) = compile_range(c, range, cfg.target, n, &mut emitter, drop)?;
-                Ok(RangeOut {
-                    end,
-                    steps,
-                    reports: emitter.reports,
-                    certificates: emitter.certificates.unwrap_or_default(),
-                })
-            })
-            .collect();
-        for out in made {
-            let out = out?;
-            if seq.steps.len() + out.steps.len() > cfg.max_steps {
-                return Err(CompileError::TooManySteps {
-                    limit: cfg.max_steps,
-                    instruction: out.end,
-                    bytes_per_step: BYTES_PER_STEP,
-                });
-            }
-            seq.steps
-                .try_reserve(out.steps.len())
-                .map_err(|_| CompileError::OutOfMemory {
-                    steps: seq.steps.len(),
-                    instruction: out.end,
-                })?;
-            seq.steps.extend(out.steps);
-            blocks.extend(out.reports);
-            certificates.extend(out.certificates);
-            sync.push(SyncPoint {
-                instrs: out.end,
-                steps: seq.steps.len(),
-            });
-        }
+        let (made, done) = rayon::join(
+            || chunk.par_iter().map(make).collect::<Vec<_>>(),
+            || joined.take(std::mem::take(&mut pending)),
+        );
+        done?;
+        pending = made;
     }
+    joined.take(pending)?;
+    let Joined {
+        seq,
+        sync,
+        blocks,
+        certificates,
+        ..
+    } = joined;
     Ok(Optimized {
         sequence: seq,
         sync,
@@ -390,6 +386,50 @@ pub fn compile_optimized(
         certificates,
         blocks,
     })
+}
+
+/// The ranges joined so far, in order.
+struct Joined {
+    seq: Sequence,
+    sync: Vec<SyncPoint>,
+    blocks: Vec<BlockReport>,
+    certificates: Vec<(
+        crate::compile::couple::Coupling,
+        std::sync::Arc<crate::compile::couple::Synthesis>,
+    )>,
+    max_steps: usize,
+}
+
+impl Joined {
+    /// Appends `made` in order; the first failure (of a range, or of the step limit
+    /// or memory) ends it.
+    fn take(&mut self, made: Vec<Result<RangeOut, CompileError>>) -> Result<(), CompileError> {
+        for out in made {
+            let out = out?;
+            if self.seq.steps.len() + out.steps.len() > self.max_steps {
+                return Err(CompileError::TooManySteps {
+                    limit: self.max_steps,
+                    instruction: out.end,
+                    bytes_per_step: BYTES_PER_STEP,
+                });
+            }
+            self.seq
+                .steps
+                .try_reserve(out.steps.len())
+                .map_err(|_| CompileError::OutOfMemory {
+                    steps: self.seq.steps.len(),
+                    instruction: out.end,
+                })?;
+            self.seq.steps.extend(out.steps);
+            self.blocks.extend(out.reports);
+            self.certificates.extend(out.certificates);
+            self.sync.push(SyncPoint {
+                instrs: out.end,
+                steps: self.seq.steps.len(),
+            });
+        }
+        Ok(())
+    }
 }
 
 /// What one range made: the instruction it ends before, its steps, and its block

@@ -386,9 +386,34 @@ fn order_pulses_any(pulses: Vec<Pulse>) -> Vec<Pulse> {
         })
         .collect();
     let row = |k: usize| &bits[k * words..(k + 1) * words];
+    let mut order: Vec<(usize, bool)> = Vec::with_capacity(pulses.len());
+    if words == 1 {
+        // Up to 64 ions (the usual case): the same choices, on one word each, with
+        // the pulses still to place as the first ORDER_WINDOW of them (in list
+        // order) and the rest after them.
+        let full = all[0];
+        let mut window: Vec<(u64, usize)> = Vec::with_capacity(ORDER_WINDOW);
+        let mut rest = bits.iter().copied().enumerate().map(|(k, b)| (b, k));
+        window.extend(rest.by_ref().take(ORDER_WINDOW));
+        let mut frame = 0u64;
+        while !window.is_empty() {
+            let mut best = (usize::MAX, 0usize, false);
+            for (at, &(b, _)) in window.iter().enumerate() {
+                let d = (frame ^ b).count_ones() as usize;
+                let (d, neg) = if n - d < d { (n - d, true) } else { (d, false) };
+                if d < best.0 {
+                    best = (d, at, neg);
+                }
+            }
+            let (b, k) = window.remove(best.1);
+            window.extend(rest.next());
+            frame = if best.2 { !b & full } else { b };
+            order.push((k, best.2));
+        }
+        return placed(pulses, order);
+    }
     let mut left: std::collections::VecDeque<usize> = (0..pulses.len()).collect();
     let mut frame = vec![0u64; words];
-    let mut order: Vec<(usize, bool)> = Vec::with_capacity(pulses.len());
     while !left.is_empty() {
         let mut best = (usize::MAX, 0usize, false);
         for (at, &k) in left.iter().take(ORDER_WINDOW).enumerate() {
@@ -408,6 +433,12 @@ fn order_pulses_any(pulses: Vec<Pulse>) -> Vec<Pulse> {
         }
         order.push((k, best.2));
     }
+    placed(pulses, order)
+}
+
+/// `pulses` in `order`, each negated where it says so.
+#[inline(always)]
+fn placed(pulses: Vec<Pulse>, order: Vec<(usize, bool)>) -> Vec<Pulse> {
     let mut slots: Vec<Option<Pulse>> = pulses.into_iter().map(Some).collect();
     order
         .into_iter()

@@ -4,13 +4,18 @@
 
 use super::*;
 
-/// Peephole rewrites (see the module header), repeated until nothing changes.
+/// Peephole rewrites (see the module header), repeated while a pass can enable
+/// another: merging leaves no two collective rotations side by side, and only a run
+/// of light shifts and frame changes rewritten to nothing can bring two together
+/// again (a merged rotation that vanishes leaves a frame change, which the rephasing
+/// after it joins to the runs around it).
 pub fn peephole(mut ops: Vec<NativeOp>, n: u32) -> Vec<NativeOp> {
     loop {
         let before = ops.len();
         ops = merge_collective(ops);
-        ops = rephase_z_runs(ops, n);
-        if ops.len() >= before {
+        let emptied;
+        (ops, emptied) = rephase_z_runs(ops, n);
+        if !emptied || ops.len() >= before {
             return ops;
         }
     }
@@ -70,14 +75,18 @@ pub(super) fn merge_collective(ops: Vec<NativeOp>) -> Vec<NativeOp> {
 /// Each run of light shifts and frame changes (they commute) becomes the frame
 /// change that the most ions share and a light shift on each other ion. Runs while
 /// an ion is hidden are left alone. Cost linear in the run, plus the ion count only
-/// when the chosen frame differs from the run's own.
-pub(super) fn rephase_z_runs(ops: Vec<NativeOp>, n: u32) -> Vec<NativeOp> {
+/// when the chosen frame differs from the run's own. Also says whether a run of
+/// several operations was rewritten to none.
+pub(super) fn rephase_z_runs(ops: Vec<NativeOp>, n: u32) -> (Vec<NativeOp>, bool) {
     let n = n as usize;
     let mut out = Vec::with_capacity(ops.len());
     let mut hidden = 0usize;
     let mut angle = vec![0.0f64; n];
     let mut seen = vec![false; n];
     let mut touched: Vec<usize> = Vec::new();
+    let mut values: Vec<f64> = Vec::new();
+    let mut rewritten: Vec<NativeOp> = Vec::new();
+    let mut emptied = false;
     let is_z =
         |op: &NativeOp| matches!(op, NativeOp::LightShift { .. } | NativeOp::VirtualZ { .. });
     let mut i = 0;
@@ -123,7 +132,8 @@ pub(super) fn rephase_z_runs(ops: Vec<NativeOp>, n: u32) -> Vec<NativeOp> {
         // Candidate frames: the run's own (untouched ions need nothing), or the total
         // of some touched ion; counted exactly.
         let same = |x: f64, y: f64| wrap(x - y).abs() <= 1e-12;
-        let mut values: Vec<f64> = vec![wrap(frame)];
+        values.clear();
+        values.push(wrap(frame));
         for &q in &touched {
             let v = wrap(angle[q] + frame);
             if !values.iter().any(|&x| same(x, v)) {
@@ -146,7 +156,7 @@ pub(super) fn rephase_z_runs(ops: Vec<NativeOp>, n: u32) -> Vec<NativeOp> {
                 best = c;
             }
         }
-        let mut rewritten = Vec::new();
+        rewritten.clear();
         if wrap(g).abs() > EPS {
             rewritten.push(NativeOp::VirtualZ { theta: wrap(g) });
         }
@@ -164,10 +174,11 @@ pub(super) fn rephase_z_runs(ops: Vec<NativeOp>, n: u32) -> Vec<NativeOp> {
             seen[q] = false;
         }
         if rewritten.len() <= run.len() {
-            out.extend(rewritten);
+            emptied |= rewritten.is_empty();
+            out.extend_from_slice(&rewritten);
         } else {
             out.extend_from_slice(run);
         }
     }
-    out
+    (out, emptied)
 }

@@ -62,6 +62,19 @@ fn cost_of(t: &PerOp, op: &NativeOp) -> f64 {
     }
 }
 
+/// `f`, or 0 where it has fallen below the normal numbers. A product of millions of
+/// fidelities goes subnormal, and every multiplication by a subnormal number costs
+/// the CPU a hundred cycles or more (on the 113k-gate stand-in the budget spent
+/// most of its time there); the figure made from it is `1 - f`, which is exactly 1
+/// in either case.
+pub(crate) fn above_subnormal(f: f64) -> f64 {
+    if f < f64::MIN_POSITIVE {
+        0.0
+    } else {
+        f
+    }
+}
+
 /// Computes the budget of `seq` on `profile`; `active` is the number of ions the
 /// source circuit uses (ions `0..active`).
 pub fn budget(seq: &Sequence, profile: &Profile, active: u32) -> Budget {
@@ -208,7 +221,7 @@ fn tally<'a>(
     for op in ops {
         let dt = cost_of(&profile.durations_us, op);
         let err = cost_of(&profile.errors, op);
-        fidelity *= (1.0 - err).max(0.0);
+        fidelity = above_subnormal(fidelity * (1.0 - err).max(0.0));
         match *op {
             NativeOp::Ms { theta, .. } | NativeOp::PairMs { theta, .. } => {
                 b.ms_pulses += 1;
@@ -356,6 +369,35 @@ mod tests {
     use super::*;
     use crate::native::Step;
     use rand::{Rng, SeedableRng};
+
+    /// The error of a long sequence is the product of its operations' fidelities,
+    /// kept exactly while that product is a normal number and 1 once it is not:
+    /// 1 - 0.5^k by its definition for k light shifts of error 0.5 (an invented
+    /// profile), with k = 1000 (product 2^-1000, normal: the error rounds to 1) and
+    /// k = 30 (the error 1 - 2^-30, exactly representable).
+    #[test]
+    fn a_long_product_of_fidelities_keeps_its_normal_values() {
+        assert_eq!(above_subnormal(f64::MIN_POSITIVE), f64::MIN_POSITIVE);
+        assert_eq!(above_subnormal(f64::MIN_POSITIVE / 2.0), 0.0);
+        assert_eq!(above_subnormal(0.75), 0.75);
+        let mut profile = Profile::demo();
+        profile.coherence.t1_us = f64::INFINITY;
+        profile.coherence.t2_us = f64::INFINITY;
+        profile.errors.light_shift = Cost {
+            fixed: 0.5,
+            per_rad: 0.0,
+        };
+        for (k, want) in [(30, 1.0 - 0.5f64.powi(30)), (1000, 1.0), (1100, 1.0)] {
+            let ops: Vec<NativeOp> = (0..k)
+                .map(|_| NativeOp::LightShift { ion: 0, theta: 1.0 })
+                .collect();
+            assert_eq!(
+                figures(&ops, 1, &profile).est_error,
+                want,
+                "{k} light shifts"
+            );
+        }
+    }
 
     /// Depth and busy time by their definitions, ion by ion (the bookkeeping of
     /// [`PerIon`] books whole-chain pulses once instead).

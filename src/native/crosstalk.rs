@@ -198,7 +198,7 @@ impl Fidelity {
     fn add(&mut self, r: &DVector<f64>) {
         // cos(0) is exactly 1: ions the residual misses are skipped.
         for &x in r.iter().filter(|x| **x != 0.0) {
-            self.0 *= cos_squared_half(x);
+            self.0 = crate::native::budget::above_subnormal(self.0 * cos_squared_half(x));
         }
     }
     fn error(&self) -> f64 {
@@ -226,7 +226,7 @@ pub fn stray_error(seq: &Sequence, profile: &Profile) -> f64 {
                 f.0
             },
         )
-        .product();
+        .reduce(|| 1.0, |a, b| crate::native::budget::above_subnormal(a * b));
     Fidelity(kept).error()
 }
 

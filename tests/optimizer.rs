@@ -641,3 +641,68 @@ fn skipping_by_the_floors_loses_nothing_on_wide_blocks() {
     }
     assert!(hides > 0, "hiding won no block");
 }
+
+/// The step limit stops the compile at the first range whose steps would pass it,
+/// in range order, although each batch of ranges joins while the next one is
+/// compiled: for limits at, just below and just above several sync points of the
+/// full output (ranges of 10 instructions, so dozens of ranges in many batches),
+/// the error names the instruction where that range ends, and a limit of the whole
+/// output's size compiles. The full output's own sync points are the reference.
+#[test]
+fn the_step_limit_stops_at_the_first_range_past_it() {
+    use generated::{generated_circuit, Kind};
+    use tutti::compile::CompileError;
+    let profile = Profile::demo();
+    let c = generated_circuit(6, 1200, 0x57, &[Kind::Rz, Kind::H, Kind::Cx, Kind::Cu1]);
+    let cfg = OptConfig {
+        max_range_instrs: 10,
+        ..OptConfig::default()
+    };
+    let full = compile_optimized(&c, &profile, &cfg).unwrap();
+    let sync = &full.sync;
+    assert!(sync.len() > 60, "{} ranges", sync.len());
+    let total = full.sequence.steps.len();
+    let exact = compile_optimized(
+        &c,
+        &profile,
+        &OptConfig {
+            max_steps: total,
+            ..cfg
+        },
+    )
+    .unwrap();
+    assert_eq!(exact.sequence, full.sequence);
+    let mut checked = 0;
+    for k in [0, 1, 17, 18, 40, sync.len() / 2, sync.len() - 2] {
+        for limit in [
+            sync[k].steps.saturating_sub(1),
+            sync[k].steps,
+            sync[k].steps + 1,
+        ] {
+            // The first range whose end passes the limit.
+            let Some(first) = sync.iter().find(|s| s.steps > limit) else {
+                continue;
+            };
+            match compile_optimized(
+                &c,
+                &profile,
+                &OptConfig {
+                    max_steps: limit,
+                    ..cfg
+                },
+            ) {
+                Err(CompileError::TooManySteps {
+                    limit: l,
+                    instruction,
+                    ..
+                }) => {
+                    assert_eq!(l, limit);
+                    assert_eq!(instruction, first.instrs, "limit {limit}");
+                    checked += 1;
+                }
+                other => panic!("limit {limit}: {:?}", other.map(|o| o.sequence.steps.len())),
+            }
+        }
+    }
+    assert!(checked >= 18, "{checked} limits checked");
+}

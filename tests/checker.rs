@@ -219,7 +219,7 @@ fn echo_sequence(n: usize, a: usize, b: usize, theta: f64) -> Sequence {
         }
     }
     let mut s = Sequence::new(n as u32, vec![]);
-    for row in &h {
+    for row in h.iter() {
         let flipped: Vec<u32> = (0..n)
             .filter(|&i| row[column[i]] < 0)
             .map(|i| i as u32)

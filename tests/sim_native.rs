@@ -343,7 +343,7 @@ fn echo(n: usize, a: usize, b: usize, theta: f64) -> Vec<NativeOp> {
         }
     }
     let mut ops = Vec::new();
-    for row in &h {
+    for row in h.iter() {
         let flipped: Vec<usize> = (0..n).filter(|&i| row[column[i]] < 0).collect();
         ops.extend(flipped.iter().map(|&i| NativeOp::LightShift {
             ion: i as u32,

@@ -162,7 +162,23 @@ pub fn smallest_order(k: usize) -> usize {
         .expect("orders 2^j exist")
 }
 
-/// The smallest constructible Hadamard matrix of order at least `k`.
-pub fn smallest_hadamard(k: usize) -> Hadamard {
-    hadamard_of_order(smallest_order(k)).expect("the order has a construction")
+/// The smallest constructible Hadamard matrix of order at least `k`. Each order is
+/// built once per process and shared (a block's echo asks for one, and a long
+/// circuit has tens of thousands of blocks).
+pub fn smallest_hadamard(k: usize) -> std::sync::Arc<Hadamard> {
+    use std::collections::HashMap;
+    use std::sync::{Arc, Mutex, OnceLock};
+    static BUILT: OnceLock<Mutex<HashMap<usize, Arc<Hadamard>>>> = OnceLock::new();
+    let m = smallest_order(k);
+    let built = BUILT.get_or_init(Default::default);
+    if let Some(h) = built.lock().expect("hadamard cache").get(&m) {
+        return Arc::clone(h);
+    }
+    let h = Arc::new(hadamard_of_order(m).expect("the order has a construction"));
+    built
+        .lock()
+        .expect("hadamard cache")
+        .entry(m)
+        .or_insert(h)
+        .clone()
 }

@@ -27,7 +27,7 @@ pub fn hadamard_each(c: &Coupling) -> Synthesis {
                     next += 1;
                 }
             }
-            for row in &h {
+            for row in h.iter() {
                 let signs: Vec<i8> = (0..n)
                     .map(|k| {
                         let s = row[col[k]];
@@ -197,7 +197,7 @@ pub fn pad_idle(s: &Synthesis, active: &[usize], n: usize) -> Vec<Pulse> {
     let m = h.len();
     let mut out = Vec::with_capacity(s.pulses.len() * m);
     for p in &s.pulses {
-        for row in &h {
+        for row in h.iter() {
             let signs = (0..n)
                 .map(|ion| match is_active[ion] {
                     usize::MAX => row[other_col[ion]],

@@ -519,7 +519,7 @@ pub fn side_by_side(n: usize, parts: &[(Vec<usize>, Synthesis)]) -> Synthesis {
                 at[k] += 1;
             }
         }
-        for row in &h {
+        for row in h.iter() {
             let mut signs = vec![1i8; n];
             for (k, (ions, _)) in parts.iter().enumerate() {
                 for (x, &ion) in ions.iter().enumerate() {
@@ -567,7 +567,7 @@ impl SideBySide {
             let spare = total - t;
             if spare > 1e-15 * total.max(1.0) {
                 let h = smallest_hadamard(ions.len());
-                for row in &h {
+                for row in h.iter() {
                     t += spare / h.len() as f64;
                     part.push((t, row[..ions.len()].to_vec()));
                 }

@@ -76,7 +76,9 @@ fn three_ions_reach_the_closed_form_optimum() {
                 let got: f64 = s
                     .pulses
                     .iter()
-                    .filter(|p| p.signs == pat || p.signs.iter().zip(pat).all(|(x, y)| *x == -*y))
+                    .filter(|p| {
+                        p.signs[..] == pat[..] || p.signs.iter().zip(pat).all(|(x, y)| *x == -*y)
+                    })
                     .map(|p| p.weight)
                     .sum();
                 assert!((got - t).abs() < 1e-9, "{pat:?}: {got} vs {t}");

@@ -28,7 +28,7 @@ pub fn hadamard_each(c: &Coupling) -> Synthesis {
                 }
             }
             for row in h.iter() {
-                let signs: Vec<i8> = (0..n)
+                let signs: Signs = (0..n)
                     .map(|k| {
                         let s = row[col[k]];
                         if k == j && w < 0.0 {

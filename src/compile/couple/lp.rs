@@ -187,7 +187,7 @@ pub(super) fn purify(c: &Coupling, cols: &[Vec<i8>], x: &[f64]) -> Option<Vec<Pu
             .zip(exact.iter())
             .filter(|(_, &t)| t > 0.0)
             .map(|(&k, &t)| Pulse {
-                signs: cols[k].clone(),
+                signs: Signs::from_slice(&cols[k]),
                 weight: t,
             })
             .collect(),

@@ -100,10 +100,15 @@ impl Coupling {
     }
 }
 
+/// The signs of one pulse, one per ion: held inline up to 64 ions (a block's echo
+/// makes tens of pulses, and a long circuit millions, each of which was an
+/// allocation of its own).
+pub type Signs = smallvec::SmallVec<[i8; 64]>;
+
 /// One pulse of a synthesis: `exp(-i weight sum_{i<j} s_i s_j X_i X_j)`.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Pulse {
-    pub signs: Vec<i8>,
+    pub signs: Signs,
     pub weight: f64,
 }
 
@@ -289,7 +294,7 @@ pub fn synthesize(c: &Coupling, budget: Budget) -> Synthesis {
         let w = c.w[0];
         return Synthesis {
             pulses: vec![Pulse {
-                signs: vec![1, if w < 0.0 { -1 } else { 1 }],
+                signs: smallvec::smallvec![1, if w < 0.0 { -1 } else { 1 }],
                 weight: w.abs(),
             }],
             weight: w.abs(),
@@ -520,7 +525,7 @@ pub fn side_by_side(n: usize, parts: &[(Vec<usize>, Synthesis)]) -> Synthesis {
             }
         }
         for row in h.iter() {
-            let mut signs = vec![1i8; n];
+            let mut signs = Signs::from_elem(1, n);
             for (k, (ions, _)) in parts.iter().enumerate() {
                 for (x, &ion) in ions.iter().enumerate() {
                     signs[ion] = row[k] * plan.steps[k][at[k]].1[x];
@@ -545,14 +550,14 @@ pub fn side_by_side_pulses(parts: &[(Vec<usize>, Synthesis)]) -> usize {
 /// `[0, total]` (end time, signs on its ions), padded to `total` with Hadamard rows,
 /// and the times where any part changes pulse.
 struct SideBySide {
-    steps: Vec<Vec<(f64, Vec<i8>)>>,
+    steps: Vec<Vec<(f64, Signs)>>,
     cuts: Vec<f64>,
 }
 
 impl SideBySide {
     fn new(parts: &[(Vec<usize>, Synthesis)]) -> SideBySide {
         let total = parts.iter().map(|(_, s)| s.weight).fold(0.0f64, f64::max);
-        let mut steps: Vec<Vec<(f64, Vec<i8>)>> = Vec::with_capacity(parts.len());
+        let mut steps: Vec<Vec<(f64, Signs)>> = Vec::with_capacity(parts.len());
         let mut cuts: Vec<f64> = Vec::new();
         for (ions, s) in parts {
             let mut t = 0.0;
@@ -569,7 +574,7 @@ impl SideBySide {
                 let h = smallest_hadamard(ions.len());
                 for row in h.iter() {
                     t += spare / h.len() as f64;
-                    part.push((t, row[..ions.len()].to_vec()));
+                    part.push((t, Signs::from_slice(&row[..ions.len()])));
                 }
             }
             if let Some(last) = part.last_mut() {

@@ -604,7 +604,7 @@ impl<'a> Emitter<'a> {
                         .pulses
                         .iter()
                         .map(|p| {
-                            let mut signs = vec![1i8; n];
+                            let mut signs = crate::compile::couple::Signs::from_elem(1, n);
                             for (k, &q) in active.iter().enumerate() {
                                 signs[q as usize] = p.signs[k];
                             }

@@ -80,17 +80,24 @@ pub fn qubits(op: &Canon) -> smallvec::SmallVec<[u32; 2]> {
 
 pub use crate::circuit::mat2::mul;
 
+/// `|z| <= ZERO`, compared squared (`norm` is a call to `hypot`, guarded against
+/// overflow that entries of a unitary cannot reach; these tests run on every
+/// single-qubit unitary of a circuit).
+fn negligible(z: num_complex::Complex64) -> bool {
+    z.norm_sqr() <= ZERO * ZERO
+}
+
 pub fn is_diagonal(m: &Mat2) -> bool {
-    m[0][1].norm() <= ZERO && m[1][0].norm() <= ZERO
+    negligible(m[0][1]) && negligible(m[1][0])
 }
 
 pub fn is_antidiagonal(m: &Mat2) -> bool {
-    m[0][0].norm() <= ZERO && m[1][1].norm() <= ZERO
+    negligible(m[0][0]) && negligible(m[1][1])
 }
 
 /// A multiple of the identity (a global phase), within [`ZERO`].
 pub fn is_identity(m: &Mat2) -> bool {
-    is_diagonal(m) && (m[0][0] - m[1][1]).norm() <= ZERO
+    is_diagonal(m) && negligible(m[0][0] - m[1][1])
 }
 
 /// Pass: each run of single-qubit unitaries on a wire becomes one, and a product

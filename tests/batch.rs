@@ -635,3 +635,58 @@ fn the_window_proof_waits_for_a_busy_shared_pool() {
         assert!(out.verification.is_some());
     });
 }
+
+/// The other side of the test above: a window proof started on a rayon worker,
+/// which may not wait for the shared pool, is refused while the pool is taken, and
+/// the refusal says so (busy, how much it asked for and how much was free), not
+/// that a comparison of 0 qubits was too large for the budget.
+#[test]
+fn a_refusal_by_a_busy_pool_says_it_was_busy() {
+    use std::sync::Arc;
+    use tutti::driver::{compile, CompileConfig};
+    use tutti::memory::{Pool, SharedPool};
+    use tutti::sim::CheckError;
+    let mib = 1usize << 20;
+    let pool = SharedPool(Arc::new(Pool::new(mib)));
+    let circuit = tutti::qasm::read_str(
+        "ghz_5.qasm",
+        &std::fs::read_to_string(Path::new(env!("CARGO_MANIFEST_DIR")).join("circuits/ghz_5.qasm"))
+            .unwrap(),
+    )
+    .circuit
+    .expect("reads");
+    let mut cfg = CompileConfig::default();
+    cfg.check.memory_budget = mib;
+    cfg.check.pool = Some(pool.clone());
+    let profile = tutti::native::profile::Profile::demo();
+    let held = pool.0.reserve(mib - 4096).expect("most of the pool");
+    let workers = rayon::ThreadPoolBuilder::new()
+        .num_threads(2)
+        .build()
+        .unwrap();
+    let Err(err) = workers.install(|| compile(&circuit, &profile, &cfg)) else {
+        panic!("verified although the pool was taken");
+    };
+    let text = err.to_string();
+    let busy =
+        std::iter::successors(Some(&err as &dyn std::error::Error), |e| e.source()).any(|e| {
+            e.downcast_ref::<CheckError>().is_some_and(|c| {
+                matches!(
+                    c.refusal(),
+                    CheckError::Busy { free: 4096, total, .. } if *total == mib
+                )
+            })
+        });
+    assert!(busy, "{text}");
+    assert!(
+        text.contains("was busy") && text.contains("4096 of 1048576 were free"),
+        "{text}"
+    );
+    assert!(!text.contains("0 qubits"), "{text}");
+    drop(held);
+    // Given back, the same compile on the same workers verifies.
+    let out = workers
+        .install(|| compile(&circuit, &profile, &cfg))
+        .expect("verified once the pool is free");
+    assert!(out.verification.is_some());
+}

@@ -215,6 +215,14 @@ pub enum CheckError {
         needed: usize,
         budget: usize,
     },
+    /// The memory that several jobs share was taken by others when a comparison
+    /// running on a worker thread (which may not wait for it) asked for its part.
+    #[error("the memory shared by the jobs running at once was busy: this check asked for {needed} bytes when {free} of {total} were free; run fewer jobs at once, or raise --memory (MiB) if the machine has it")]
+    Busy {
+        needed: usize,
+        free: usize,
+        total: usize,
+    },
     #[error("{qubits} qubits with {operations} operations need about {work:.1e} amplitude updates, more than the budget of {budget:.1e}")]
     TooSlow {
         qubits: usize,
@@ -242,7 +250,9 @@ impl CheckError {
     /// smaller comparisons (window by window) may still decide it.
     pub fn beyond_budget(&self) -> bool {
         match self {
-            CheckError::TooLarge { .. } | CheckError::TooSlow { .. } => true,
+            CheckError::TooLarge { .. } | CheckError::TooSlow { .. } | CheckError::Busy { .. } => {
+                true
+            }
             CheckError::Undecided { refusal, .. } => refusal.beyond_budget(),
             _ => false,
         }

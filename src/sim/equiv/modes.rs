@@ -284,7 +284,11 @@ pub(super) fn compare(
     let _grant = match &cfg.pool {
         Some(pool) => Some(pool.0.reserve(needed).map_err(|r| match r {
             crate::memory::Refusal::Exceeds { total } => too_large(n, needed, total),
-            crate::memory::Refusal::Busy { free } => too_large(n, needed, free),
+            crate::memory::Refusal::Busy { free } => CheckError::Busy {
+                needed,
+                free,
+                total: pool.0.total(),
+            },
         })?),
         None => None,
     };

@@ -244,14 +244,18 @@ fn window_config(
             let share = WINDOW_MEMORY
                 .min(cfg.memory_budget)
                 .min(pool.0.total() / threads);
-            let grant = pool
-                .0
-                .reserve(share * threads)
-                .map_err(|_| CheckError::TooLarge {
+            let grant = pool.0.reserve(share * threads).map_err(|r| match r {
+                crate::memory::Refusal::Busy { free } => CheckError::Busy {
+                    needed: share * threads,
+                    free,
+                    total: pool.0.total(),
+                },
+                crate::memory::Refusal::Exceeds { total } => CheckError::TooLarge {
                     qubits: 0,
                     needed: share * threads,
-                    budget: pool.0.total(),
-                })?;
+                    budget: total,
+                },
+            })?;
             let inner = CheckConfig {
                 pool: None,
                 memory_budget: share,

@@ -554,6 +554,13 @@ fn skipping_candidates_by_their_bounds_loses_nothing() {
                 "{} {target:?}: {a} us pruned, {b} us with every candidate",
                 path.display()
             );
+            // And directly: no built candidate fell below a bound it carried.
+            assert_eq!(
+                full.bound_violations,
+                0,
+                "{} {target:?}: candidates below their bounds",
+                path.display()
+            );
             skipped += pruned
                 .blocks
                 .iter()
@@ -568,8 +575,9 @@ fn skipping_candidates_by_their_bounds_loses_nothing() {
 /// have blocks of many parts): generated circuits on 50 qubits, the kind the
 /// compile benchmark times, for a 50-ion variant of the demo profile and one where
 /// hiding is cheap enough to win blocks (invented example numbers), both targets.
-/// Pruned and build-all compiles choose blocks of the same duration, and most
-/// blocks skip the coupling program.
+/// Pruned and build-all compiles choose blocks of the same duration, no built
+/// candidate has a key below a bound it carried, and most blocks skip the coupling
+/// program.
 #[test]
 fn skipping_by_the_floors_loses_nothing_on_wide_blocks() {
     use generated::{generated_circuit, Kind};
@@ -619,6 +627,12 @@ fn skipping_by_the_floors_loses_nothing_on_wide_blocks() {
         assert!(
             (a - b).abs() <= 1e-9 * b,
             "{target:?}: {a} us pruned, {b} us with every candidate"
+        );
+        // Directly: every candidate built had a key at or above each bound it was
+        // given (its own, and its kind's from the floors).
+        assert_eq!(
+            full.bound_violations, 0,
+            "{target:?}: candidates below their bounds"
         );
         hides += pruned
             .sequence

@@ -124,6 +124,10 @@ pub struct Optimized {
     pub blocks: Vec<BlockReport>,
     /// Time spent in the coupling program's solver.
     pub solver_time: std::time::Duration,
+    /// With [`OptConfig::build_all`]: built candidates whose key was below the lower
+    /// bound they carried (the one they are skipped by otherwise). Zero when the
+    /// bounds are sound.
+    pub bound_violations: usize,
     /// Each block's coupling on its own ions and the synthesis offered for it (sign
     /// vectors and weights), when asked for.
     pub certificates: Vec<(
@@ -383,6 +387,7 @@ pub fn compile_optimized(
         sequence: seq,
         sync,
         solver_time: shared.solver_spent(),
+        bound_violations: shared.bound_violations(),
         certificates,
         blocks,
     })

@@ -71,6 +71,10 @@ pub struct Shared {
     /// cache does not know are made by the constructions alone.
     solver_left_ns: AtomicU64,
     solver_spent_ns: AtomicU64,
+    /// With every candidate built ([`Emitter::build_all`]): how many built
+    /// candidates had a key below the lower bound they were given (a bound that
+    /// would have skipped a candidate able to win). Zero when the bounds hold.
+    bound_violations: std::sync::atomic::AtomicUsize,
 }
 
 impl Shared {
@@ -79,7 +83,14 @@ impl Shared {
             cache: std::sync::Mutex::new(FxHashMap::default()),
             solver_left_ns: AtomicU64::new(solver_time.as_nanos().min(u64::MAX as u128) as u64),
             solver_spent_ns: AtomicU64::new(0),
+            bound_violations: std::sync::atomic::AtomicUsize::new(0),
         }
+    }
+
+    /// Built candidates whose key fell below their lower bound (counted only when
+    /// every candidate is built).
+    pub fn bound_violations(&self) -> usize {
+        self.bound_violations.load(Ordering::Relaxed)
     }
 
     /// Solver time spent so far.
@@ -495,7 +506,9 @@ impl<'a> Emitter<'a> {
             1,
         );
         let mut distinct = 1;
-        if !forced && (could_win(&pre) || could_win(quiet_pre.as_slice())) {
+        // Building everything, the floors are still computed: each candidate then
+        // carries its floor's bound too, and `choose` counts any it breaks.
+        if self.build_all || (!forced && (could_win(&pre) || could_win(quiet_pre.as_slice()))) {
             let (f, most) = floor_of_parts(active.len(), &parts);
             let slices = if parts.len() > 1 {
                 // A part of two ions is one pulse, ending at its weight: distinct
@@ -542,8 +555,19 @@ impl<'a> Emitter<'a> {
         }
         let mut candidates: Vec<Candidate> = Vec::new();
         let total: f64 = best.pulses.iter().map(|p| 2.0 * p.weight).sum();
+        // Building everything, each candidate also carries the bound its kind got
+        // from the floors (`pre`, `quiet_pre`), so `choose` checks both bounds.
+        let all = self.build_all;
+        let floor_padded = pre.first().copied();
+        let floor_side = pre.get(1).copied().filter(|_| parts.len() > 1);
+        let floor_hiding = pre.last().copied().filter(|_| hiding);
+        let floor_quiet = quiet_pre;
         candidates.push(Candidate {
-            lower: self.pulse_bound(best.pulses.len() * m_pad, total, m_pad - 1),
+            lower: with_floor(
+                all,
+                self.pulse_bound(best.pulses.len() * m_pad, total, m_pad - 1),
+                floor_padded,
+            ),
             method: best.method,
             weight: best.weight,
             build: Box::new(|| Some(Made::Pulses(pad_idle(&best, &active_idx, n)))),
@@ -552,7 +576,11 @@ impl<'a> Emitter<'a> {
         let quiet_candidate = quiet_others.map(|others| {
             let m = smallest_order(others + 2);
             Candidate {
-                lower: self.pulse_bound(best.pulses.len() * m, total, m - 1),
+                lower: with_floor(
+                    all,
+                    self.pulse_bound(best.pulses.len() * m, total, m - 1),
+                    floor_quiet,
+                ),
                 method: best.method,
                 weight: best.weight,
                 build: Box::new(|| Some(Made::Quiet(quiet_groups(&best, &active_idx, quiet)))),
@@ -582,7 +610,11 @@ impl<'a> Emitter<'a> {
             let m = smallest_order(on_device.len());
             let device = &device;
             candidates.push(Candidate {
-                lower: self.pulse_bound(side_by_side_pulses(&on_device), 2.0 * costliest.0, m - 1),
+                lower: with_floor(
+                    all,
+                    self.pulse_bound(side_by_side_pulses(&on_device), 2.0 * costliest.0, m - 1),
+                    floor_side,
+                ),
                 method: costliest.1,
                 weight: costliest.0,
                 build: Box::new(move || {
@@ -596,7 +628,11 @@ impl<'a> Emitter<'a> {
         if hiding {
             let (best, active) = (&best, &active);
             candidates.push(Candidate {
-                lower: self.hiding_bound(idle, total, best.pulses.len(), distinct - 1),
+                lower: with_floor(
+                    all,
+                    self.hiding_bound(idle, total, best.pulses.len(), distinct - 1),
+                    floor_hiding,
+                ),
                 method: best.method,
                 weight: best.weight,
                 build: Box::new(move || {
@@ -830,11 +866,15 @@ impl<'a> Emitter<'a> {
                 }
             };
             let key = self.key(&ops);
+            let broken = key.0 < c.lower.0 - 1e-9 * c.lower.0.abs().max(1.0);
             debug_assert!(
-                key.0 >= c.lower.0 - 1e-9 * c.lower.0.abs().max(1.0),
+                !broken,
                 "a candidate's bound {:?} exceeds its key {key:?}",
                 c.lower
             );
+            if broken && self.build_all {
+                self.shared.bound_violations.fetch_add(1, Ordering::Relaxed);
+            }
             let better = match &best {
                 None => true,
                 Some((k, _)) => {
@@ -847,6 +887,15 @@ impl<'a> Emitter<'a> {
             }
         }
         best
+    }
+}
+
+/// `own`, or the floor's bound where that is higher and every candidate is built
+/// (only then: the floors' bounds decide before building, and are checked here).
+fn with_floor(all: bool, own: (f64, f64), floor: Option<(f64, f64)>) -> (f64, f64) {
+    match floor {
+        Some(f) if all && f.0 > own.0 => f,
+        _ => own,
     }
 }
 

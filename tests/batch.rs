@@ -597,13 +597,18 @@ fn circuits_and_the_vendored_outside_circuits_compile_and_verify_in_one_batch_ru
 /// moment later: the compile waits and verifies (found when the budget first ran
 /// alongside the proof through rayon::join, which moved the proof onto a worker, and
 /// a batch under load reported "needs 1048576 bytes, more than the budget").
-#[test]
-fn the_window_proof_waits_for_a_busy_shared_pool() {
-    use std::sync::{mpsc, Arc};
-    use tutti::driver::{compile_with, CompileConfig, Stage};
+/// ghz_5 (compiled window by window under a budget of `bytes`) and a compile
+/// configuration whose checks share one pool of that size.
+fn ghz_5_with_a_pool_of(
+    bytes: usize,
+) -> (
+    tutti::circuit::Circuit,
+    tutti::driver::CompileConfig,
+    tutti::memory::SharedPool,
+) {
+    use std::sync::Arc;
     use tutti::memory::{Pool, SharedPool};
-    let mib = 1usize << 20;
-    let pool = SharedPool(Arc::new(Pool::new(mib)));
+    let pool = SharedPool(Arc::new(Pool::new(bytes)));
     let circuit = tutti::qasm::read_str(
         "ghz_5.qasm",
         &std::fs::read_to_string(Path::new(env!("CARGO_MANIFEST_DIR")).join("circuits/ghz_5.qasm"))
@@ -611,9 +616,18 @@ fn the_window_proof_waits_for_a_busy_shared_pool() {
     )
     .circuit
     .expect("reads");
-    let mut cfg = CompileConfig::default();
-    cfg.check.memory_budget = mib;
+    let mut cfg = tutti::driver::CompileConfig::default();
+    cfg.check.memory_budget = bytes;
     cfg.check.pool = Some(pool.clone());
+    (circuit, cfg, pool)
+}
+
+#[test]
+fn the_window_proof_waits_for_a_busy_shared_pool() {
+    use std::sync::mpsc;
+    use tutti::driver::{compile_with, Stage};
+    let mib = 1usize << 20;
+    let (circuit, cfg, pool) = ghz_5_with_a_pool_of(mib);
     let held = pool.0.reserve(mib).expect("the whole pool");
     let (tx, rx) = mpsc::channel();
     let profile = tutti::native::profile::Profile::demo();
@@ -642,22 +656,10 @@ fn the_window_proof_waits_for_a_busy_shared_pool() {
 /// that a comparison of 0 qubits was too large for the budget.
 #[test]
 fn a_refusal_by_a_busy_pool_says_it_was_busy() {
-    use std::sync::Arc;
-    use tutti::driver::{compile, CompileConfig};
-    use tutti::memory::{Pool, SharedPool};
+    use tutti::driver::compile;
     use tutti::sim::CheckError;
     let mib = 1usize << 20;
-    let pool = SharedPool(Arc::new(Pool::new(mib)));
-    let circuit = tutti::qasm::read_str(
-        "ghz_5.qasm",
-        &std::fs::read_to_string(Path::new(env!("CARGO_MANIFEST_DIR")).join("circuits/ghz_5.qasm"))
-            .unwrap(),
-    )
-    .circuit
-    .expect("reads");
-    let mut cfg = CompileConfig::default();
-    cfg.check.memory_budget = mib;
-    cfg.check.pool = Some(pool.clone());
+    let (circuit, cfg, pool) = ghz_5_with_a_pool_of(mib);
     let profile = tutti::native::profile::Profile::demo();
     let held = pool.0.reserve(mib - 4096).expect("most of the pool");
     let workers = rayon::ThreadPoolBuilder::new()

@@ -393,15 +393,18 @@ pub fn compile_optimized(
     })
 }
 
+/// Blocks' couplings with the syntheses offered for them.
+type Certificates = Vec<(
+    crate::compile::couple::Coupling,
+    std::sync::Arc<crate::compile::couple::Synthesis>,
+)>;
+
 /// The ranges joined so far, in order.
 struct Joined {
     seq: Sequence,
     sync: Vec<SyncPoint>,
     blocks: Vec<BlockReport>,
-    certificates: Vec<(
-        crate::compile::couple::Coupling,
-        std::sync::Arc<crate::compile::couple::Synthesis>,
-    )>,
+    certificates: Certificates,
     max_steps: usize,
 }
 
@@ -443,10 +446,7 @@ struct RangeOut {
     end: usize,
     steps: Vec<Step>,
     reports: Vec<BlockReport>,
-    certificates: Vec<(
-        crate::compile::couple::Coupling,
-        std::sync::Arc<crate::compile::couple::Synthesis>,
-    )>,
+    certificates: Certificates,
 }
 
 /// The steps of one range, and the instruction it ends before.

@@ -333,7 +333,8 @@ pub fn compile_optimized(
     // the synthesis cache and the solver time) and join in order: the output is
     // the same as one after the other, unless the solver time runs out. Several
     // per thread in each batch, so that a long range does not leave threads idle;
-    // few enough that the outputs waiting to join stay small.
+    // few enough that the outputs waiting to join (two batches' at most: one
+    // joining, one compiling) stay small.
     let batch = 8 * rayon::current_num_threads().max(1);
     let make = |range: &Range| -> Result<RangeOut, CompileError> {
         let mut emitter = emit::Emitter::new(profile, cfg.target, cfg.objective, &shared);

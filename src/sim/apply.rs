@@ -312,8 +312,9 @@ mod tests {
     }
 
     /// The unitary built in blocks of columns against one simulation per basis
-    /// state with the untabled kernels, for 1 to 11 qubits (one column per block
-    /// from 7 qubits up to many per block below), every kind of kernel.
+    /// state with the untabled kernels, for 1 to 11 qubits (all columns in one
+    /// block up to 6 qubits, then 2 blocks of 64 columns at 7 up to 512 blocks of
+    /// 4 at 11), every kind of kernel.
     #[test]
     fn blocks_of_columns_are_the_columns() {
         let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(12);

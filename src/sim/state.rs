@@ -57,11 +57,6 @@ struct SharedPtr(*mut C64);
 unsafe impl Send for SharedPtr {}
 unsafe impl Sync for SharedPtr {}
 
-#[inline(always)]
-fn butterfly(lo: &mut [C64], hi: &mut [C64], m: &Mat2) {
-    simd::mat2_butterfly(lo, hi, m);
-}
-
 /// Applies `m` to qubit `q` of a block whose length is a multiple of `2^(q+1)`.
 fn mat2_serial(block: &mut [C64], q: usize, m: &Mat2) {
     if q == 0 {
@@ -251,7 +246,7 @@ impl StateVector {
                         |buf, (l, h)| {
                             let buf = &mut buf[..h.len()];
                             buf.copy_from_slice(h);
-                            butterfly(l, buf, m);
+                            simd::mat2_butterfly(l, buf, m);
                             h.copy_from_slice(buf);
                         },
                     );
@@ -261,7 +256,7 @@ impl StateVector {
                 let (lo, hi) = pair.split_at_mut(half);
                 lo.par_chunks_mut(CHUNK)
                     .zip(hi.par_chunks_mut(CHUNK))
-                    .for_each(|(l, h)| butterfly(l, h, m));
+                    .for_each(|(l, h)| simd::mat2_butterfly(l, h, m));
             });
         } else {
             self.amps

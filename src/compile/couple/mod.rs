@@ -390,38 +390,38 @@ fn order_pulses_any(pulses: Vec<Pulse>) -> Vec<Pulse> {
             r => (1u64 << r) - 1,
         })
         .collect();
+    // One word per pulse (up to 64 ions, the usual case) is the same loop with the
+    // word count known when compiling.
+    let order = if words == 1 {
+        greedy_order::<1>(&bits, 1, &all, n)
+    } else {
+        greedy_order::<0>(&bits, words, &all, n)
+    };
+    placed(pulses, order)
+}
+
+/// The order of [`order_pulses`] on sign vectors packed `words` to a row (`W`, when
+/// not 0, is `words` known at compile time): each next pulse the nearest of the
+/// first [`ORDER_WINDOW`] still to place, in list order (the first nearest on a
+/// tie), taken as `s` or `-s` (complement within `all`), whichever is nearer.
+#[inline(always)]
+fn greedy_order<const W: usize>(
+    bits: &[u64],
+    words: usize,
+    all: &[u64],
+    n: usize,
+) -> Vec<(usize, bool)> {
+    let words = if W > 0 { W } else { words };
+    let len = bits.len() / words;
     let row = |k: usize| &bits[k * words..(k + 1) * words];
-    let mut order: Vec<(usize, bool)> = Vec::with_capacity(pulses.len());
-    if words == 1 {
-        // Up to 64 ions (the usual case): the same choices, on one word each, with
-        // the pulses still to place as the first ORDER_WINDOW of them (in list
-        // order) and the rest after them.
-        let full = all[0];
-        let mut window: Vec<(u64, usize)> = Vec::with_capacity(ORDER_WINDOW);
-        let mut rest = bits.iter().copied().enumerate().map(|(k, b)| (b, k));
-        window.extend(rest.by_ref().take(ORDER_WINDOW));
-        let mut frame = 0u64;
-        while !window.is_empty() {
-            let mut best = (usize::MAX, 0usize, false);
-            for (at, &(b, _)) in window.iter().enumerate() {
-                let d = (frame ^ b).count_ones() as usize;
-                let (d, neg) = if n - d < d { (n - d, true) } else { (d, false) };
-                if d < best.0 {
-                    best = (d, at, neg);
-                }
-            }
-            let (b, k) = window.remove(best.1);
-            window.extend(rest.next());
-            frame = if best.2 { !b & full } else { b };
-            order.push((k, best.2));
-        }
-        return placed(pulses, order);
-    }
-    let mut left: std::collections::VecDeque<usize> = (0..pulses.len()).collect();
+    let mut order: Vec<(usize, bool)> = Vec::with_capacity(len);
+    // The pulses still to place: the window, then `next..len`.
+    let mut window: Vec<usize> = (0..len.min(ORDER_WINDOW)).collect();
+    let mut next = window.len();
     let mut frame = vec![0u64; words];
-    while !left.is_empty() {
+    while !window.is_empty() {
         let mut best = (usize::MAX, 0usize, false);
-        for (at, &k) in left.iter().take(ORDER_WINDOW).enumerate() {
+        for (at, &k) in window.iter().enumerate() {
             let d: usize = frame
                 .iter()
                 .zip(row(k))
@@ -432,13 +432,17 @@ fn order_pulses_any(pulses: Vec<Pulse>) -> Vec<Pulse> {
                 best = (d, at, neg);
             }
         }
-        let k = left.remove(best.1).expect("in range");
-        for ((f, &b), &m) in frame.iter_mut().zip(row(k)).zip(&all) {
+        let k = window.remove(best.1);
+        if next < len {
+            window.push(next);
+            next += 1;
+        }
+        for ((f, &b), &m) in frame.iter_mut().zip(row(k)).zip(all) {
             *f = if best.2 { !b & m } else { b };
         }
         order.push((k, best.2));
     }
-    placed(pulses, order)
+    order
 }
 
 /// `pulses` in `order`, each negated where it says so.

@@ -1,7 +1,8 @@
 //! The vector kernels of the statevector passes: the real-arithmetic `Rx` butterfly
 //! (on pairs, on adjacent amplitudes, and two levels at once), any 2x2 matrix (on
-//! pairs and on adjacent amplitudes) and scaling by diagonal factors, each with an AVX2/FMA version chosen at run time and a scalar
-//! version that computes the same values.
+//! pairs, on pairs a few apart and on adjacent amplitudes) and scaling by diagonal
+//! factors, each with an AVX2/FMA version chosen at run time and a scalar version
+//! that computes the same values.
 //!
 //! Safety argument: every `unsafe fn` here is compiled with `target_feature(avx2,
 //! fma)` and reads and writes through raw pointers. It is called only from the safe

@@ -40,7 +40,7 @@ use std::sync::Arc;
 mod peephole;
 mod quiet;
 
-pub use peephole::peephole;
+pub use peephole::{peephole, peephole_passes};
 use quiet::{push_shift, quiet_groups, resolve_quiet, Group};
 /// Angles this close to zero (mod 2 pi where that is a global phase) are left out.
 const EPS: f64 = 1e-14;
@@ -756,44 +756,47 @@ impl<'a> Emitter<'a> {
     /// shift of angle pi; the error of independent operations is at least
     /// `1 - exp(-sum e_k)`, since `1 - e <= exp(-e)`.
     fn pulse_bound(&self, count: usize, theta: f64, flips: usize) -> (f64, f64) {
-        let (d, e) = (&self.profile.durations_us, &self.profile.errors);
-        let count_f = count as f64;
-        let flips = flips as f64;
-        let area = theta / FRAC_PI_2;
-        let time = count_f * d.ms.fixed + d.ms.per_rad * theta + flips * d.light_shift.at(PI);
-        let error = 1.0
-            - (-(count_f * e.ms.fixed + e.ms.per_rad * theta + flips * e.light_shift.at(PI))).exp();
-        match self.objective {
-            Objective::Pulses => (count_f, area),
-            Objective::Area => (area, count_f),
-            Objective::Duration => (time, area),
-            Objective::Error => (error, time),
-        }
+        self.bound_with(count, theta, flips, 0.0, 0.0)
     }
 
     /// A lower bound on the key of hiding `idle` ions around `count` global pulses
     /// of total angle `theta` with at least `flips` layers of light shifts between
-    /// them (each idle ion hidden and unhidden, one at a time).
+    /// them (each idle ion hidden and unhidden, one at a time): [`Self::pulse_bound`]
+    /// with the hiding's time and error added.
     fn hiding_bound(&self, idle: usize, theta: f64, count: usize, flips: usize) -> (f64, f64) {
         let (d, e) = (&self.profile.durations_us, &self.profile.errors);
         let at = |c: Option<crate::native::profile::Cost>| c.map_or(0.0, |c| c.at(0.0));
         let idle = idle as f64;
-        let count = count.max(1) as f64;
+        self.bound_with(
+            count.max(1),
+            theta,
+            flips,
+            idle * (at(d.hide) + at(d.unhide)),
+            idle * (at(e.hide) + at(e.unhide)),
+        )
+    }
+
+    /// [`Self::pulse_bound`] plus `time` and `error` (a sum of failure rates) of
+    /// other operations.
+    fn bound_with(
+        &self,
+        count: usize,
+        theta: f64,
+        flips: usize,
+        time: f64,
+        error: f64,
+    ) -> (f64, f64) {
+        let (d, e) = (&self.profile.durations_us, &self.profile.errors);
+        let count = count as f64;
         let flips = flips as f64;
         let area = theta / FRAC_PI_2;
-        let time = count * d.ms.fixed
-            + d.ms.per_rad * theta
-            + flips * d.light_shift.at(PI)
-            + idle * (at(d.hide) + at(d.unhide));
+        let time = count * d.ms.fixed + d.ms.per_rad * theta + flips * d.light_shift.at(PI) + time;
         let error = 1.0
-            - (-(count * e.ms.fixed
-                + e.ms.per_rad * theta
-                + flips * e.light_shift.at(PI)
-                + idle * (at(e.hide) + at(e.unhide))))
-            .exp();
+            - (-(count * e.ms.fixed + e.ms.per_rad * theta + flips * e.light_shift.at(PI) + error))
+                .exp();
         match self.objective {
             Objective::Pulses => (count, area),
-            Objective::Area => (area, 1.0),
+            Objective::Area => (area, count),
             Objective::Duration => (time, area),
             Objective::Error => (error, time),
         }

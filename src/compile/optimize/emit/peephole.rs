@@ -9,14 +9,21 @@ use super::*;
 /// of light shifts and frame changes rewritten to nothing can bring two together
 /// again (a merged rotation that vanishes leaves a frame change, which the rephasing
 /// after it joins to the runs around it).
-pub fn peephole(mut ops: Vec<NativeOp>, n: u32) -> Vec<NativeOp> {
+pub fn peephole(ops: Vec<NativeOp>, n: u32) -> Vec<NativeOp> {
+    peephole_passes(ops, n).0
+}
+
+/// [`peephole`], and how many passes it made (for tests of its stopping rule).
+pub fn peephole_passes(mut ops: Vec<NativeOp>, n: u32) -> (Vec<NativeOp>, usize) {
+    let mut passes = 0;
     loop {
         let before = ops.len();
         ops = merge_collective(ops);
         let emptied;
         (ops, emptied) = rephase_z_runs(ops, n);
+        passes += 1;
         if !emptied || ops.len() >= before {
-            return ops;
+            return (ops, passes);
         }
     }
 }

@@ -597,9 +597,11 @@ fn circuits_and_the_vendored_outside_circuits_compile_and_verify_in_one_batch_ru
 /// moment later: the compile waits and verifies (found when the budget first ran
 /// alongside the proof through rayon::join, which moved the proof onto a worker, and
 /// a batch under load reported "needs 1048576 bytes, more than the budget").
-/// ghz_5 (compiled window by window under a budget of `bytes`) and a compile
+/// A 5-qubit circuit long enough that its sequence is compared window by window
+/// under a budget of `bytes` = 1 MiB (twelve rounds of ghz_5's Hadamard and CNOT
+/// chain: about 2000 steps on 40 ions, about 1.3 KB each to lower), and a compile
 /// configuration whose checks share one pool of that size.
-fn ghz_5_with_a_pool_of(
+fn ghz_rounds_with_a_pool_of(
     bytes: usize,
 ) -> (
     tutti::circuit::Circuit,
@@ -609,13 +611,16 @@ fn ghz_5_with_a_pool_of(
     use std::sync::Arc;
     use tutti::memory::{Pool, SharedPool};
     let pool = SharedPool(Arc::new(Pool::new(bytes)));
-    let circuit = tutti::qasm::read_str(
-        "ghz_5.qasm",
-        &std::fs::read_to_string(Path::new(env!("CARGO_MANIFEST_DIR")).join("circuits/ghz_5.qasm"))
-            .unwrap(),
-    )
-    .circuit
-    .expect("reads");
+    let mut text = String::from("OPENQASM 2.0;\ninclude \"qelib1.inc\";\nqreg q[5];\n");
+    for round in 0..12 {
+        text.push_str(&format!("h q[{}];\n", round % 5));
+        for k in 0..4 {
+            text.push_str(&format!("cx q[{k}],q[{}];\n", k + 1));
+        }
+    }
+    let circuit = tutti::qasm::read_str("ghz_rounds.qasm", &text)
+        .circuit
+        .expect("reads");
     let mut cfg = tutti::driver::CompileConfig::default();
     cfg.check.memory_budget = bytes;
     cfg.check.pool = Some(pool.clone());
@@ -627,12 +632,14 @@ fn the_window_proof_waits_for_a_busy_shared_pool() {
     use std::sync::mpsc;
     use tutti::driver::{compile_with, Stage};
     let mib = 1usize << 20;
-    let (circuit, cfg, pool) = ghz_5_with_a_pool_of(mib);
+    let (circuit, cfg, pool) = ghz_rounds_with_a_pool_of(mib);
     let held = pool.0.reserve(mib).expect("the whole pool");
     let (tx, rx) = mpsc::channel();
     let profile = tutti::native::profile::Profile::demo();
     std::thread::scope(|scope| {
-        let job = scope.spawn(|| {
+        // The sender moves into the job: a compile that ends without reaching the
+        // windows drops it, and the wait below fails instead of hanging.
+        let job = scope.spawn(move || {
             compile_with(&circuit, &profile, &cfg, &mut |s| {
                 if s == Stage::VerifyWindows {
                     let _ = tx.send(());
@@ -659,7 +666,7 @@ fn a_refusal_by_a_busy_pool_says_it_was_busy() {
     use tutti::driver::compile;
     use tutti::sim::CheckError;
     let mib = 1usize << 20;
-    let (circuit, cfg, pool) = ghz_5_with_a_pool_of(mib);
+    let (circuit, cfg, pool) = ghz_rounds_with_a_pool_of(mib);
     let profile = tutti::native::profile::Profile::demo();
     let held = pool.0.reserve(mib - 4096).expect("most of the pool");
     let workers = rayon::ThreadPoolBuilder::new()

@@ -41,7 +41,10 @@ mod peephole;
 mod quiet;
 
 pub use peephole::{peephole, peephole_passes};
-use quiet::{push_shift, quiet_groups, resolve_quiet, Group};
+use quiet::{
+    fold_needs_pad, fold_swaps, push_shift, quiet_groups, resolve_quiet, Group, QuietPart,
+    QuietSigns,
+};
 /// Angles this close to zero (mod 2 pi where that is a global phase) are left out.
 const EPS: f64 = 1e-14;
 
@@ -193,9 +196,11 @@ impl<'a> Emitter<'a> {
         drop_z: &[bool],
     ) -> Vec<Step> {
         let quiet = self.quiet_ions(s);
-        let (ops, reports, without) = self.plan(s, &quiet, drop_z);
+        let (ops, reports, without, key) = self.plan(s, &quiet, drop_z);
         let (ops, reports) = match without {
-            Some((other, other_reports)) if self.key(&other) < self.key(&ops) => {
+            Some((other, other_reports))
+                if self.key(&other) < key.unwrap_or_else(|| self.key(&ops)) =>
+            {
                 (other, other_reports)
             }
             _ => (ops, reports),
@@ -212,13 +217,15 @@ impl<'a> Emitter<'a> {
     /// The segment made as planned (after the peephole) with its block reports, and,
     /// when some block shares the quiet ions' column, the segment made without any
     /// sharing (as with no quiet ions): one pass yields both, since the layers, the
-    /// carried Z rotations and every other candidate are the same.
+    /// carried Z rotations and every other candidate are the same. The planned
+    /// segment is the better of the quiet ions' couplings split and folded
+    /// ([`QuietSigns`]); its key is returned when it was computed.
     fn plan(
         &mut self,
         s: &Schedule,
         quiet: &[bool],
         drop_z: &[bool],
-    ) -> (Vec<NativeOp>, Vec<BlockReport>, Option<Plan>) {
+    ) -> (Vec<NativeOp>, Vec<BlockReport>, Option<Plan>, Option<Key>) {
         let mut parts: Vec<Part> = Vec::new();
         let mut ops = Vec::new();
         let mut reports = Vec::new();
@@ -234,11 +241,11 @@ impl<'a> Emitter<'a> {
             }
             if let Some(block) = s.blocks.get(k) {
                 let (part, report, alternative) = self.block(block, &mut carry, quiet);
-                match (alternative, &mut without) {
+                match (&alternative, &mut without) {
                     (Some((v, r)), w) => {
                         let w = w.get_or_insert_with(|| (ops.clone(), reports.clone()));
-                        w.0.extend(v);
-                        w.1.extend(r);
+                        w.0.extend_from_slice(v);
+                        w.1.extend(r.clone());
                     }
                     (None, Some(w)) => {
                         if let Part::Ops(v) = &part {
@@ -248,12 +255,18 @@ impl<'a> Emitter<'a> {
                     }
                     (None, None) => {}
                 }
+                let at = reports.len();
                 reports.extend(report);
                 match part {
                     Part::Ops(v) => ops.extend(v),
-                    groups => {
+                    Part::Quiet(mut q) => {
+                        if let Some((plain, plain_report)) = alternative {
+                            q.plain = plain;
+                            q.plain_report = plain_report;
+                            q.report = at;
+                        }
                         parts.push(Part::Ops(std::mem::take(&mut ops)));
-                        parts.push(groups);
+                        parts.push(Part::Quiet(q));
                     }
                 }
             }
@@ -270,16 +283,57 @@ impl<'a> Emitter<'a> {
         }
         parts.push(Part::Ops(ops));
         let without = without.map(|(ops, reports)| (peephole(ops, self.n()), reports));
-        (
-            peephole(resolve_quiet(parts, quiet), self.n()),
-            reports,
-            without,
-        )
+        let mut ops = peephole(
+            resolve_quiet(&parts, quiet, QuietSigns::Split, drop_z),
+            self.n(),
+        );
+        // Folding: padded to a multiple of pi/2 (adding MS area), or with blocks
+        // made without the shared column so that the others' weight is such a
+        // multiple (adding none, when some block's weight is the remainder). DESIGN
+        // section 3 ranks MS area before duration, so under the objectives duration
+        // and area a fold must not add area (and a padded one is not made); under
+        // pulses and error it competes on the objective alone.
+        let mut key = None;
+        if parts.iter().any(|p| matches!(p, Part::Quiet(_))) {
+            let budget = figures(&ops, self.n(), self.profile);
+            let limit = budget.ms_area * (1.0 + 1e-9);
+            let mut best_key = self.key_of(&budget);
+            let may_pad = matches!(self.objective, Objective::Pulses | Objective::Error);
+            let padded = (may_pad || !fold_needs_pad(&parts)).then(Vec::new);
+            let mut best: Option<(Vec<NativeOp>, Vec<usize>)> = None;
+            for swap in [padded, fold_swaps(&parts)].into_iter().flatten() {
+                let folded = peephole(
+                    resolve_quiet(&parts, quiet, QuietSigns::Folded(&swap), drop_z),
+                    self.n(),
+                );
+                let b = figures(&folded, self.n(), self.profile);
+                if (may_pad || b.ms_area <= limit) && self.key_of(&b) < best_key {
+                    best_key = self.key_of(&b);
+                    best = Some((folded, swap));
+                }
+            }
+            key = Some(best_key);
+            if let Some((folded, swap)) = best {
+                ops = folded;
+                for &k in &swap {
+                    if let Part::Quiet(q) = &parts[k] {
+                        if let (Some(r), Some(slot)) = (&q.plain_report, reports.get_mut(q.report))
+                        {
+                            *slot = r.clone();
+                        }
+                    }
+                }
+            }
+        }
+        (ops, reports, without, key)
     }
 
     /// The objective's figures of a list of operations (smaller is better).
     fn key(&self, ops: &[NativeOp]) -> (f64, f64) {
-        let b = figures(ops, self.n(), self.profile);
+        self.key_of(&figures(ops, self.n(), self.profile))
+    }
+
+    fn key_of(&self, b: &crate::native::budget::Budget) -> (f64, f64) {
         match self.objective {
             Objective::Pulses => (b.ms_pulses as f64, b.ms_area),
             Objective::Area => (b.ms_area, b.ms_pulses as f64),
@@ -693,7 +747,17 @@ impl<'a> Emitter<'a> {
             } else {
                 cheap_result(self, plain)
             };
-            return (Part::Quiet(groups), report, Some((ops, plain_report)));
+            let part = QuietPart {
+                groups,
+                plain: Vec::new(),
+                plain_report: None,
+                report: usize::MAX,
+            };
+            return (
+                Part::Quiet(Box::new(part)),
+                report,
+                Some((ops, plain_report)),
+            );
         }
         (Part::Ops(self.sandwich(chosen)), report, None)
     }
@@ -909,6 +973,9 @@ type Built = (Vec<NativeOp>, Method, f64, Option<Vec<Group>>);
 /// A segment made: its operations and block reports.
 type Plan = (Vec<NativeOp>, Vec<BlockReport>);
 
+/// The objective's figures of some operations, the smaller the better.
+type Key = (f64, f64);
+
 /// A block made without the quiet ions' column: its operations and report.
 type Alternative = (Vec<NativeOp>, Option<BlockReport>);
 
@@ -946,7 +1013,7 @@ impl<'c> Candidate<'c> {
 /// their signs (see [`resolve_quiet`]).
 enum Part {
     Ops(Vec<NativeOp>),
-    Quiet(Vec<Group>),
+    Quiet(Box<QuietPart>),
 }
 
 /// Sign-vector pulses as native operations: ordered for few flips, each pulse

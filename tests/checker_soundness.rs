@@ -354,6 +354,32 @@ fn a_spare_ion_left_coupled_is_proven_different_without_a_statevector() {
     );
 }
 
+/// MS(2 pi) on 40 ions couples every pair by pi: a global phase, proven equal to
+/// leaving the ions alone (gate-set fact 1: `exp(-i pi Z Z) = -1`; the pre-pass folds
+/// such couplings, with its rounding in the slack). Near misses proven different:
+/// 2 pi + 1.8e-9 (6.283185309), and 4 pi less 2.4e-9 (12.566370612).
+#[test]
+fn a_full_turn_of_ms_on_the_whole_chain_is_equal_and_a_hair_more_is_not() {
+    let circuit = common::program(&common::qasm(2, "id q[0];\n"));
+    let seq = |theta: &str| {
+        let text = format!(
+            "ions 40\nchain_rotate pi/2 pi/2\nchain_ms {theta} 0\nchain_rotate -pi/2 pi/2\n"
+        );
+        let out = tutti::native::text::read_pulses("t.pulses", &text);
+        tutti::sim::Program::from_sequence(&out.sequence.expect("a valid list"))
+    };
+    let cfg = CheckConfig::default();
+    for (theta, equal) in [
+        ("2*pi", true),
+        ("4*pi", true),
+        ("6.283185309", false),
+        ("12.566370612", false),
+    ] {
+        let v = tutti::sim::check(&circuit, &seq(theta), &cfg).unwrap();
+        assert_eq!(v.equivalent, equal, "{theta}: {}", v.detail);
+    }
+}
+
 /// On the 40-ion demo device, one MS pulse of a compiled echo changed by a hair
 /// leaves every ion's couplings uncancelled; the full comparison would need 2^40
 /// amplitudes, and the proof with the spare ions held as fields

@@ -309,15 +309,19 @@ fn drop_zero_couplings(ks: Vec<Kernel>) -> (Vec<Kernel>, f64) {
 
 /// `w` folded into (-pi/4, pi/4] (a weight within rounding of pi/4 is left as it
 /// is), the multiple `k` of pi/2 taken off, and the fold's rounding added to `slack`:
-/// `k` times the error of `FRAC_PI_2` (below 1e-16) plus the rounding of the product
-/// and the difference, bounded by a few units in the last place of `|w| + 1`.
+/// `|k|` times the error of `FRAC_PI_2` (6.12e-17), and half a unit in the last
+/// place of the product `k FRAC_PI_2` and of the difference.
 fn fold(w: f64, slack: &mut f64) -> (f64, i64) {
+    /// `|pi/2 - FRAC_PI_2|` is 6.123e-17; rounded up.
+    const FRAC_PI_2_ERROR: f64 = 6.2e-17;
     if w.abs() <= FRAC_PI_4 * (1.0 + 1e-12) || !w.is_finite() {
         return (w, 0);
     }
     let k = (w / FRAC_PI_2).round();
-    *slack += (k.abs() + 4.0) * f64::EPSILON * (w.abs() + 1.0);
-    (w - k * FRAC_PI_2, k as i64)
+    let product = k * FRAC_PI_2;
+    let d = w - product;
+    *slack += k.abs() * FRAC_PI_2_ERROR + 0.5 * f64::EPSILON * (product.abs() + d.abs());
+    (d, k as i64)
 }
 
 /// The Pauli operator an Ising kernel's terms are products of: Z without an axis,

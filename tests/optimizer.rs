@@ -1052,3 +1052,42 @@ fn a_padded_fold_is_proven_and_its_near_misses_caught() {
     let ms = count(&seq, |op| matches!(op, NativeOp::Ms { .. }));
     assert!(ms <= 12, "{ms} MS pulses");
 }
+
+/// Under the objective `area`, no circuit of circuits/ takes more MS pulses on the
+/// collective target than under `duration` at the same area (within 1e-9): plans of
+/// equal area made in different ways differ in their sums' last bits, and those bits
+/// once decided (bv_8: 144 MS pulses under `area`, 8 under `duration`, both of area
+/// 2.00).
+#[test]
+fn equal_areas_are_decided_by_the_pulses() {
+    use tutti::compile::optimize::Objective;
+    let mut compared = 0;
+    for path in common::files("circuits", "qasm") {
+        let c = common::read_ok(&path);
+        let run = |objective| {
+            let cfg = OptConfig {
+                objective,
+                ..OptConfig::default()
+            };
+            let o = compile_optimized(&c, &Profile::demo(), &cfg).unwrap();
+            let b = tutti::native::budget::figures(
+                &o.sequence.steps.iter().map(|s| s.op).collect::<Vec<_>>(),
+                40,
+                &Profile::demo(),
+            );
+            (b.ms_area, b.ms_pulses)
+        };
+        let ((area_a, pulses_a), (area_d, pulses_d)) =
+            (run(Objective::Area), run(Objective::Duration));
+        assert!(area_a <= area_d * (1.0 + 1e-9), "{}: area", path.display());
+        if (area_a - area_d).abs() <= 1e-9 * area_d {
+            compared += 1;
+            assert!(
+                pulses_a <= pulses_d,
+                "{}: {pulses_a} MS pulses under area, {pulses_d} under duration",
+                path.display()
+            );
+        }
+    }
+    assert!(compared >= 10, "{compared} circuits of equal area");
+}

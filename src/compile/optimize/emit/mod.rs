@@ -199,7 +199,7 @@ impl<'a> Emitter<'a> {
         let (ops, reports, without, key) = self.plan(s, &quiet, drop_z);
         let (ops, reports) = match without {
             Some((other, other_reports))
-                if self.key(&other) < key.unwrap_or_else(|| self.key(&ops)) =>
+                if better(self.key(&other), key.unwrap_or_else(|| self.key(&ops))) =>
             {
                 (other, other_reports)
             }
@@ -307,7 +307,7 @@ impl<'a> Emitter<'a> {
                     self.n(),
                 );
                 let b = figures(&folded, self.n(), self.profile);
-                if (may_pad || b.ms_area <= limit) && self.key_of(&b) < best_key {
+                if (may_pad || b.ms_area <= limit) && better(self.key_of(&b), best_key) {
                     best_key = self.key_of(&b);
                     best = Some((folded, swap));
                 }
@@ -975,6 +975,15 @@ type Plan = (Vec<NativeOp>, Vec<BlockReport>);
 
 /// The objective's figures of some operations, the smaller the better.
 type Key = (f64, f64);
+
+/// Whether `a` beats `b` when whole segments are compared: the first figures must
+/// differ by more than rounding (1e-9 relative) to decide, else the second decide.
+/// Plans of the same area made in different ways differ in their sums' last bits,
+/// which must not outweigh a hundred pulses under the objective `area`.
+fn better(a: Key, b: Key) -> bool {
+    let tol = 1e-9 * a.0.abs().max(b.0.abs());
+    a.0 < b.0 - tol || ((a.0 - b.0).abs() <= tol && a.1 < b.1)
+}
 
 /// A block made without the quiet ions' column: its operations and report.
 type Alternative = (Vec<NativeOp>, Option<BlockReport>);

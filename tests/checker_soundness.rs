@@ -308,6 +308,15 @@ fn a_tiny_rotation_on_an_idle_padded_qubit_is_caught() {
     }
 }
 
+/// A pulse list for 40 ions: one MS pulse of angle `theta` (as the list writes it)
+/// between collective rotations that take X to Z and back.
+fn one_chain_ms_in_a_z_frame(theta: &str) -> tutti::sim::Program {
+    let text =
+        format!("ions 40\nchain_rotate pi/2 pi/2\nchain_ms {theta} 0\nchain_rotate -pi/2 pi/2\n");
+    let out = tutti::native::text::read_pulses("t.pulses", &text);
+    tutti::sim::Program::from_sequence(&out.sequence.expect("a valid list"))
+}
+
 /// On the 40-ion demo device, a sequence that leaves the ions coupled (one MS pulse
 /// in a Z frame, nothing undoing it) against a circuit that leaves them alone: the
 /// statevector comparison would need 2^40 amplitudes, the exact bound of
@@ -318,13 +327,7 @@ fn a_tiny_rotation_on_an_idle_padded_qubit_is_caught() {
 #[test]
 fn a_spare_ion_left_coupled_is_proven_different_without_a_statevector() {
     let circuit = common::program(&common::qasm(2, "id q[0];\n"));
-    let seq = |theta: &str| {
-        let text = format!(
-            "ions 40\nchain_rotate pi/2 pi/2\nchain_ms {theta} 0\nchain_rotate -pi/2 pi/2\n"
-        );
-        let out = tutti::native::text::read_pulses("t.pulses", &text);
-        tutti::sim::Program::from_sequence(&out.sequence.expect("a valid list"))
-    };
+    let seq = one_chain_ms_in_a_z_frame;
     let cfg = CheckConfig::default();
     for (theta, coupling) in [("0.3", 0.15), ("1e-7", 5e-8), ("2.5", 1.25)] {
         let v = tutti::sim::check(&circuit, &seq(theta), &cfg).unwrap();
@@ -361,13 +364,7 @@ fn a_spare_ion_left_coupled_is_proven_different_without_a_statevector() {
 #[test]
 fn a_full_turn_of_ms_on_the_whole_chain_is_equal_and_a_hair_more_is_not() {
     let circuit = common::program(&common::qasm(2, "id q[0];\n"));
-    let seq = |theta: &str| {
-        let text = format!(
-            "ions 40\nchain_rotate pi/2 pi/2\nchain_ms {theta} 0\nchain_rotate -pi/2 pi/2\n"
-        );
-        let out = tutti::native::text::read_pulses("t.pulses", &text);
-        tutti::sim::Program::from_sequence(&out.sequence.expect("a valid list"))
-    };
+    let seq = one_chain_ms_in_a_z_frame;
     let cfg = CheckConfig::default();
     for (theta, equal) in [
         ("2*pi", true),

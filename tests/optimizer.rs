@@ -878,15 +878,19 @@ fn count(s: &Sequence, f: impl Fn(&NativeOp) -> bool) -> usize {
     s.steps.iter().filter(|st| f(&st.op)).count()
 }
 
-/// The same sequence with step `at` changed by `edit`, or removed when `edit` is
-/// `None`.
-fn edited(s: &Sequence, at: usize, edit: Option<&dyn Fn(&mut NativeOp)>) -> Sequence {
+/// The same sequence without step `at`.
+fn without_step(s: &Sequence, at: usize) -> Sequence {
     let mut out = s.clone();
-    match edit {
-        Some(f) => f(&mut out.steps[at].op),
-        None => {
-            out.steps.remove(at);
-        }
+    out.steps.remove(at);
+    out
+}
+
+/// The same sequence with the MS pulse at step `at` changed by 1e-8 rad.
+fn ms_off_by_a_hair(s: &Sequence, at: usize) -> Sequence {
+    let mut out = s.clone();
+    match &mut out.steps[at].op {
+        NativeOp::Ms { theta, .. } => *theta += 1e-8,
+        other => panic!("step {at} is {other:?}, not an MS pulse"),
     }
     out
 }
@@ -921,15 +925,7 @@ fn folded_spare_ions_are_proven_and_their_near_misses_caught() {
     let pulses: Vec<usize> = (0..seq.steps.len())
         .filter(|&k| matches!(seq.steps[k].op, NativeOp::Ms { .. }))
         .collect();
-    let off = edited(
-        &seq,
-        pulses[1],
-        Some(&|op: &mut NativeOp| {
-            if let NativeOp::Ms { theta, .. } = op {
-                *theta += 1e-8;
-            }
-        }),
-    );
+    let off = ms_off_by_a_hair(&seq, pulses[1]);
     assert_eq!(
         verdict_or_refusal(&c, &off),
         Some(false),
@@ -962,7 +958,7 @@ fn folded_spare_ions_are_proven_and_their_near_misses_caught() {
         Some(false),
         "a spare ion flipped for one pulse"
     );
-    let missing = edited(&seq, pulses[pulses.len() / 2], None);
+    let missing = without_step(&seq, pulses[pulses.len() / 2]);
     assert_eq!(
         verdict_or_refusal(&c, &missing),
         Some(false),
@@ -1007,7 +1003,7 @@ fn a_padded_fold_is_proven_and_its_near_misses_caught() {
         .find(|&k| matches!(seq.steps[k].op, NativeOp::VirtualZ { .. }))
         .expect("a frame change after the pulses undoes Z on the spare ions");
     assert_eq!(
-        verdict_or_refusal(&c, &edited(&seq, frame, None)),
+        verdict_or_refusal(&c, &without_step(&seq, frame)),
         Some(false),
         "the frame change left out"
     );
@@ -1015,19 +1011,11 @@ fn a_padded_fold_is_proven_and_its_near_misses_caught() {
         .find(|&k| matches!(seq.steps[k].op, NativeOp::LightShift { .. }))
         .expect("light shifts after the frame change");
     assert_eq!(
-        verdict_or_refusal(&c, &edited(&seq, undo, None)),
+        verdict_or_refusal(&c, &without_step(&seq, undo)),
         Some(false),
         "an undoing light shift left out"
     );
-    let off = edited(
-        &seq,
-        last_ms(&seq),
-        Some(&|op: &mut NativeOp| {
-            if let NativeOp::Ms { theta, .. } = op {
-                *theta += 1e-8;
-            }
-        }),
-    );
+    let off = ms_off_by_a_hair(&seq, last_ms(&seq));
     assert_eq!(
         verdict_or_refusal(&c, &off),
         Some(false),

@@ -215,6 +215,19 @@ impl<'a> Tabled<'a> {
     }
 }
 
+/// The largest entry of `|b - e^{i a} a|`, the phase aligned on `a`'s largest entry:
+/// how far apart two dense unitaries are up to global phase (for tests).
+#[cfg(test)]
+pub(crate) fn distance_up_to_phase(a: &DMatrix<C64>, b: &DMatrix<C64>) -> f64 {
+    let (i, _) = a
+        .iter()
+        .enumerate()
+        .max_by(|x, y| x.1.norm().total_cmp(&y.1.norm()))
+        .expect("a nonempty matrix");
+    let ph = b[i] / a[i];
+    (a * ph - b).iter().fold(0.0f64, |m, z| m.max(z.norm()))
+}
+
 /// The full unitary of a list of kernels on `n` qubits (see [`unitary_into`]).
 /// Cost `2^n` simulations; meant for `n` up to about 12.
 pub fn unitary_of(kernels: &[Kernel], n: usize) -> DMatrix<C64> {

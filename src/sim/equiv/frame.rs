@@ -268,15 +268,8 @@ mod tests {
             // Couplings gathered across pulses: fewer coupling kernels than pulses.
             let count = |ks: &[Kernel]| ks.iter().filter(|k| k.qubits().len() > 1).count();
             gathered += usize::from(count(&out) < count(&ks));
-            let (a, b) = (unitary_of(&ks, n), unitary_of(&out, n));
-            // Align the global phase on the largest entry.
-            let (i, _) = a
-                .iter()
-                .enumerate()
-                .max_by(|x, y| x.1.norm().total_cmp(&y.1.norm()))
-                .unwrap();
-            let ph = b[i] / a[i];
-            let d = (a * ph - b).iter().fold(0.0f64, |m, z| m.max(z.norm()));
+            let d =
+                crate::sim::apply::distance_up_to_phase(&unitary_of(&ks, n), &unitary_of(&out, n));
             assert!(d < 1e-10 + slack, "distance {d}");
         }
         assert!(gathered > 30, "{gathered}");

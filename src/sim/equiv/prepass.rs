@@ -580,17 +580,8 @@ mod tests {
                     .count()
             };
             paulis += ones(&out) - ones(&ks);
-            let (a, b) = (
-                crate::sim::apply::unitary_of(&ks, n),
-                crate::sim::apply::unitary_of(&out, n),
-            );
-            let (i, _) = a
-                .iter()
-                .enumerate()
-                .max_by(|x, y| x.1.norm().total_cmp(&y.1.norm()))
-                .unwrap();
-            let ph = b[i] / a[i];
-            let d = (a * ph - b).iter().fold(0.0f64, |m, z| m.max(z.norm()));
+            use crate::sim::apply::{distance_up_to_phase, unitary_of};
+            let d = distance_up_to_phase(&unitary_of(&ks, n), &unitary_of(&out, n));
             assert!(d < 1e-10 + slack, "distance {d}, slack {slack}");
         }
         assert!(paulis > 50, "{paulis}");

@@ -599,7 +599,7 @@ fn circuits_and_the_vendored_outside_circuits_compile_and_verify_in_one_batch_ru
 /// a batch under load reported "needs 1048576 bytes, more than the budget").
 /// A 5-qubit circuit long enough that its sequence is compared window by window
 /// under a budget of `bytes` = 1 MiB (twelve rounds of ghz_5's Hadamard and CNOT
-/// chain: about 2000 steps on 40 ions, about 1.3 KB each to lower), and a compile
+/// chain: about 1700 steps on 40 ions, about 1.3 KB each to lower), and a compile
 /// configuration whose checks share one pool of that size.
 fn ghz_rounds_with_a_pool_of(
     bytes: usize,

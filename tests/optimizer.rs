@@ -190,10 +190,11 @@ fn block_certificates_hold() {
     assert!(blocks >= 10, "{blocks} blocks");
 }
 
+/// The optimizer's output on circuits/`name`.qasm for the demo device (default
+/// settings).
 fn compiled(name: &str) -> (Circuit, Sequence) {
-    let c = common::read_ok(std::path::Path::new(&format!("circuits/{name}.qasm")));
-    let o = compile_optimized(&c, &Profile::demo(), &OptConfig::default()).unwrap();
-    (c, o.sequence)
+    let text = std::fs::read_to_string(format!("circuits/{name}.qasm")).unwrap();
+    compiled_text(&text, Default::default())
 }
 
 fn verdict(c: &Circuit, s: &Sequence) -> bool {
@@ -249,11 +250,7 @@ fn near_misses_caught(name: &str, n: u32) {
         );
     }
     // The shared column is in use: fewer pulses than one echo of 40 per coupling.
-    let ms = seq
-        .steps
-        .iter()
-        .filter(|s| matches!(s.op, NativeOp::Ms { .. }))
-        .count();
+    let ms = ms_steps(&seq).len();
     let couplings = c
         .instrs
         .iter()
@@ -265,23 +262,12 @@ fn near_misses_caught(name: &str, n: u32) {
         .iter()
         .position(|s| matches!(s.op, NativeOp::LightShift { ion, theta } if ion >= n && (theta.abs() - std::f64::consts::PI).abs() < 1e-12))
         .expect("a flip on a spare ion");
-    let mut a = seq.clone();
-    a.steps.remove(spare_flip);
     assert_eq!(
-        verdict_or_refusal(&c, &a),
+        verdict_or_refusal(&c, &without_step(&seq, spare_flip)),
         Some(false),
         "{name}: a missing flip on a spare ion"
     );
-    let ms = seq
-        .steps
-        .iter()
-        .position(|s| matches!(s.op, NativeOp::Ms { .. }))
-        .unwrap();
-    let mut b = seq.clone();
-    if let NativeOp::Ms { theta, .. } = &mut b.steps[ms].op {
-        *theta += 1e-8;
-    }
-    let vb = verdict_or_refusal(&c, &b);
+    let vb = verdict_or_refusal(&c, &ms_off_by_a_hair(&seq, ms_steps(&seq)[0]));
     assert_eq!(vb, Some(false), "{name}: an MS pulse off by 1e-8");
     let shift = seq
         .steps
@@ -878,6 +864,13 @@ fn count(s: &Sequence, f: impl Fn(&NativeOp) -> bool) -> usize {
     s.steps.iter().filter(|st| f(&st.op)).count()
 }
 
+/// The steps of `s` that are MS pulses, in order.
+fn ms_steps(s: &Sequence) -> Vec<usize> {
+    (0..s.steps.len())
+        .filter(|&k| matches!(s.steps[k].op, NativeOp::Ms { .. }))
+        .collect()
+}
+
 /// The same sequence without step `at`.
 fn without_step(s: &Sequence, at: usize) -> Sequence {
     let mut out = s.clone();
@@ -907,9 +900,10 @@ fn ms_off_by_a_hair(s: &Sequence, at: usize) -> Sequence {
 #[test]
 fn folded_spare_ions_are_proven_and_their_near_misses_caught() {
     use tutti::compile::optimize::Objective;
-    let (c, seq) = compiled("ghz_5");
+    let text = std::fs::read_to_string("circuits/ghz_5.qasm").unwrap();
+    let (c, seq) = compiled_text(&text, Objective::default());
     assert!(verdict(&c, &seq), "the folded ghz_5 verifies");
-    let ms = count(&seq, |op| matches!(op, NativeOp::Ms { .. }));
+    let ms = ms_steps(&seq).len();
     assert!(
         ms <= 40,
         "{ms} MS pulses (an echo over 40 ions per CNOT: 160)"
@@ -922,9 +916,7 @@ fn folded_spare_ions_are_proven_and_their_near_misses_caught() {
         0,
         "a spare ion was flipped"
     );
-    let pulses: Vec<usize> = (0..seq.steps.len())
-        .filter(|&k| matches!(seq.steps[k].op, NativeOp::Ms { .. }))
-        .collect();
+    let pulses = ms_steps(&seq);
     let off = ms_off_by_a_hair(&seq, pulses[1]);
     assert_eq!(
         verdict_or_refusal(&c, &off),
@@ -966,7 +958,6 @@ fn folded_spare_ions_are_proven_and_their_near_misses_caught() {
     );
     // The same circuit under every objective verifies (the fold is taken, or not,
     // by each objective's figures).
-    let text = std::fs::read_to_string("circuits/ghz_5.qasm").unwrap();
     for objective in Objective::ALL {
         let (c, s) = compiled_text(&text, objective);
         assert!(verdict(&c, &s), "{objective:?}");
@@ -991,14 +982,9 @@ fn a_padded_fold_is_proven_and_its_near_misses_caught() {
         Objective::Pulses,
     );
     assert!(verdict(&c, &seq), "the padded fold verifies");
-    let ms = count(&seq, |op| matches!(op, NativeOp::Ms { .. }));
+    let ms = ms_steps(&seq).len();
     assert!(ms <= 12, "{ms} MS pulses (an echo over 40 ions: 40)");
-    let last_ms = |seq: &Sequence| {
-        (0..seq.steps.len())
-            .rev()
-            .find(|&k| matches!(seq.steps[k].op, NativeOp::Ms { .. }))
-            .unwrap()
-    };
+    let last_ms = |seq: &Sequence| *ms_steps(seq).last().expect("MS pulses");
     let frame = (last_ms(&seq)..seq.steps.len())
         .find(|&k| matches!(seq.steps[k].op, NativeOp::VirtualZ { .. }))
         .expect("a frame change after the pulses undoes Z on the spare ions");
@@ -1037,7 +1023,7 @@ fn a_padded_fold_is_proven_and_its_near_misses_caught() {
             .any(|s| matches!(s.op, NativeOp::VirtualZ { .. })),
         "nothing to undo"
     );
-    let ms = count(&seq, |op| matches!(op, NativeOp::Ms { .. }));
+    let ms = ms_steps(&seq).len();
     assert!(ms <= 12, "{ms} MS pulses");
 }
 
@@ -1091,9 +1077,7 @@ fn equal_areas_are_decided_by_the_pulses() {
 fn a_fold_with_a_block_swapped_is_proven_and_its_near_misses_caught() {
     let (c, seq) = compiled("ghz_12");
     assert!(verdict(&c, &seq), "ghz_12 verifies");
-    let ms: Vec<usize> = (0..seq.steps.len())
-        .filter(|&k| matches!(seq.steps[k].op, NativeOp::Ms { .. }))
-        .collect();
+    let ms = ms_steps(&seq);
     assert!(ms.len() < 272, "{} MS pulses", ms.len());
     let spare_flip = seq
         .steps

@@ -33,6 +33,18 @@ pub fn identity() -> Mat2 {
     from_matrix(&Matrix2::identity())
 }
 
+/// The Pauli operator along `axis`: Z without one, else
+/// `sigma_phi = cos(phi) X + sin(phi) Y`.
+pub fn pauli(axis: Option<f64>) -> Mat2 {
+    match axis {
+        None => [[C64::ONE, C64::ZERO], [C64::ZERO, -C64::ONE]],
+        Some(phi) => {
+            let (s, c) = phi.sin_cos();
+            [[C64::ZERO, C64::new(c, -s)], [C64::new(c, s), C64::ZERO]]
+        }
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

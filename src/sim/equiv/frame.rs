@@ -18,6 +18,7 @@
 //! the returned slack in operator norm, up to global phase.
 
 use super::prepass::{adjoint2, mul2};
+use crate::circuit::mat2::pauli;
 use crate::circuit::Mat2;
 use crate::sim::program::Kernel;
 use crate::sim::tableau::{as_pauli, CLIFFORD_EPS};
@@ -128,8 +129,7 @@ fn modulus(z: C64) -> f64 {
 
 /// `C^dagger Z C`.
 fn z_in_frame(c: &Mat2) -> Mat2 {
-    let z: Mat2 = [[C64::ONE, C64::ZERO], [C64::ZERO, -C64::ONE]];
-    mul2(&adjoint2(c), &mul2(&z, c))
+    mul2(&adjoint2(c), &mul2(&pauli(None), c))
 }
 
 /// The rewritten kernels and their slack, or `None` when the list has no
@@ -188,9 +188,7 @@ pub(super) fn interaction_picture(ks: &[Kernel], n: usize) -> Option<(Vec<Kernel
             }
             Kernel::Ms { theta, phi, qubits } => {
                 // sigma_phi in the interaction picture.
-                let (s, co) = phi.sin_cos();
-                let sigma: Mat2 = [[C64::ZERO, C64::new(co, -s)], [C64::new(co, s), C64::ZERO]];
-                let a = mul2(&adjoint2(&c), &mul2(&sigma, &c));
+                let a = mul2(&adjoint2(&c), &mul2(&pauli(Some(*phi)), &c));
                 // a = n . sigma: n_z = a00, n_x = Re a10, n_y = Im a10.
                 let off = modulus(a[1][0]);
                 if off > CLIFFORD_EPS {

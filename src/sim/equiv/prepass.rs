@@ -112,7 +112,7 @@ pub(super) fn prepare(
 /// [`prepare_as_given`] whatever the other program is.
 fn firmly_coupled(ks: &[Kernel], n: usize) -> usize {
     let (fused, _) = fuse_xx_runs(ks);
-    let (fused, _) = drop_zero_couplings(fused);
+    let (fused, _) = fold_couplings(fused);
     let (_, other, weight) = survey(&fused, n);
     (0..n)
         .filter(|&x| other[x] || weight[x] > STRAY_COUPLING)
@@ -165,8 +165,8 @@ fn prepare_as_given(
 ) -> Result<Prepared, IdleMismatch> {
     let (fp, sp) = fuse_xx_runs(p);
     let (fq, sq) = fuse_xx_runs(q);
-    let (fp, dp) = drop_zero_couplings(fp);
-    let (fq, dq) = drop_zero_couplings(fq);
+    let (fp, dp) = fold_couplings(fp);
+    let (fq, dq) = fold_couplings(fq);
     let (fp, fq, stray) = drop_stray_couplings(fp, fq, n);
     let slack = frame_slack + sp + sq + dp + dq + stray.map_or(0.0, |s| s.2);
     let stray = stray.map(|s| (s.0, s.1));
@@ -261,7 +261,7 @@ fn drop_stray_couplings(
 /// even is a global phase. Spare ions that share one echo column over a segment are
 /// coupled by a multiple of `pi/2` that this turns into nothing or a Pauli each.
 /// `exp(-i sum w P P)` moves by at most the weight removed, in operator norm.
-fn drop_zero_couplings(ks: Vec<Kernel>) -> (Vec<Kernel>, f64) {
+fn fold_couplings(ks: Vec<Kernel>) -> (Vec<Kernel>, f64) {
     let mut dropped = 0.0;
     let mut out = Vec::with_capacity(ks.len());
     let mut odd: Vec<bool> = Vec::new();
@@ -293,7 +293,7 @@ fn drop_zero_couplings(ks: Vec<Kernel>) -> (Vec<Kernel>, f64) {
                     out.push(Kernel::Ising { axis, terms });
                 }
                 if folded {
-                    let p = pauli_along(axis);
+                    let p = crate::circuit::mat2::pauli(axis);
                     for (q, flag) in odd.iter_mut().enumerate() {
                         if std::mem::take(flag) {
                             out.push(Kernel::One { q, m: p });
@@ -322,18 +322,6 @@ fn fold(w: f64, slack: &mut f64) -> (f64, i64) {
     let d = w - product;
     *slack += k.abs() * FRAC_PI_2_ERROR + 0.5 * f64::EPSILON * (product.abs() + d.abs());
     (d, k as i64)
-}
-
-/// The Pauli operator an Ising kernel's terms are products of: Z without an axis,
-/// else `cos(phi) X + sin(phi) Y`.
-fn pauli_along(axis: Option<f64>) -> Mat2 {
-    match axis {
-        None => [[C64::ONE, C64::ZERO], [C64::ZERO, -C64::ONE]],
-        Some(phi) => {
-            let (s, c) = phi.sin_cos();
-            [[C64::ZERO, C64::new(c, -s)], [C64::new(c, s), C64::ZERO]]
-        }
-    }
 }
 
 fn is_multi(k: &Kernel) -> bool {
@@ -573,7 +561,7 @@ mod tests {
                     m: rotation(rng.gen_range(-3.0..3.0), rng.gen_range(-3.0..3.0)),
                 });
             }
-            let (out, slack) = drop_zero_couplings(ks.clone());
+            let (out, slack) = fold_couplings(ks.clone());
             let ones = |ks: &[Kernel]| {
                 ks.iter()
                     .filter(|k| matches!(k, Kernel::One { .. }))
@@ -593,7 +581,7 @@ mod tests {
     /// since each qubit is named an even number of times.
     #[test]
     fn a_coupling_of_a_half_turn_is_a_pauli_product() {
-        let (out, _) = drop_zero_couplings(vec![Kernel::Ising {
+        let (out, _) = fold_couplings(vec![Kernel::Ising {
             axis: None,
             terms: vec![(0, 2, FRAC_PI_2)],
         }]);
@@ -613,7 +601,7 @@ mod tests {
         let clique: Vec<_> = (0..5)
             .flat_map(|a| (a + 1..5).map(move |b| (a, b, -3.0 * FRAC_PI_2)))
             .collect();
-        let (out, _) = drop_zero_couplings(vec![Kernel::Ising {
+        let (out, _) = fold_couplings(vec![Kernel::Ising {
             axis: None,
             terms: clique,
         }]);

@@ -240,31 +240,25 @@ impl<'a> Emitter<'a> {
                 w.0.extend_from_slice(&ops[from..]);
             }
             if let Some(block) = s.blocks.get(k) {
-                let (part, report, alternative) = self.block(block, &mut carry, quiet);
-                match (&alternative, &mut without) {
-                    (Some((v, r)), w) => {
+                let (part, report) = self.block(block, &mut carry, quiet);
+                match (&part, &mut without) {
+                    (Part::Quiet(q), w) => {
                         let w = w.get_or_insert_with(|| (ops.clone(), reports.clone()));
-                        w.0.extend_from_slice(v);
-                        w.1.extend(r.clone());
+                        w.0.extend_from_slice(&q.plain);
+                        w.1.extend(q.plain_report.clone());
                     }
-                    (None, Some(w)) => {
-                        if let Part::Ops(v) = &part {
-                            w.0.extend_from_slice(v);
-                        }
+                    (Part::Ops(v), Some(w)) => {
+                        w.0.extend_from_slice(v);
                         w.1.extend(report.clone());
                     }
-                    (None, None) => {}
+                    (Part::Ops(_), None) => {}
                 }
                 let at = reports.len();
                 reports.extend(report);
                 match part {
                     Part::Ops(v) => ops.extend(v),
                     Part::Quiet(mut q) => {
-                        if let Some((plain, plain_report)) = alternative {
-                            q.plain = plain;
-                            q.plain_report = plain_report;
-                            q.report = at;
-                        }
+                        q.report = at;
                         parts.push(Part::Ops(std::mem::take(&mut ops)));
                         parts.push(Part::Quiet(q));
                     }
@@ -329,11 +323,11 @@ impl<'a> Emitter<'a> {
     }
 
     /// The objective's figures of a list of operations (smaller is better).
-    fn key(&self, ops: &[NativeOp]) -> (f64, f64) {
+    fn key(&self, ops: &[NativeOp]) -> Key {
         self.key_of(&figures(ops, self.n(), self.profile))
     }
 
-    fn key_of(&self, b: &crate::native::budget::Budget) -> (f64, f64) {
+    fn key_of(&self, b: &crate::native::budget::Budget) -> Key {
         match self.objective {
             Objective::Pulses => (b.ms_pulses as f64, b.ms_area),
             Objective::Area => (b.ms_area, b.ms_pulses as f64),
@@ -403,14 +397,14 @@ impl<'a> Emitter<'a> {
         }
     }
 
-    /// One block: its part of the segment and report, and, when that part shares the
-    /// quiet ions' column, what the block would be without it (ops and report).
+    /// One block: its part of the segment and report (a part that shares the quiet
+    /// ions' column also holds the block made without it).
     fn block(
         &mut self,
         block: &[(u32, u32, f64)],
         carry: &mut FxHashMap<u32, f64>,
         quiet: &[bool],
-    ) -> (Part, Option<BlockReport>, Option<Alternative>) {
+    ) -> (Part, Option<BlockReport>) {
         // exp(-i w ZZ): w mod pi is a global phase; w beyond pi/4 is -i Z Z (two
         // light shifts, carried) times a coupling of at most pi/4.
         let mut terms = Vec::new();
@@ -431,7 +425,7 @@ impl<'a> Emitter<'a> {
             }
         }
         if terms.is_empty() {
-            return (Part::Ops(Vec::new()), None, None);
+            return (Part::Ops(Vec::new()), None);
         }
         let mut active: Vec<u32> = terms.iter().flat_map(|&(a, b, _)| [a, b]).collect();
         active.sort_unstable();
@@ -545,7 +539,7 @@ impl<'a> Emitter<'a> {
             });
             (pre, quiet_pre)
         };
-        let could_win = |pre: &[(f64, f64)]| match &found {
+        let could_win = |pre: &[Key]| match &found {
             None => true,
             Some((k, _)) => pre.iter().any(|b| b.0 <= k.0 + 1e-12 * k.0.abs()),
         };
@@ -587,7 +581,7 @@ impl<'a> Emitter<'a> {
         // Without the quiet column (as a segment planned with no quiet ions would
         // have it): the cheap candidate, when no other can beat it.
         let plain_could_win = could_win(&pre) || forced;
-        let cheap_result = |e: &Self, found: Option<((f64, f64), Built)>| {
+        let cheap_result = |e: &Self, found: Option<(Key, Built)>| {
             let (_, (chosen, method, weight, _)) = found.expect("a candidate was found");
             let report = BlockReport {
                 ions: active.len(),
@@ -601,7 +595,7 @@ impl<'a> Emitter<'a> {
         };
         if !plain_could_win && !could_win(quiet_pre.as_slice()) {
             let (ops, report) = cheap_result(self, found);
-            return (Part::Ops(ops), report, None);
+            return (Part::Ops(ops), report);
         }
         let best = self.synthesis(&local);
         if let Some(certs) = &mut self.certificates {
@@ -749,17 +743,13 @@ impl<'a> Emitter<'a> {
             };
             let part = QuietPart {
                 groups,
-                plain: Vec::new(),
-                plain_report: None,
+                plain: ops,
+                plain_report,
                 report: usize::MAX,
             };
-            return (
-                Part::Quiet(Box::new(part)),
-                report,
-                Some((ops, plain_report)),
-            );
+            return (Part::Quiet(Box::new(part)), report);
         }
-        (Part::Ops(self.sandwich(chosen)), report, None)
+        (Part::Ops(self.sandwich(chosen)), report)
     }
 
     /// A block's pulses between the collective rotations that take Z to X and back:
@@ -819,7 +809,7 @@ impl<'a> Emitter<'a> {
     /// angle, so the pulses' sum is exact; a flip layer lasts at least one light
     /// shift of angle pi; the error of independent operations is at least
     /// `1 - exp(-sum e_k)`, since `1 - e <= exp(-e)`.
-    fn pulse_bound(&self, count: usize, theta: f64, flips: usize) -> (f64, f64) {
+    fn pulse_bound(&self, count: usize, theta: f64, flips: usize) -> Key {
         self.bound_with(count, theta, flips, 0.0, 0.0)
     }
 
@@ -827,7 +817,7 @@ impl<'a> Emitter<'a> {
     /// of total angle `theta` with at least `flips` layers of light shifts between
     /// them (each idle ion hidden and unhidden, one at a time): [`Self::pulse_bound`]
     /// with the hiding's time and error added.
-    fn hiding_bound(&self, idle: usize, theta: f64, count: usize, flips: usize) -> (f64, f64) {
+    fn hiding_bound(&self, idle: usize, theta: f64, count: usize, flips: usize) -> Key {
         let (d, e) = (&self.profile.durations_us, &self.profile.errors);
         let at = |c: Option<crate::native::profile::Cost>| c.map_or(0.0, |c| c.at(0.0));
         let idle = idle as f64;
@@ -842,14 +832,7 @@ impl<'a> Emitter<'a> {
 
     /// [`Self::pulse_bound`] plus `time` and `error` (a sum of failure rates) of
     /// other operations.
-    fn bound_with(
-        &self,
-        count: usize,
-        theta: f64,
-        flips: usize,
-        time: f64,
-        error: f64,
-    ) -> (f64, f64) {
+    fn bound_with(&self, count: usize, theta: f64, flips: usize, time: f64, error: f64) -> Key {
         let (d, e) = (&self.profile.durations_us, &self.profile.errors);
         let count = count as f64;
         let flips = flips as f64;
@@ -867,7 +850,7 @@ impl<'a> Emitter<'a> {
     }
 
     /// A lower bound on a built candidate's key from its entangling pulses alone.
-    fn lower_key(&self, made: &Made) -> (f64, f64) {
+    fn lower_key(&self, made: &Made) -> Key {
         let d = &self.profile.durations_us;
         let e = &self.profile.errors;
         let (mut count, mut area, mut time, mut keep) = (0.0, 0.0, 0.0, 1.0f64);
@@ -909,8 +892,8 @@ impl<'a> Emitter<'a> {
     fn choose(
         &self,
         mut candidates: Vec<Candidate>,
-        mut best: Option<((f64, f64), Built)>,
-    ) -> Option<((f64, f64), Built)> {
+        mut best: Option<(Key, Built)>,
+    ) -> Option<(Key, Built)> {
         candidates.sort_by(|a, b| a.lower.0.total_cmp(&b.lower.0));
         for c in candidates {
             if let Some((k, _)) = &best {
@@ -942,14 +925,7 @@ impl<'a> Emitter<'a> {
             if broken && self.build_all {
                 self.shared.bound_violations.fetch_add(1, Ordering::Relaxed);
             }
-            let better = match &best {
-                None => true,
-                Some((k, _)) => {
-                    key.0 < k.0 - 1e-12 * k.0.abs()
-                        || (key.0 <= k.0 + 1e-12 * k.0.abs() && key.1 < k.1)
-                }
-            };
-            if better {
+            if best.as_ref().map_or(true, |(k, _)| better(key, *k)) {
                 best = Some((key, (ops, c.method, c.weight, groups)));
             }
         }
@@ -959,7 +935,7 @@ impl<'a> Emitter<'a> {
 
 /// `own`, or the floor's bound where that is higher and every candidate is built
 /// (only then: the floors' bounds decide before building, and are checked here).
-fn with_floor(all: bool, own: (f64, f64), floor: Option<(f64, f64)>) -> (f64, f64) {
+fn with_floor(all: bool, own: Key, floor: Option<Key>) -> Key {
     match floor {
         Some(f) if all && f.0 > own.0 => f,
         _ => own,
@@ -976,17 +952,14 @@ type Plan = (Vec<NativeOp>, Vec<BlockReport>);
 /// The objective's figures of some operations, the smaller the better.
 type Key = (f64, f64);
 
-/// Whether `a` beats `b` when whole segments are compared: the first figures must
-/// differ by more than rounding (1e-9 relative) to decide, else the second decide.
-/// Plans of the same area made in different ways differ in their sums' last bits,
-/// which must not outweigh a hundred pulses under the objective `area`.
+/// Whether key `a` beats key `b`: the first figures must differ by more than
+/// rounding (1e-9 relative) to decide, else the second decide. Plans of the same
+/// area made in different ways differ in their sums' last bits, which must not
+/// outweigh a hundred pulses under the objective `area`.
 fn better(a: Key, b: Key) -> bool {
     let tol = 1e-9 * a.0.abs().max(b.0.abs());
     a.0 < b.0 - tol || ((a.0 - b.0).abs() <= tol && a.1 < b.1)
 }
-
-/// A block made without the quiet ions' column: its operations and report.
-type Alternative = (Vec<NativeOp>, Option<BlockReport>);
 
 /// A candidate's pulses: sign vectors still to be ordered, the same in groups whose
 /// quiet ions still need their signs, or operations.
@@ -1000,7 +973,7 @@ enum Made {
 /// couplings were found, its total weight, and how to build it (`None` when the
 /// construction does not apply after all).
 struct Candidate<'c> {
-    lower: (f64, f64),
+    lower: Key,
     method: Method,
     weight: f64,
     build: Box<dyn FnOnce() -> Option<Made> + 'c>,

@@ -56,11 +56,31 @@ fn plain_circuit(dir: &Path) -> (PathBuf, String) {
     (c, body)
 }
 
+/// The demo profile with chain MS of one sign only, written as `one_sign.toml`: its
+/// blocks echo the spare ions, whose flips these tests edit (with signed pulses a
+/// spare ion is never touched: tests/optimizer.rs covers those).
+fn one_sign_profile(dir: &Path) -> PathBuf {
+    let text = std::fs::read_to_string("profiles/demo.toml").unwrap();
+    let off = text.replace("negative_chain_ms = true", "negative_chain_ms = false");
+    assert_ne!(off, text, "the demo profile sets negative_chain_ms");
+    let p = dir.join("one_sign.toml");
+    std::fs::write(&p, off).unwrap();
+    p
+}
+
 fn setup(dir: &Path, format: &str) -> (PathBuf, PathBuf) {
     let c = dir.join("three.qasm");
     std::fs::write(&c, CIRCUIT).unwrap();
     let out = dir.join(format!("three-out.{format}"));
-    let o = tutti(&["compile", c.to_str().unwrap(), "-o", out.to_str().unwrap()]);
+    let device = one_sign_profile(dir);
+    let o = tutti(&[
+        "compile",
+        c.to_str().unwrap(),
+        "--device",
+        device.to_str().unwrap(),
+        "-o",
+        out.to_str().unwrap(),
+    ]);
     assert_eq!(o.status.code(), Some(0), "{}", text(&o.stderr));
     (c, out)
 }
@@ -643,9 +663,12 @@ fn the_optimizer_output_is_located_by_instruction_with_trace_every() {
     let tmp = tempfile::tempdir().unwrap();
     let (c, _) = plain_circuit(tmp.path());
     let out = tmp.path().join("plain.pulses");
+    let device = one_sign_profile(tmp.path());
     let o = tutti(&[
         "compile",
         c.to_str().unwrap(),
+        "--device",
+        device.to_str().unwrap(),
         "--trace-every",
         "1",
         "-o",

@@ -190,7 +190,16 @@ fn block_certificates_hold() {
     assert!(blocks >= 10, "{blocks} blocks");
 }
 
-/// The optimizer's output on circuits/`name`.qasm for the demo device (default
+/// The demo device with chain MS pulses of one sign only (`negative_chain_ms`
+/// off): blocks must echo or fold the spare ions, the paths the tests calling
+/// [`compiled`] and [`compiled_text`] exercise.
+fn one_sign_demo() -> Profile {
+    let mut p = Profile::demo();
+    p.capabilities.negative_chain_ms = false;
+    p
+}
+
+/// The optimizer's output on circuits/`name`.qasm for [`one_sign_demo`] (default
 /// settings).
 fn compiled(name: &str) -> (Circuit, Sequence) {
     let text = std::fs::read_to_string(format!("circuits/{name}.qasm")).unwrap();
@@ -510,17 +519,22 @@ fn controlled_rotations_become_one_interaction() {
 /// (compile/optimize/pair_runs.rs): a SWAP followed by a CNOT on the same pair is
 /// locally an iSWAP, (pi/4, pi/4, 0) (common practice), so two units of MS area
 /// instead of the four of its CNOTs; the output verifies, and the same circuit with
-/// the CNOT's target moved to a third qubit still verifies at its own cost.
+/// the CNOT's target moved to a third qubit still verifies at its own cost (four
+/// units with pulses of one sign; three with signed pulses, which make the SWAP's
+/// three couplings on one pair plus the CNOT's on another in less area than the
+/// program over one sign allows: measured).
 #[test]
 fn a_swap_next_to_a_cnot_costs_two_units() {
-    for (text, want) in [
-        ("swap q[0],q[1];\ncx q[0],q[1];\n", 2.0),
-        ("swap q[0],q[1];\ncx q[0],q[2];\n", 4.0),
+    for (profile, text, want) in [
+        (one_sign_demo(), "swap q[0],q[1];\ncx q[0],q[1];\n", 2.0),
+        (one_sign_demo(), "swap q[0],q[1];\ncx q[0],q[2];\n", 4.0),
+        (Profile::demo(), "swap q[0],q[1];\ncx q[0],q[1];\n", 2.0),
+        (Profile::demo(), "swap q[0],q[1];\ncx q[0],q[2];\n", 3.0),
     ] {
         let c = common::read_ok_str(&format!(
             "OPENQASM 2.0;\ninclude \"qelib1.inc\";\nqreg q[3];\nh q[0];\nt q[1];\n{text}"
         ));
-        let o = compile_optimized(&c, &Profile::demo(), &OptConfig::default()).unwrap();
+        let o = compile_optimized(&c, &profile, &OptConfig::default()).unwrap();
         let area: f64 = o.blocks.iter().map(|b| b.area).sum();
         assert!((area - want).abs() < 1e-9, "{text}: area {area}");
         assert!(verdict(&c, &o.sequence), "{text}");
@@ -844,10 +858,19 @@ fn the_peephole_keeps_the_unitary_and_stops_at_its_fixed_point() {
 }
 
 /// The optimizer's output on `text` (a circuit read from OpenQASM) for the 40-ion
-/// demo device on the collective target, with `objective`.
+/// [`one_sign_demo`] device on the collective target, with `objective`.
 fn compiled_text(
     text: &str,
     objective: tutti::compile::optimize::Objective,
+) -> (Circuit, Sequence) {
+    compiled_on(text, objective, &one_sign_demo())
+}
+
+/// [`compiled_text`] on `profile`.
+fn compiled_on(
+    text: &str,
+    objective: tutti::compile::optimize::Objective,
+    profile: &Profile,
 ) -> (Circuit, Sequence) {
     let c = tutti::qasm::read_str("t.qasm", text)
         .circuit
@@ -856,7 +879,7 @@ fn compiled_text(
         objective,
         ..OptConfig::default()
     };
-    let o = compile_optimized(&c, &Profile::demo(), &cfg).unwrap();
+    let o = compile_optimized(&c, profile, &cfg).unwrap();
     (c, o.sequence)
 }
 
@@ -1096,4 +1119,104 @@ fn a_fold_with_a_block_swapped_is_proven_and_its_near_misses_caught() {
             "MS pulse at step {at} off by 1e-8"
         );
     }
+}
+
+/// Signed pulses (docs/gate-set.md, fact 10; MS of negative area, the sign set by
+/// the detuning: common practice): the spare ions keep sign +1 and are never
+/// touched, each CNOT of ghz_5 is four pulses of a quarter of its area. The output is
+/// proven equal; near misses proven different: one negative pulse played positive,
+/// a pulse off by 1e-8, a spare ion flipped for one pulse, a flip of a circuit ion
+/// left out.
+#[test]
+fn signed_pulses_leave_spare_ions_alone_and_their_near_misses_are_caught() {
+    use std::f64::consts::PI;
+    use tutti::compile::optimize::Objective;
+    let text = std::fs::read_to_string("circuits/ghz_5.qasm").unwrap();
+    let (c, seq) = compiled_on(&text, Objective::default(), &Profile::demo());
+    assert!(verdict(&c, &seq), "the signed ghz_5 verifies");
+    let negative: Vec<usize> = ms_steps(&seq)
+        .into_iter()
+        .filter(|&k| matches!(seq.steps[k].op, NativeOp::Ms { theta, .. } if theta < 0.0))
+        .collect();
+    assert!(!negative.is_empty(), "no MS pulse of negative area");
+    assert_eq!(
+        count(
+            &seq,
+            |op| matches!(op, NativeOp::LightShift { ion, .. } if *ion >= 5)
+        ),
+        0,
+        "a spare ion was touched"
+    );
+    assert!(
+        ms_steps(&seq).len() <= 16,
+        "{} MS pulses",
+        ms_steps(&seq).len()
+    );
+    let mut positive = seq.clone();
+    if let NativeOp::Ms { theta, .. } = &mut positive.steps[negative[0]].op {
+        *theta = -*theta;
+    }
+    assert_eq!(
+        verdict_or_refusal(&c, &positive),
+        Some(false),
+        "a negative pulse played positive"
+    );
+    assert_eq!(
+        verdict_or_refusal(&c, &ms_off_by_a_hair(&seq, negative[0])),
+        Some(false),
+        "a pulse off by 1e-8"
+    );
+    let shift = |ion: u32, theta: f64| tutti::native::Step {
+        op: NativeOp::LightShift { ion, theta },
+        condition: None,
+    };
+    let mut flipped = seq.clone();
+    flipped.steps.insert(negative[0] + 1, shift(20, -PI));
+    flipped.steps.insert(negative[0], shift(20, PI));
+    assert_eq!(
+        verdict_or_refusal(&c, &flipped),
+        Some(false),
+        "a spare ion flipped for one pulse"
+    );
+    let flip = (0..negative[0])
+        .rev()
+        .find(|&k| matches!(seq.steps[k].op, NativeOp::LightShift { theta, .. } if (theta.abs() - PI).abs() < 1e-12))
+        .expect("a flip before the negative pulse");
+    assert_eq!(
+        verdict_or_refusal(&c, &without_step(&seq, flip)),
+        Some(false),
+        "a flip of a circuit ion left out"
+    );
+}
+
+/// A device without negative chain MS gets none, on any circuit of circuits/ and
+/// either target, and no fewer than zero (the capability gates the construction).
+#[test]
+fn without_the_capability_no_chain_pulse_is_negative() {
+    let mut negative_with = 0;
+    for path in common::files("circuits", "qasm") {
+        let c = common::read_ok(&path);
+        for target in [
+            tutti::compile::Target::Collective,
+            tutti::compile::Target::Addressed,
+        ] {
+            let cfg = OptConfig {
+                target,
+                ..OptConfig::default()
+            };
+            let negatives = |p: &Profile| {
+                let o = compile_optimized(&c, p, &cfg).unwrap();
+                count(
+                    &o.sequence,
+                    |op| matches!(op, NativeOp::Ms { theta, .. } if *theta < 0.0),
+                )
+            };
+            assert_eq!(negatives(&one_sign_demo()), 0, "{}", path.display());
+            negative_with += negatives(&Profile::demo());
+        }
+    }
+    assert!(
+        negative_with > 0,
+        "the demo device never used a negative pulse"
+    );
 }

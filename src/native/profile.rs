@@ -44,6 +44,11 @@ pub struct Capabilities {
     pub hiding: bool,
     #[serde(default)]
     pub parallel_light_shifts: bool,
+    /// Key `negative_chain_ms`: chain MS pulses of negative area, `MS(theta, phi)`
+    /// with `theta < 0` (on most machines the interaction's sign follows the sign of
+    /// the detuning: common practice). The optimizer emits them only when set.
+    #[serde(default)]
+    pub negative_chain_ms: bool,
 }
 
 /// One [`Cost`] per kind of operation.

@@ -38,9 +38,11 @@ use std::time::{Duration, Instant};
 
 mod constructions;
 mod lp;
+mod signed;
 
 pub use constructions::{hadamard_each, matching, matching_layers, pad_idle};
 use lp::{columns, exact};
+pub use signed::{certifies_signed, signed_labels};
 /// Up to this many ions the program is solved over all `2^(n-1)` sign vectors.
 pub const EXACT_IONS: usize = 10;
 /// Up to this many ions the pricing step of column generation is exact.
@@ -126,6 +128,8 @@ pub enum Method {
     Matching,
     /// gate-set fact 6 for each coupling on its own (the fallback).
     Hadamard,
+    /// gate-set fact 10: pulses of both signs, the other ions never flipped.
+    Signed,
 }
 
 /// Sign vectors and weights realising a coupling, with what is known of the optimum.

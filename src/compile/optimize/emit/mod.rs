@@ -23,8 +23,8 @@ use super::Objective;
 use crate::circuit::{Condition, Mat2};
 use crate::compile::couple::{
     components, floor_of_parts, hadamard_each, matching, order_pulses, pad_idle, side_by_side,
-    side_by_side_pulses, synthesize, Budget as SynthBudget, Coupling, Floor, Method, Pulse,
-    Synthesis,
+    side_by_side_pulses, signed_labels, synthesize, Budget as SynthBudget, Coupling, Floor, Method,
+    Pulse, Synthesis,
 };
 use crate::compile::hadamard::{smallest_hadamard, smallest_order};
 use crate::compile::lower::zyz;
@@ -47,6 +47,8 @@ use quiet::{
 };
 /// Angles this close to zero (mod 2 pi where that is a global phase) are left out.
 const EPS: f64 = 1e-14;
+/// The most pulses a block of signed pulses (fact 10) may take.
+const MAX_SIGNED_PULSES: usize = 64;
 
 use crate::compile::baseline::wrap;
 
@@ -468,6 +470,18 @@ impl<'a> Emitter<'a> {
                 build: Box::new(move || Some(Made::Pulses(hadamard_each(device).pulses))),
             });
         }
+        // Fact 10: pulses of both signs, every other ion left at +1 (no echo).
+        if self.profile.capabilities.negative_chain_ms {
+            if let Some(s) = signed_labels(&local, MAX_SIGNED_PULSES) {
+                let pulses = on_device(&s.pulses, &active_idx, n);
+                cheap.push(Candidate::built(
+                    self,
+                    Made::Pulses(pulses),
+                    Method::Signed,
+                    s.weight,
+                ));
+            }
+        }
         if self.target == Target::Addressed && self.profile.capabilities.pair_ms {
             let pair: Vec<NativeOp> = terms
                 .iter()
@@ -674,7 +688,7 @@ impl<'a> Emitter<'a> {
             });
         }
         if hiding {
-            let (best, active) = (&best, &active);
+            let (best, active, active_idx) = (&best, &active, &active_idx);
             candidates.push(Candidate {
                 lower: with_floor(
                     all,
@@ -684,20 +698,7 @@ impl<'a> Emitter<'a> {
                 method: best.method,
                 weight: best.weight,
                 build: Box::new(move || {
-                    let on_active: Vec<Pulse> = best
-                        .pulses
-                        .iter()
-                        .map(|p| {
-                            let mut signs = crate::compile::couple::Signs::from_elem(1, n);
-                            for (k, &q) in active.iter().enumerate() {
-                                signs[q as usize] = p.signs[k];
-                            }
-                            Pulse {
-                                signs,
-                                weight: p.weight,
-                            }
-                        })
-                        .collect();
+                    let on_active = on_device(&best.pulses, active_idx, n);
                     let hidden = (0..n as u32).filter(|ion| active.binary_search(ion).is_err());
                     let mut body: Vec<NativeOp> =
                         hidden.clone().map(|ion| NativeOp::Hide { ion }).collect();
@@ -717,7 +718,12 @@ impl<'a> Emitter<'a> {
             ions: active.len(),
             couplings: terms.len(),
             area: 2.0 * built.2 / FRAC_PI_2,
-            lower_bound: 2.0 * best.lower_bound / FRAC_PI_2,
+            // The program's bound is on pulses of one sign; signed ones may go below.
+            lower_bound: if built.1 == Method::Signed {
+                0.0
+            } else {
+                2.0 * best.lower_bound / FRAC_PI_2
+            },
             method: built.1,
             pulses: built.0.iter().filter(|op| op.is_entangling()).count(),
         };
@@ -996,6 +1002,23 @@ impl<'c> Candidate<'c> {
 enum Part {
     Ops(Vec<NativeOp>),
     Quiet(Box<QuietPart>),
+}
+
+/// Pulses on a block's active ions placed on the device, every other ion at +1.
+fn on_device(pulses: &[Pulse], active: &[usize], n: usize) -> Vec<Pulse> {
+    pulses
+        .iter()
+        .map(|p| {
+            let mut signs = crate::compile::couple::Signs::from_elem(1, n);
+            for (k, &q) in active.iter().enumerate() {
+                signs[q] = p.signs[k];
+            }
+            Pulse {
+                signs,
+                weight: p.weight,
+            }
+        })
+        .collect()
 }
 
 /// Sign-vector pulses as native operations: ordered for few flips, each pulse

@@ -601,8 +601,9 @@ fn skipping_candidates_by_their_bounds_loses_nothing() {
 
 /// The same on wide blocks, where the floors decide (the circuits above rarely
 /// have blocks of many parts): generated circuits on 50 qubits, the kind the
-/// compile benchmark times, for a 50-ion variant of the demo profile and one where
-/// hiding is cheap enough to win blocks (invented example numbers), both targets.
+/// compile benchmark times, for a 50-ion variant of the demo profile (with chain MS
+/// of one sign, and of both), and one where hiding is cheap enough to win blocks
+/// (invented example numbers), both targets.
 /// Pruned and build-all compiles choose blocks of the same duration, no built
 /// candidate has a key below a bound it carried, and most blocks skip the coupling
 /// program.
@@ -611,8 +612,12 @@ fn skipping_by_the_floors_loses_nothing_on_wide_blocks() {
     use generated::{generated_circuit, Kind};
     use tutti::native::budget::budget;
     use tutti::native::profile::Cost;
-    let mut profile = Profile::demo();
-    profile.device.ions = 50;
+    let mut signed = Profile::demo();
+    signed.device.ions = 50;
+    // Pulses of one sign, so that the echo, fold and hiding candidates are the ones
+    // in play (with signed pulses hiding wins no block here).
+    let mut profile = signed.clone();
+    profile.capabilities.negative_chain_ms = false;
     let mut cheap_hiding = profile.clone();
     let quick = Some(Cost {
         fixed: 2.0,
@@ -626,6 +631,8 @@ fn skipping_by_the_floors_loses_nothing_on_wide_blocks() {
         (&profile, Target::Addressed, 3000),
         (&cheap_hiding, Target::Addressed, 3000),
         (&profile, Target::Collective, 600),
+        (&signed, Target::Collective, 600),
+        (&signed, Target::Addressed, 1000),
     ]
     .into_iter()
     .enumerate()

@@ -26,11 +26,13 @@
 //! of weight `+-w/4` (total `w`); any number of disjoint pairs of one weight take
 //! `m` pulses of total weight `w`.
 //!
-//! Invariant: a returned synthesis realises the coupling among its ions, leaves every
-//! ion's coupling to a spectator at zero, and sums to zero weight (no coupling among
-//! spectators), each within [`CERTIFICATE_EPS`] ([`certifies_signed`]).
+//! Invariant: a plan the optimizer keeps has passed [`SignedPlan::certifies`]: it
+//! realises the coupling among its ions, leaves every ion's coupling to a spectator
+//! at zero, and sums to zero weight (no coupling among spectators), each within
+//! [`CERTIFICATE_EPS`]. The constructions return unchecked plans, since the
+//! optimizer plans several per block and checks only those it may keep.
 
-use super::{components, Coupling, Method, Pulse, Signs, Synthesis, CERTIFICATE_EPS};
+use super::{Coupling, Method, Pulse, Signs, Synthesis, CERTIFICATE_EPS};
 use rustc_hash::{FxHashMap, FxHashSet};
 
 /// The labelling of a coupling's ions: columns, and each label with its weight.
@@ -43,28 +45,168 @@ struct Labels {
     bits: u32,
 }
 
+/// A component of a coupling: its ions and the coupling among them.
+type Part = (Vec<usize>, Coupling);
+
+/// One Walsh labelling: the ions it labels with their columns, and the weight of
+/// each row of the label bits (pulse `j` of the `m` weighs `t[j % t.len()]`).
+#[derive(Debug, Clone)]
+struct Walsh {
+    ions: Vec<usize>,
+    column: Vec<u32>,
+    t: Vec<f64>,
+    m: usize,
+}
+
+impl Walsh {
+    /// Rows of `t` below this (relative to the largest) make no pulse.
+    fn kept(&self) -> impl Iterator<Item = usize> + '_ {
+        let top = self.t.iter().fold(0.0f64, |a, b| a.max(b.abs()));
+        (0..self.m).filter(move |&j| self.t[j % self.t.len()].abs() > 1e-15 * top)
+    }
+
+    /// Its pulses with the signs of `ions[k]` at `at(ions[k])` among `n`, the rest +1.
+    fn pulses(&self, n: usize, at: &dyn Fn(usize) -> usize, out: &mut Vec<Pulse>) {
+        for j in self.kept() {
+            let mut signs = Signs::from_elem(1, n);
+            for (&u, &col) in self.ions.iter().zip(&self.column) {
+                signs[at(u)] = parity_sign(j as u32 & col);
+            }
+            out.push(Pulse {
+                signs,
+                weight: self.t[j % self.t.len()],
+            });
+        }
+    }
+}
+
+/// `+1` for an even number of set bits, else `-1`: `H[j][c]` for `x = j & c`.
+fn parity_sign(x: u32) -> i8 {
+    if x.count_ones() % 2 == 0 {
+        1
+    } else {
+        -1
+    }
+}
+
+/// Signed pulses for a coupling, as labellings played one after the other (each
+/// one's ions spectators of the others), known by count and weight before any pulse
+/// is made.
+#[derive(Debug, Clone)]
+pub struct SignedPlan {
+    walsh: Vec<Walsh>,
+}
+
+impl SignedPlan {
+    /// The number of pulses.
+    pub fn count(&self) -> usize {
+        self.walsh.iter().map(|w| w.kept().count()).sum()
+    }
+
+    /// The sum of the pulses' magnitudes.
+    pub fn weight(&self) -> f64 {
+        self.walsh
+            .iter()
+            .map(|w| (w.m / w.t.len()) as f64 * w.t.iter().map(|t| t.abs()).sum::<f64>())
+            .sum()
+    }
+
+    /// The pulses on `n` ions, ion `u` of the coupling at `at(u)`, every other +1.
+    pub fn pulses_on(&self, n: usize, at: &dyn Fn(usize) -> usize) -> Vec<Pulse> {
+        let mut out = Vec::new();
+        for w in &self.walsh {
+            w.pulses(n, at, &mut out);
+        }
+        out
+    }
+
+    /// The pulses on the coupling's own `n` ions, as a synthesis.
+    pub fn synthesis(&self, c: &Coupling) -> Synthesis {
+        let pulses = self.pulses_on(c.n, &|u| u);
+        Synthesis {
+            weight: pulses.iter().map(|p| p.weight.abs()).sum(),
+            pulses,
+            lower_bound: c.max_abs(),
+            method: Method::Signed,
+        }
+    }
+
+    /// The certificate, labelling by labelling: each one's pulses on its own ions
+    /// pass [`certifies_signed`] against `c` there (so its ions are uncoupled from
+    /// everything else, which it sees as spectators), and every coupling of `c` lies
+    /// within one labelling. Together: the plan realises `c` with spectators still.
+    pub fn certifies(&self, c: &Coupling) -> bool {
+        let mut group = vec![usize::MAX; c.n];
+        for (g, w) in self.walsh.iter().enumerate() {
+            for &u in &w.ions {
+                if u >= c.n || group[u] != usize::MAX {
+                    return false;
+                }
+                group[u] = g;
+            }
+        }
+        let within = (0..c.n).all(|i| {
+            (i + 1..c.n)
+                .all(|j| c.get(i, j) == 0.0 || (group[i] == group[j] && group[i] != usize::MAX))
+        });
+        within
+            && self.walsh.iter().all(|w| {
+                let mut own = Coupling::zero(w.ions.len());
+                for (a, &i) in w.ions.iter().enumerate() {
+                    for (b, &j) in w.ions.iter().enumerate().skip(a + 1) {
+                        own.set(a, b, c.get(i, j));
+                    }
+                }
+                let mut pulses = Vec::new();
+                let local: FxHashMap<usize, usize> =
+                    w.ions.iter().enumerate().map(|(k, &u)| (u, k)).collect();
+                w.pulses(w.ions.len(), &|u| local[&u], &mut pulses);
+                let s = Synthesis {
+                    pulses,
+                    weight: 0.0,
+                    lower_bound: 0.0,
+                    method: Method::Signed,
+                };
+                certifies_signed(&s, &own)
+            })
+    }
+}
+
 /// Pulses of both signs realising `c` with any other ion (a spectator) at sign +1
-/// throughout and uncoupled, at most `max_pulses` of them; `None` when the labelling
-/// needs more (or more than 24 label bits).
-pub fn signed_labels(c: &Coupling, max_pulses: usize) -> Option<Synthesis> {
-    let parts: Vec<(Vec<usize>, Coupling)> = components(c)
-        .into_iter()
-        .filter(|(ions, _)| ions.len() > 1)
-        .collect();
+/// throughout and uncoupled, in one labelling of at most `max_pulses` pulses; `None`
+/// when it needs more (or more than 24 label bits). `parts` are `c`'s components
+/// ([`components`](super::components)). Not yet checked: the caller runs
+/// [`SignedPlan::certifies`] on what it keeps (the optimizer plans several per block
+/// and makes and checks only those it may keep).
+pub fn signed_labels(
+    c: &Coupling,
+    parts: &[(Vec<usize>, Coupling)],
+    max_pulses: usize,
+) -> Option<SignedPlan> {
+    let parts: Vec<&(Vec<usize>, Coupling)> = parts.iter().filter(|p| p.0.len() > 1).collect();
+    Some(SignedPlan {
+        walsh: vec![labelled(c, &parts, max_pulses)?],
+    })
+}
+
+/// One labelling of the components `parts` of `c` (each with a coupling).
+fn labelled(c: &Coupling, parts: &[&(Vec<usize>, Coupling)], max_pulses: usize) -> Option<Walsh> {
     if parts.is_empty() {
         return None;
     }
-    let labels = label(c, &parts, true).or_else(|| label(c, &parts, false))?;
+    let labels = label(c, parts, true).or_else(|| label(c, parts, false))?;
     let p_bits = usize::BITS - parts.len().leading_zeros();
     let bits = labels.bits + p_bits;
     if bits > 24 || 1usize << bits > max_pulses {
         return None;
     }
     let m = 1usize << bits;
-    let mut column = vec![0u32; c.n];
-    for (k, (ions, _)) in parts.iter().enumerate() {
-        for &u in ions {
-            column[u] = ((k as u32 + 1) << labels.bits) | labels.y[u]?;
+    let mut ions = Vec::new();
+    let mut column = Vec::new();
+    for (k, (members, _)) in parts.iter().enumerate() {
+        for &u in members {
+            ions.push(u);
+            column.push(((k as u32 + 1) << labels.bits) | labels.y[u]?);
         }
     }
     let mut alphas: Vec<(u32, f64)> = labels
@@ -73,48 +215,73 @@ pub fn signed_labels(c: &Coupling, max_pulses: usize) -> Option<Synthesis> {
         .map(|(&x, &w)| (x, w / m as f64))
         .collect();
     alphas.sort_by_key(|a| a.0);
-    let sign = |j: usize, col: u32| -> i8 {
-        if (j as u32 & col).count_ones() % 2 == 0 {
-            1
-        } else {
-            -1
-        }
-    };
     // The weights depend on the label bits of j alone: one sum per label row.
-    let rows = 1usize << labels.bits;
-    let t: Vec<f64> = (0..rows)
-        .map(|j| alphas.iter().map(|&(x, a)| a * f64::from(sign(j, x))).sum())
+    let t: Vec<f64> = (0..1u32 << labels.bits)
+        .map(|j| {
+            alphas
+                .iter()
+                .map(|&(x, a)| a * f64::from(parity_sign(j & x)))
+                .sum()
+        })
         .collect();
-    let top = t.iter().fold(0.0f64, |a, b| a.max(b.abs()));
-    let mut pulses = Vec::new();
-    for j in 0..m {
-        let weight = t[j % rows];
-        if weight.abs() <= 1e-15 * top {
+    Some(Walsh { ions, column, t, m })
+}
+
+/// [`signed_labels`] for each class of components with the same set of weights (all
+/// pairs of one weight are a class), one class after the other: each class's ions
+/// are spectators of the others. The area is the classes' sum, the pulses about four
+/// per coupling at most, where one labelling of a block with many distinct weights
+/// multiplies the classes' pulse counts. `None` when some class cannot be labelled
+/// within `max_pulses`, or when there is only one class. Not yet checked, as
+/// [`signed_labels`].
+pub fn signed_classes(
+    c: &Coupling,
+    parts: &[(Vec<usize>, Coupling)],
+    max_pulses: usize,
+) -> Option<SignedPlan> {
+    // Each class: its weights (as bits) and its components.
+    let mut classes: Vec<(Vec<u64>, Vec<&Part>)> = Vec::new();
+    for part in parts {
+        let mut key: Vec<u64> = part
+            .1
+            .w
+            .iter()
+            .filter(|w| **w != 0.0)
+            .map(|w| w.to_bits())
+            .collect();
+        key.sort_unstable();
+        key.dedup();
+        if key.is_empty() {
             continue;
         }
-        let signs: Signs = column.iter().map(|&col| sign(j, col)).collect();
-        pulses.push(Pulse { signs, weight });
+        match classes.iter_mut().find(|(k, _)| *k == key) {
+            Some((_, members)) => members.push(part),
+            None => classes.push((key, vec![part])),
+        }
     }
-    let weight = pulses.iter().map(|p| p.weight.abs()).sum();
-    let s = Synthesis {
-        pulses,
-        weight,
-        lower_bound: c.max_abs(),
-        method: Method::Signed,
-    };
-    certifies_signed(&s, c).then_some(s)
+    if classes.len() < 2 {
+        return None;
+    }
+    let walsh = classes
+        .iter()
+        .map(|(_, members)| labelled(c, members, max_pulses))
+        .collect::<Option<Vec<Walsh>>>()?;
+    Some(SignedPlan { walsh })
 }
 
 /// Labels the ions of `parts` (components of `c` with a coupling each); `share`
-/// lets couplings of equal weight share a label where nothing collides.
-fn label(c: &Coupling, parts: &[(Vec<usize>, Coupling)], share: bool) -> Option<Labels> {
+/// lets couplings of equal weight share a label, and new labels take unused values
+/// before a new bit, where nothing collides. Without it every coupling of a
+/// component's spanning tree takes a bit of its own, which always succeeds: each
+/// pair's XOR is then the tree path between them.
+fn label(c: &Coupling, parts: &[&(Vec<usize>, Coupling)], share: bool) -> Option<Labels> {
     let mut l = Labels {
         y: vec![None; c.n],
         weight: FxHashMap::default(),
         free: FxHashSet::default(),
         bits: 0,
     };
-    for (ions, _) in parts {
+    for &(ions, _) in parts {
         let mut placed: Vec<usize> = vec![ions[0]];
         l.y[ions[0]] = Some(0);
         let mut head = 0;
@@ -139,8 +306,18 @@ fn label(c: &Coupling, parts: &[(Vec<usize>, Coupling)], share: bool) -> Option<
                 } else {
                     Vec::new()
                 };
+                // Then, sharing, any value of the label bits so far that is neither
+                // a label nor a free XOR (so distinct weights need only as many bits
+                // as it takes to count them).
+                let unused: Vec<u32> = if share {
+                    (1..1u32 << l.bits)
+                        .filter(|x| !l.weight.contains_key(x) && !l.free.contains(x))
+                        .collect()
+                } else {
+                    Vec::new()
+                };
                 let mut done = false;
-                for x in shared {
+                for x in shared.into_iter().chain(unused) {
                     if let Some(new) = fits(c, &l, &placed, u, yv ^ x) {
                         commit(&mut l, u, yv ^ x, new);
                         done = true;
@@ -228,6 +405,7 @@ pub fn certifies_signed(s: &Synthesis, c: &Coupling) -> bool {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::compile::couple::components;
     use rand::{Rng, SeedableRng};
     use std::f64::consts::FRAC_PI_4;
 
@@ -267,7 +445,9 @@ mod tests {
         // +-w/4 over the four sign patterns of the pair, total w.
         let mut c = Coupling::zero(2);
         c.set(0, 1, FRAC_PI_4);
-        let s = signed_labels(&c, 64).expect("a pair is labelled");
+        let plan = signed_labels(&c, &components(&c), 64).expect("a pair is labelled");
+        assert!(plan.certifies(&c));
+        let s = plan.synthesis(&c);
         assert_eq!(s.pulses.len(), 4);
         assert!(s
             .pulses
@@ -288,7 +468,9 @@ mod tests {
             for i in 0..k {
                 c.set(2 * i, 2 * i + 1, -0.3);
             }
-            let s = signed_labels(&c, 1 << 10).expect("pairs are labelled");
+            let s = signed_labels(&c, &components(&c), 1 << 10)
+                .expect("pairs are labelled")
+                .synthesis(&c);
             let bits = usize::BITS - k.leading_zeros();
             assert_eq!(s.pulses.len(), 1 << (1 + bits), "k = {k}");
             assert!((s.weight - 0.3).abs() < 1e-14, "k = {k}: {}", s.weight);
@@ -314,10 +496,14 @@ mod tests {
             if c.max_abs() == 0.0 {
                 continue;
             }
-            match signed_labels(&c, 1 << 16) {
-                Some(s) => {
+            match signed_labels(&c, &components(&c), 1 << 16) {
+                Some(plan) => {
                     made += 1;
+                    assert!(plan.certifies(&c), "round {round}");
+                    let s = plan.synthesis(&c);
                     assert!(certifies_signed(&s, &c), "round {round}");
+                    assert_eq!(plan.count(), s.pulses.len());
+                    assert!((plan.weight() - s.weight).abs() <= 1e-12 * s.weight);
                     assert!(realises(&s, &c), "round {round}: {c:?}");
                     let largest = c.max_abs();
                     assert!(s.weight >= largest - 1e-12, "round {round}");
@@ -348,7 +534,9 @@ mod tests {
         for leaf in 1..5 {
             c.set(0, leaf, FRAC_PI_4);
         }
-        let s = signed_labels(&c, 64).expect("a star is labelled");
+        let s = signed_labels(&c, &components(&c), 64)
+            .expect("a star is labelled")
+            .synthesis(&c);
         assert_eq!(s.pulses.len(), 4);
         assert!(realises(&s, &c));
     }
@@ -358,7 +546,9 @@ mod tests {
         let mut c = Coupling::zero(3);
         c.set(0, 1, 0.2);
         c.set(1, 2, 0.5);
-        let s = signed_labels(&c, 64).expect("a path is labelled");
+        let s = signed_labels(&c, &components(&c), 64)
+            .expect("a path is labelled")
+            .synthesis(&c);
         assert!(certifies_signed(&s, &c));
         // One pulse's weight off by 1e-8: the couplings, or the spectators', move.
         for k in 0..s.pulses.len() {
@@ -378,5 +568,42 @@ mod tests {
             .iter_mut()
             .for_each(|p| p.weight = p.weight.abs());
         assert!(!certifies_signed(&positive, &c));
+    }
+
+    #[test]
+    fn classes_played_in_turn_are_realised_and_certified() {
+        let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(0xc1a5);
+        let weights = [FRAC_PI_4, 0.3, -0.2, 0.05];
+        let mut made = 0;
+        for round in 0..300 {
+            // Disjoint pairs and stars on up to 14 ions, weights from a few values.
+            let n = rng.gen_range(4..=14);
+            let mut c = Coupling::zero(n);
+            let mut i = 0;
+            while i + 1 < n {
+                let leaves = rng.gen_range(1..=3).min(n - i - 1);
+                let w = weights[rng.gen_range(0..weights.len())];
+                for leaf in 1..=leaves {
+                    c.set(i, i + leaf, w);
+                }
+                i += leaves + 1;
+            }
+            let Some(plan) = signed_classes(&c, &components(&c), 1 << 12) else {
+                continue;
+            };
+            made += 1;
+            assert!(plan.certifies(&c), "round {round}");
+            let s = plan.synthesis(&c);
+            assert!(realises(&s, &c), "round {round}: {c:?}");
+            assert_eq!(plan.count(), s.pulses.len());
+            // A coupling changed by 1e-8, or one left out: refused.
+            let mut off = c.clone();
+            let k = off.w.iter().position(|w| *w != 0.0).expect("a coupling");
+            off.w[k] += 1e-8;
+            assert!(!plan.certifies(&off), "round {round}: off by 1e-8");
+            off.w[k] = 0.0;
+            assert!(!plan.certifies(&off), "round {round}: one left out");
+        }
+        assert!(made > 200, "{made}");
     }
 }

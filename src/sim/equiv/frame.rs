@@ -127,6 +127,58 @@ fn modulus(z: C64) -> f64 {
     z.norm_sqr().sqrt()
 }
 
+/// The frame as an exact phase times a monomial matrix of entries `0, +-1, +-i` (a
+/// Pauli frame, the identity among them) when within `CLIFFORD_EPS` of one, with the
+/// Frobenius distance moved. The frame is a product of every collective rotation so
+/// far, so its rounding grows along a long sequence; each MS pulse pays for that
+/// rounding (`theta / 2 m^2 off`, below), while a snap pays once: taking frame `c'`
+/// for `c` from here on changes the product by `G^(x n) - I` with `G = c^dagger c'`,
+/// at most `n ||c' - c||` in operator norm (derivation in docs/checker.md).
+fn snapped(c: &Mat2) -> Option<(Mat2, f64)> {
+    // The phase of the largest entry.
+    let big = c
+        .iter()
+        .flatten()
+        .copied()
+        .max_by(|a, b| a.norm_sqr().total_cmp(&b.norm_sqr()))?;
+    let phase = big / modulus(big);
+    let unit = |z: C64| -> Option<C64> {
+        let w = z / phase;
+        [
+            C64::new(0.0, 0.0),
+            C64::new(1.0, 0.0),
+            C64::new(-1.0, 0.0),
+            C64::new(0.0, 1.0),
+            C64::new(0.0, -1.0),
+        ]
+        .into_iter()
+        .find(|u| modulus(w - u) <= CLIFFORD_EPS)
+    };
+    let mut exact = [[C64::new(0.0, 0.0); 2]; 2];
+    for (row, out) in c.iter().zip(exact.iter_mut()) {
+        for (z, o) in row.iter().zip(out.iter_mut()) {
+            *o = unit(*z)?;
+        }
+    }
+    // A monomial matrix: one unit entry per row and per column.
+    let zero = |z: C64| z == C64::new(0.0, 0.0);
+    let diagonal =
+        zero(exact[0][1]) && zero(exact[1][0]) && !zero(exact[0][0]) && !zero(exact[1][1]);
+    let anti = zero(exact[0][0]) && zero(exact[1][1]) && !zero(exact[0][1]) && !zero(exact[1][0]);
+    if !(diagonal || anti) {
+        return None;
+    }
+    let exact = exact.map(|row| row.map(|u| u * phase));
+    let d = c
+        .iter()
+        .flatten()
+        .zip(exact.iter().flatten())
+        .map(|(a, b)| (a - b).norm_sqr())
+        .sum::<f64>()
+        .sqrt();
+    Some((exact, d))
+}
+
 /// `C^dagger Z C`.
 fn z_in_frame(c: &Mat2) -> Mat2 {
     mul2(&adjoint2(c), &mul2(&pauli(None), c))
@@ -161,6 +213,10 @@ pub(super) fn interaction_picture(ks: &[Kernel], n: usize) -> Option<(Vec<Kernel
         match k {
             Kernel::Collective { m, qubits } if qubits.len() == n => {
                 c = mul2(m, &c);
+                if let Some((exact, d)) = snapped(&c) {
+                    c = exact;
+                    slack += n as f64 * d;
+                }
                 cz = z_in_frame(&c);
             }
             Kernel::One { q, m } => {
@@ -271,5 +327,69 @@ mod tests {
             assert!(d < 1e-10 + slack, "distance {d}");
         }
         assert!(gathered > 30, "{gathered}");
+    }
+
+    /// A frame that returns within rounding of a Pauli frame is snapped to it, and
+    /// the snap's cost (`n` times the distance) covers what it moved: a rotation
+    /// back by `-pi/2 + delta`, `delta` below `CLIFFORD_EPS`, then MS pulses; the
+    /// output differs from the input by no more than the slack (no extra allowance).
+    /// Frames of `1/sqrt 2` entries, or off by more than `CLIFFORD_EPS`, are not
+    /// snapped.
+    #[test]
+    fn a_frame_back_near_a_pauli_frame_is_snapped_within_its_slack() {
+        use std::f64::consts::FRAC_PI_2;
+        let n = 4;
+        let all: Vec<usize> = (0..n).collect();
+        for delta in [0.0, 3e-13, -4e-13] {
+            let turn = |theta: f64| Kernel::Collective {
+                m: rotation(theta, FRAC_PI_2),
+                qubits: all.clone(),
+            };
+            let ms = |theta: f64| Kernel::Ms {
+                theta,
+                phi: 0.0,
+                qubits: all.clone(),
+            };
+            // Two blocks, each MS between rotations taking Z to X and back; the
+            // first one's way back is off by delta.
+            let ks = vec![
+                turn(FRAC_PI_2),
+                ms(0.7),
+                turn(-FRAC_PI_2 + delta),
+                Kernel::One {
+                    q: 1,
+                    m: z_rotation(0.4),
+                },
+                turn(FRAC_PI_2),
+                ms(-0.3),
+                turn(-FRAC_PI_2),
+            ];
+            let (out, slack) = interaction_picture(&ks, n).expect("applies");
+            let d =
+                crate::sim::apply::distance_up_to_phase(&unitary_of(&ks, n), &unitary_of(&out, n));
+            assert!(
+                d <= slack + 1e-14,
+                "delta {delta}: distance {d}, slack {slack}"
+            );
+            if delta != 0.0 {
+                // The snap's cost, about n |delta| / 2 per entry moved.
+                assert!(
+                    slack >= n as f64 * delta.abs() / 4.0,
+                    "delta {delta}: slack {slack}"
+                );
+            }
+        }
+        let (exact, d) = snapped(&rotation(1e-14, 0.3)).expect("near the identity");
+        assert!(d > 0.0 && d < 1e-13 && exact[0][1] == C64::new(0.0, 0.0));
+        assert!(
+            snapped(&rotation(FRAC_PI_2, 0.0)).is_none(),
+            "a Hadamard-like frame"
+        );
+        assert!(
+            snapped(&rotation(1e-9, 0.0)).is_none(),
+            "off by more than CLIFFORD_EPS"
+        );
+        let (flip, _) = snapped(&rotation(std::f64::consts::PI, 0.0)).expect("X up to phase");
+        assert_eq!(flip[0][0], C64::new(0.0, 0.0));
     }
 }

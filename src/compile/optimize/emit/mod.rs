@@ -23,8 +23,8 @@ use super::Objective;
 use crate::circuit::{Condition, Mat2};
 use crate::compile::couple::{
     components, floor_of_parts, hadamard_each, matching, order_pulses, pad_idle, side_by_side,
-    side_by_side_pulses, signed_labels, synthesize, Budget as SynthBudget, Coupling, Floor, Method,
-    Pulse, Synthesis,
+    side_by_side_pulses, signed_classes, signed_labels, synthesize, Budget as SynthBudget,
+    Coupling, Floor, Method, Pulse, Synthesis,
 };
 use crate::compile::hadamard::{smallest_hadamard, smallest_order};
 use crate::compile::lower::zyz;
@@ -48,7 +48,7 @@ use quiet::{
 /// Angles this close to zero (mod 2 pi where that is a global phase) are left out.
 const EPS: f64 = 1e-14;
 /// The most pulses a block of signed pulses (fact 10) may take.
-const MAX_SIGNED_PULSES: usize = 64;
+const MAX_SIGNED_PULSES: usize = 1024;
 
 use crate::compile::baseline::wrap;
 
@@ -444,6 +444,7 @@ impl<'a> Emitter<'a> {
         }
         let active_idx: Vec<usize> = active.iter().map(|&q| q as usize).collect();
         let idle = n - active.len();
+        let parts = components(&local);
         // Each candidate comes with a lower bound on its key, known before it is
         // built; `choose` builds the costly ones only while that bound could still
         // beat the best built so far. First those that need no coupling program.
@@ -472,14 +473,22 @@ impl<'a> Emitter<'a> {
         }
         // Fact 10: pulses of both signs, every other ion left at +1 (no echo).
         if self.profile.capabilities.negative_chain_ms {
-            if let Some(s) = signed_labels(&local, MAX_SIGNED_PULSES) {
-                let pulses = on_device(&s.pulses, &active_idx, n);
-                cheap.push(Candidate::built(
-                    self,
-                    Made::Pulses(pulses),
-                    Method::Signed,
-                    s.weight,
-                ));
+            // One labelling for the block, and one per class of components; the
+            // certificate is checked only on those `choose` builds.
+            let whole = signed_labels(&local, &parts, MAX_SIGNED_PULSES);
+            let classes = signed_classes(&local, &parts, MAX_SIGNED_PULSES);
+            for plan in whole.into_iter().chain(classes) {
+                let (local, active_idx) = (&local, &active_idx);
+                let weight = plan.weight();
+                cheap.push(Candidate {
+                    lower: self.pulse_bound(plan.count(), 2.0 * weight, 0),
+                    method: Method::Signed,
+                    weight,
+                    build: Box::new(move || {
+                        let pulses = plan.pulses_on(n, &|u| active_idx[u]);
+                        plan.certifies(local).then_some(Made::Pulses(pulses))
+                    }),
+                });
             }
         }
         if self.target == Target::Addressed && self.profile.capabilities.pair_ms {
@@ -506,7 +515,6 @@ impl<'a> Emitter<'a> {
         // every pulse adds at most its weight to a coupling; pulse and flip counts
         // from the Hadamard orders alone). When none can beat what was found, the
         // program is not run at all (unless certificates are kept).
-        let parts = components(&local);
         let quiet_others =
             (quiet.iter().any(|&q| q)).then(|| idle - quiet.iter().filter(|&&q| q).count());
         let m_pad = if idle == 0 {

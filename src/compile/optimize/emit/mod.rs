@@ -471,26 +471,6 @@ impl<'a> Emitter<'a> {
                 build: Box::new(move || Some(Made::Pulses(hadamard_each(device).pulses))),
             });
         }
-        // Fact 10: pulses of both signs, every other ion left at +1 (no echo).
-        if self.profile.capabilities.negative_chain_ms {
-            // One labelling for the block, and one per class of components; the
-            // certificate is checked only on those `choose` builds.
-            let whole = signed_labels(&local, &parts, MAX_SIGNED_PULSES);
-            let classes = signed_classes(&local, &parts, MAX_SIGNED_PULSES);
-            for plan in whole.into_iter().chain(classes) {
-                let (local, active_idx) = (&local, &active_idx);
-                let weight = plan.weight();
-                cheap.push(Candidate {
-                    lower: self.pulse_bound(plan.count(), 2.0 * weight, 0),
-                    method: Method::Signed,
-                    weight,
-                    build: Box::new(move || {
-                        let pulses = plan.pulses_on(n, &|u| active_idx[u]);
-                        plan.certifies(local).then_some(Made::Pulses(pulses))
-                    }),
-                });
-            }
-        }
         if self.target == Target::Addressed && self.profile.capabilities.pair_ms {
             let pair: Vec<NativeOp> = terms
                 .iter()
@@ -509,7 +489,54 @@ impl<'a> Emitter<'a> {
                 weight,
             ));
         }
-        let found = self.choose(cheap, None);
+        // Fact 10: pulses of both signs, every other ion left at +1 (no echo). Every
+        // such plan takes at least four pulses (with three, the weights orthogonal
+        // to all-ones and to each coupled ion's signs leave every coupling zero:
+        // docs/optimizer.md) of total weight at least the largest coupling. On the
+        // collective target they compete with the cheap candidates from the start
+        // (they win nearly every block, and so spare building the others); on the
+        // addressed target the labellings are made only when that floor could beat
+        // the best of the others (pair pulses often win there).
+        let signed_floor = self.pulse_bound(4, 2.0 * local.max_abs(), 0);
+        let signed_plans = |e: &Self| -> Vec<Candidate> {
+            let mut signed: Vec<Candidate> = Vec::new();
+            // One labelling for the block, and one per class of components; the
+            // certificate is checked only on those `choose` builds.
+            let whole = signed_labels(&local, &parts, MAX_SIGNED_PULSES);
+            let classes = signed_classes(&local, &parts, MAX_SIGNED_PULSES);
+            for plan in whole.into_iter().chain(classes) {
+                let (local, active_idx) = (&local, &active_idx);
+                let weight = plan.weight();
+                signed.push(Candidate {
+                    lower: with_floor(
+                        e.build_all,
+                        e.pulse_bound(plan.count(), 2.0 * weight, 0),
+                        Some(signed_floor),
+                    ),
+                    method: Method::Signed,
+                    weight,
+                    build: Box::new(move || {
+                        let pulses = plan.pulses_on(n, &|u| active_idx[u]);
+                        plan.certifies(local).then_some(Made::Pulses(pulses))
+                    }),
+                });
+            }
+            signed
+        };
+        let signed = self.profile.capabilities.negative_chain_ms;
+        if signed && self.target == Target::Collective {
+            cheap.extend(signed_plans(self));
+        }
+        let mut found = self.choose(cheap, None);
+        if signed && self.target != Target::Collective {
+            let could_win = match &found {
+                None => true,
+                Some((k, _)) => signed_floor.0 <= k.0 + 1e-12 * k.0.abs(),
+            };
+            if could_win || self.build_all {
+                found = self.choose(signed_plans(self), found);
+            }
+        }
         // The candidates made from the coupling program's synthesis: their bounds
         // before it runs (total angle at least twice the largest coupling, since
         // every pulse adds at most its weight to a coupling; pulse and flip counts

@@ -148,6 +148,7 @@ fn cnot_rz_cnot_becomes_one_interaction() {
 fn block_certificates_hold() {
     let profile = Profile::demo();
     let mut blocks = 0;
+    let mut signed_blocks = 0;
     for name in [
         "qaoa_graph_8",
         "trotter_heisenberg_6",
@@ -165,8 +166,25 @@ fn block_certificates_hold() {
         for (coupling, s) in &o.certificates {
             let n = coupling.n;
             let mut sum = vec![vec![0.0f64; n]; n];
+            // Signed plans (gate-set fact 10): weights of either sign, and the ions
+            // uncoupled from spectators held at +1 (sum_k t_k s_k[i] = 0) and the
+            // spectators from each other (sum_k t_k = 0).
+            let signed = s.method == tutti::compile::couple::Method::Signed;
+            signed_blocks += usize::from(signed);
+            if signed {
+                let total: f64 = s.pulses.iter().map(|p| p.weight).sum();
+                assert!(total.abs() < 1e-9, "{name}: spectators coupled by {total}");
+                for i in 0..n {
+                    let to_spectator: f64 = s
+                        .pulses
+                        .iter()
+                        .map(|p| p.weight * f64::from(p.signs[i]))
+                        .sum();
+                    assert!(to_spectator.abs() < 1e-9, "{name}: ion {i} and a spectator");
+                }
+            }
             for p in &s.pulses {
-                assert!(p.weight >= 0.0);
+                assert!(signed || p.weight >= 0.0);
                 for i in 0..n {
                     for j in 0..n {
                         sum[i][j] += p.weight * (p.signs[i] * p.signs[j]) as f64;
@@ -181,13 +199,14 @@ fn block_certificates_hold() {
                     );
                 }
             }
-            let total: f64 = s.pulses.iter().map(|p| p.weight).sum();
+            let total: f64 = s.pulses.iter().map(|p| p.weight.abs()).sum();
             assert!((total - s.weight).abs() < 1e-9);
             assert!(s.lower_bound <= s.weight + 1e-9);
             blocks += 1;
         }
     }
     assert!(blocks >= 10, "{blocks} blocks");
+    assert!(signed_blocks >= 10, "{signed_blocks} signed plans");
 }
 
 /// The demo device with chain MS pulses of one sign only (`negative_chain_ms`

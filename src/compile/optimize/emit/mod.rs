@@ -498,13 +498,19 @@ impl<'a> Emitter<'a> {
         // addressed target the labellings are made only when that floor could beat
         // the best of the others (pair pulses often win there).
         let signed_floor = self.pulse_bound(4, 2.0 * local.max_abs(), 0);
-        let signed_plans = |e: &Self| -> Vec<Candidate> {
+        // The candidates, and (when certificates are kept) each plan's pulses on
+        // the block's own ions, for the caller to keep.
+        let signed_plans = |e: &Self| -> (Vec<Candidate>, Vec<Synthesis>) {
             let mut signed: Vec<Candidate> = Vec::new();
+            let mut kept = Vec::new();
             // One labelling for the block, and one per class of components; the
             // certificate is checked only on those `choose` builds.
             let whole = signed_labels(&local, &parts, MAX_SIGNED_PULSES);
             let classes = signed_classes(&local, &parts, MAX_SIGNED_PULSES);
             for plan in whole.into_iter().chain(classes) {
+                if e.certificates.is_some() {
+                    kept.push(plan.synthesis(&local));
+                }
                 let (local, active_idx) = (&local, &active_idx);
                 let weight = plan.weight();
                 signed.push(Candidate {
@@ -521,11 +527,14 @@ impl<'a> Emitter<'a> {
                     }),
                 });
             }
-            signed
+            (signed, kept)
         };
         let signed = self.profile.capabilities.negative_chain_ms;
+        let mut signed_kept: Vec<Synthesis> = Vec::new();
         if signed && self.target == Target::Collective {
-            cheap.extend(signed_plans(self));
+            let (candidates, kept) = signed_plans(self);
+            cheap.extend(candidates);
+            signed_kept = kept;
         }
         let mut found = self.choose(cheap, None);
         if signed && self.target != Target::Collective {
@@ -534,8 +543,17 @@ impl<'a> Emitter<'a> {
                 Some((k, _)) => signed_floor.0 <= k.0 + 1e-12 * k.0.abs(),
             };
             if could_win || self.build_all {
-                found = self.choose(signed_plans(self), found);
+                let (candidates, kept) = signed_plans(self);
+                found = self.choose(candidates, found);
+                signed_kept = kept;
             }
+        }
+        if let Some(certs) = &mut self.certificates {
+            certs.extend(
+                signed_kept
+                    .into_iter()
+                    .map(|s| (local.clone(), Arc::new(s))),
+            );
         }
         // The candidates made from the coupling program's synthesis: their bounds
         // before it runs (total angle at least twice the largest coupling, since

@@ -68,20 +68,28 @@ fn one_sign_profile(dir: &Path) -> PathBuf {
     p
 }
 
-fn setup(dir: &Path, format: &str) -> (PathBuf, PathBuf) {
-    let c = dir.join("three.qasm");
-    std::fs::write(&c, CIRCUIT).unwrap();
-    let out = dir.join(format!("three-out.{format}"));
+/// `tutti compile C --device (one_sign_profile) EXTRA -o OUT`, which must succeed;
+/// its output.
+fn compile_one_sign(dir: &Path, c: &Path, out: &Path, extra: &[&str]) -> std::process::Output {
     let device = one_sign_profile(dir);
-    let o = tutti(&[
+    let mut args = vec![
         "compile",
         c.to_str().unwrap(),
         "--device",
         device.to_str().unwrap(),
-        "-o",
-        out.to_str().unwrap(),
-    ]);
+    ];
+    args.extend_from_slice(extra);
+    args.extend(["-o", out.to_str().unwrap()]);
+    let o = tutti(&args);
     assert_eq!(o.status.code(), Some(0), "{}", text(&o.stderr));
+    o
+}
+
+fn setup(dir: &Path, format: &str) -> (PathBuf, PathBuf) {
+    let c = dir.join("three.qasm");
+    std::fs::write(&c, CIRCUIT).unwrap();
+    let out = dir.join(format!("three-out.{format}"));
+    compile_one_sign(dir, &c, &out, &[]);
     (c, out)
 }
 
@@ -663,18 +671,7 @@ fn the_optimizer_output_is_located_by_instruction_with_trace_every() {
     let tmp = tempfile::tempdir().unwrap();
     let (c, _) = plain_circuit(tmp.path());
     let out = tmp.path().join("plain.pulses");
-    let device = one_sign_profile(tmp.path());
-    let o = tutti(&[
-        "compile",
-        c.to_str().unwrap(),
-        "--device",
-        device.to_str().unwrap(),
-        "--trace-every",
-        "1",
-        "-o",
-        out.to_str().unwrap(),
-    ]);
-    assert_eq!(o.status.code(), Some(0), "{}", text(&o.stderr));
+    let o = compile_one_sign(tmp.path(), &c, &out, &["--trace-every", "1"]);
     assert!(text(&o.stderr).contains("optimizer"), "{}", text(&o.stderr));
     let lines: Vec<String> = lines_of(&out);
     let traces: Vec<&String> = lines.iter().filter(|l| l.starts_with("trace ")).collect();

@@ -42,7 +42,7 @@ mod signed;
 
 pub use constructions::{hadamard_each, matching, matching_layers, pad_idle};
 use lp::{columns, exact};
-pub use signed::{certifies_signed, signed_classes, signed_labels, SignedPlan};
+pub use signed::{signed_classes, signed_labels, SignedPlan};
 /// Up to this many ions the program is solved over all `2^(n-1)` sign vectors.
 pub const EXACT_IONS: usize = 10;
 /// Up to this many ions the pricing step of column generation is exact.

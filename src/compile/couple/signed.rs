@@ -132,7 +132,7 @@ impl SignedPlan {
     }
 
     /// The certificate, labelling by labelling: each one's pulses on its own ions
-    /// pass [`certifies_signed`] against `c` there (so its ions are uncoupled from
+    /// pass `certifies_signed` against `c` there (so its ions are uncoupled from
     /// everything else, which it sees as spectators), and every coupling of `c` lies
     /// within one labelling. Together: the plan realises `c` with spectators still.
     pub fn certifies(&self, c: &Coupling) -> bool {
@@ -178,19 +178,15 @@ impl SignedPlan {
 /// ([`components`](super::components)). Not yet checked: the caller runs
 /// [`SignedPlan::certifies`] on what it keeps (the optimizer plans several per block
 /// and makes and checks only those it may keep).
-pub fn signed_labels(
-    c: &Coupling,
-    parts: &[(Vec<usize>, Coupling)],
-    max_pulses: usize,
-) -> Option<SignedPlan> {
-    let parts: Vec<&(Vec<usize>, Coupling)> = parts.iter().filter(|p| p.0.len() > 1).collect();
+pub fn signed_labels(c: &Coupling, parts: &[Part], max_pulses: usize) -> Option<SignedPlan> {
+    let parts: Vec<&Part> = parts.iter().filter(|p| p.0.len() > 1).collect();
     Some(SignedPlan {
         walsh: vec![labelled(c, &parts, max_pulses)?],
     })
 }
 
 /// One labelling of the components `parts` of `c` (each with a coupling).
-fn labelled(c: &Coupling, parts: &[&(Vec<usize>, Coupling)], max_pulses: usize) -> Option<Walsh> {
+fn labelled(c: &Coupling, parts: &[&Part], max_pulses: usize) -> Option<Walsh> {
     if parts.is_empty() {
         return None;
     }
@@ -234,11 +230,7 @@ fn labelled(c: &Coupling, parts: &[&(Vec<usize>, Coupling)], max_pulses: usize) 
 /// multiplies the classes' pulse counts. `None` when some class cannot be labelled
 /// within `max_pulses`, or when there is only one class. Not yet checked, as
 /// [`signed_labels`].
-pub fn signed_classes(
-    c: &Coupling,
-    parts: &[(Vec<usize>, Coupling)],
-    max_pulses: usize,
-) -> Option<SignedPlan> {
+pub fn signed_classes(c: &Coupling, parts: &[Part], max_pulses: usize) -> Option<SignedPlan> {
     // Each class: its weights (as bits) and its components.
     let mut classes: Vec<(Vec<u64>, Vec<&Part>)> = Vec::new();
     for part in parts {
@@ -274,7 +266,7 @@ pub fn signed_classes(
 /// before a new bit, where nothing collides. Without it every coupling of a
 /// component's spanning tree takes a bit of its own, which always succeeds: each
 /// pair's XOR is then the tree path between them.
-fn label(c: &Coupling, parts: &[&(Vec<usize>, Coupling)], share: bool) -> Option<Labels> {
+fn label(c: &Coupling, parts: &[&Part], share: bool) -> Option<Labels> {
     let mut l = Labels {
         y: vec![None; c.n],
         weight: FxHashMap::default(),

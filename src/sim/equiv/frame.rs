@@ -128,7 +128,8 @@ fn modulus(z: C64) -> f64 {
 }
 
 /// The frame as an exact phase times a monomial matrix of entries `0, +-1, +-i` (a
-/// Pauli frame, the identity among them) when within `CLIFFORD_EPS` of one, with the
+/// Pauli, possibly times a quarter turn about Z; the identity among them) when
+/// within `CLIFFORD_EPS` of one, with the
 /// Frobenius distance moved. The frame is a product of every collective rotation so
 /// far, so its rounding grows along a long sequence; each MS pulse pays for that
 /// rounding (`theta / 2 m^2 off`, below), while a snap pays once: taking frame `c'`
@@ -329,14 +330,14 @@ mod tests {
         assert!(gathered > 30, "{gathered}");
     }
 
-    /// A frame that returns within rounding of a Pauli frame is snapped to it, and
+    /// A frame that returns within rounding of the identity is snapped to it, and
     /// the snap's cost (`n` times the distance) covers what it moved: a rotation
     /// back by `-pi/2 + delta`, `delta` below `CLIFFORD_EPS`, then MS pulses; the
     /// output differs from the input by no more than the slack (no extra allowance).
     /// Frames of `1/sqrt 2` entries, or off by more than `CLIFFORD_EPS`, are not
     /// snapped.
     #[test]
-    fn a_frame_back_near_a_pauli_frame_is_snapped_within_its_slack() {
+    fn a_frame_back_near_the_identity_is_snapped_within_its_slack() {
         use std::f64::consts::FRAC_PI_2;
         let n = 4;
         let all: Vec<usize> = (0..n).collect();

@@ -537,16 +537,13 @@ impl<'a> Emitter<'a> {
             signed_kept = kept;
         }
         let mut found = self.choose(cheap, None);
-        if signed && self.target != Target::Collective {
-            let could_win = match &found {
-                None => true,
-                Some((k, _)) => signed_floor.0 <= k.0 + 1e-12 * k.0.abs(),
-            };
-            if could_win || self.build_all {
-                let (candidates, kept) = signed_plans(self);
-                found = self.choose(candidates, found);
-                signed_kept = kept;
-            }
+        if signed
+            && self.target != Target::Collective
+            && (may_beat(signed_floor, &found) || self.build_all)
+        {
+            let (candidates, kept) = signed_plans(self);
+            found = self.choose(candidates, found);
+            signed_kept = kept;
         }
         if let Some(certs) = &mut self.certificates {
             certs.extend(
@@ -606,10 +603,7 @@ impl<'a> Emitter<'a> {
             });
             (pre, quiet_pre)
         };
-        let could_win = |pre: &[Key]| match &found {
-            None => true,
-            Some((k, _)) => pre.iter().any(|b| b.0 <= k.0 + 1e-12 * k.0.abs()),
-        };
+        let could_win = |pre: &[Key]| pre.iter().any(|&b| may_beat(b, &found));
         let forced = self.certificates.is_some() || self.build_all;
         // First the floor every coupling has (its largest weight, one vector); where
         // that leaves a candidate of the program a chance, the spectral floor.
@@ -955,10 +949,8 @@ impl<'a> Emitter<'a> {
     ) -> Option<(Key, Built)> {
         candidates.sort_by(|a, b| a.lower.0.total_cmp(&b.lower.0));
         for c in candidates {
-            if let Some((k, _)) = &best {
-                if c.lower.0 > k.0 + 1e-12 * k.0.abs() && !self.build_all {
-                    break;
-                }
+            if !may_beat(c.lower, &best) && !self.build_all {
+                break;
             }
             let Some(made) = (c.build)() else {
                 continue;
@@ -990,6 +982,13 @@ impl<'a> Emitter<'a> {
         }
         best
     }
+}
+
+/// Whether a candidate bounded below by `bound` may still beat `best` (the best
+/// found so far, if any): its first figure not above the best's, within 1e-12.
+fn may_beat(bound: Key, best: &Option<(Key, Built)>) -> bool {
+    best.as_ref()
+        .map_or(true, |(k, _)| bound.0 <= k.0 + 1e-12 * k.0.abs())
 }
 
 /// `own`, or the floor's bound where that is higher and every candidate is built

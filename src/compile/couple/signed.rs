@@ -59,18 +59,134 @@ struct Walsh {
 }
 
 impl Walsh {
-    /// Rows of `t` below this (relative to the largest) make no pulse.
-    fn kept(&self) -> impl Iterator<Item = usize> + '_ {
-        let top = self.t.iter().fold(0.0f64, |a, b| a.max(b.abs()));
-        (0..self.m).filter(move |&j| self.t[j % self.t.len()].abs() > 1e-15 * top)
+    /// The largest row weight.
+    fn top(&self) -> f64 {
+        self.t.iter().fold(0.0f64, |a, b| a.max(b.abs()))
     }
 
-    /// Its pulses with the signs of `ions[k]` at `at(ions[k])` among `n`, the rest +1.
+    /// Whether row `j` makes a pulse: rows of `t` below 1e-15 of the largest do not.
+    fn keeps(&self) -> impl Fn(usize) -> bool + '_ {
+        let top = self.top();
+        move |j| self.t[j % self.t.len()].abs() > 1e-15 * top
+    }
+
+    /// The weights of the rows other than 0 that make a pulse.
+    fn other_rows(&self) -> impl Iterator<Item = f64> + '_ {
+        self.kept()
+            .filter(|&j| j != 0)
+            .map(|j| self.t[j % self.t.len()])
+    }
+
+    /// The rows that make a pulse, in row order.
+    fn kept(&self) -> impl Iterator<Item = usize> + '_ {
+        let keeps = self.keeps();
+        (0..self.m).filter(move |&j| keeps(j))
+    }
+
+    /// Its pulses but row 0's with the signs of `ions[k]` at `at(ions[k])` among
+    /// `n`, the rest +1.
     fn pulses(&self, n: usize, at: &dyn Fn(usize) -> usize, out: &mut Vec<Pulse>) {
-        for j in self.kept() {
+        self.pulses_by_place(n, &|k| at(self.ions[k]), false, out);
+    }
+
+    /// What its pulses sum to, by the XOR of two columns: `sums[x] = sum_j T_j
+    /// H[j][x]` over its rows (`T_j` the weight of row `j`, 0 for a row that makes
+    /// no pulse). Since `H[j][a] H[j][b] = H[j][a ^ b]`, ions with columns `a`, `b`
+    /// are coupled by `sums[a ^ b]`, an ion and a spectator (column 0) by
+    /// `sums[a]`, and two spectators by `sums[0]`. One fast Walsh-Hadamard
+    /// transform of the weights (`m log m` additions) gives them all, where a sum
+    /// over the pulses for each pair of ions would take `m` per pair.
+    fn sums(&self) -> Vec<f64> {
+        let keeps = self.keeps();
+        let mut s: Vec<f64> = (0..self.m)
+            .map(|j| {
+                if keeps(j) {
+                    self.t[j % self.t.len()]
+                } else {
+                    0.0
+                }
+            })
+            .collect();
+        let mut h = 1;
+        while h < s.len() {
+            for block in s.chunks_mut(2 * h) {
+                let (low, high) = block.split_at_mut(h);
+                for (x, y) in low.iter_mut().zip(high) {
+                    (*x, *y) = (*x + *y, *x - *y);
+                }
+            }
+            h *= 2;
+        }
+        s
+    }
+
+    /// Its rows in the order that flips few ions between pulses: a Gray code over a
+    /// basis of the row bits. Going from row `j` to `j ^ v` flips the ions whose
+    /// column has odd overlap with `v`, so the flips of the whole cycle (back to row
+    /// 0, all +1) are `sum_k 2^(D-1-k) flips(b_k)` for basis vectors `b_0, b_1, ..`
+    /// toggled every 2nd, 4th, .. step. The basis taken greedily from the rows by
+    /// fewest flips is a least-weight basis of the linear matroid, with its sorted
+    /// weights each at most those of any other basis (the matroid greedy
+    /// algorithm, common knowledge); so the lightest toggles most, and no other
+    /// basis gives a cycle of fewer flips. Rows of weight zero (dropped by
+    /// [`Self::kept`]) are skipped.
+    fn walk(&self) -> Vec<usize> {
+        let bits = self.m.trailing_zeros() as usize;
+        let flips = |v: usize| {
+            self.column
+                .iter()
+                .filter(|&&c| (v as u32 & c).count_ones() % 2 == 1)
+                .count()
+        };
+        let mut rows: Vec<(usize, usize)> = (1..self.m).map(|v| (flips(v), v)).collect();
+        rows.sort_unstable();
+        // Reduced vectors by their highest bit, to test independence.
+        let mut reduced = vec![0usize; bits];
+        let mut basis: Vec<usize> = Vec::with_capacity(bits);
+        for (_, v) in rows {
+            let mut x = v;
+            while x != 0 {
+                let top = usize::BITS as usize - 1 - x.leading_zeros() as usize;
+                if reduced[top] == 0 {
+                    reduced[top] = x;
+                    basis.push(v);
+                    break;
+                }
+                x ^= reduced[top];
+            }
+            if basis.len() == bits {
+                break;
+            }
+        }
+        let kept = self.keeps();
+        let mut order = Vec::with_capacity(self.m);
+        let mut j = 0usize;
+        for i in 0..self.m {
+            if i > 0 {
+                j ^= basis[i.trailing_zeros() as usize];
+            }
+            if kept(j) {
+                order.push(j);
+            }
+        }
+        order
+    }
+
+    /// Its pulses in the order of [`Self::walk`] (row 0's, all +1, only when
+    /// `row0`), with the signs of `ions[k]` at `at(k)` among `n`, the rest +1.
+    fn pulses_by_place(
+        &self,
+        n: usize,
+        at: &dyn Fn(usize) -> usize,
+        row0: bool,
+        out: &mut Vec<Pulse>,
+    ) {
+        let places: Vec<usize> = (0..self.ions.len()).map(at).collect();
+        out.reserve(self.m);
+        for j in self.walk().into_iter().filter(|&j| row0 || j != 0) {
             let mut signs = Signs::from_elem(1, n);
-            for (&u, &col) in self.ions.iter().zip(&self.column) {
-                signs[at(u)] = parity_sign(j as u32 & col);
+            for (&q, &col) in places.iter().zip(&self.column) {
+                signs[q] = parity_sign(j as u32 & col);
             }
             out.push(Pulse {
                 signs,
@@ -98,22 +214,49 @@ pub struct SignedPlan {
 }
 
 impl SignedPlan {
+    /// The weight of the pulse every labelling shares, if it is not zero: row 0 of
+    /// each (every sign +1, its ions and the spectators alike) is one and the same
+    /// sign vector, and pulses of one sign vector add, so all of them are played as
+    /// one pulse of their summed weight.
+    fn shared_row(&self) -> Option<f64> {
+        let (mut sum, mut top) = (0.0, 0.0f64);
+        for w in &self.walsh {
+            top = top.max(w.top());
+            if w.keeps()(0) {
+                sum += w.t[0];
+            }
+        }
+        (f64::abs(sum) > 1e-15 * top).then_some(sum)
+    }
+
     /// The number of pulses.
     pub fn count(&self) -> usize {
-        self.walsh.iter().map(|w| w.kept().count()).sum()
+        let own: usize = self.walsh.iter().map(|w| w.other_rows().count()).sum();
+        own + usize::from(self.shared_row().is_some())
     }
 
     /// The sum of the pulses' magnitudes.
     pub fn weight(&self) -> f64 {
-        self.walsh
+        let own: f64 = self
+            .walsh
             .iter()
-            .map(|w| (w.m / w.t.len()) as f64 * w.t.iter().map(|t| t.abs()).sum::<f64>())
-            .sum()
+            .map(|w| w.other_rows().map(f64::abs).sum::<f64>())
+            .sum();
+        own + self.shared_row().map_or(0.0, f64::abs)
     }
 
-    /// The pulses on `n` ions, ion `u` of the coupling at `at(u)`, every other +1.
+    /// The pulses on `n` ions, ion `u` of the coupling at `at(u)`, every other +1:
+    /// the shared pulse first, then each labelling's other rows in the order of its
+    /// walk (so its return to all +1 falls in one layer with the next one's first
+    /// flips).
     pub fn pulses_on(&self, n: usize, at: &dyn Fn(usize) -> usize) -> Vec<Pulse> {
         let mut out = Vec::new();
+        if let Some(weight) = self.shared_row() {
+            out.push(Pulse {
+                signs: Signs::from_elem(1, n),
+                weight,
+            });
+        }
         for w in &self.walsh {
             w.pulses(n, at, &mut out);
         }
@@ -131,10 +274,16 @@ impl SignedPlan {
         }
     }
 
-    /// The certificate, labelling by labelling: each one's pulses on its own ions
-    /// pass `certifies_signed` against `c` there (so its ions are uncoupled from
-    /// everything else, which it sees as spectators), and every coupling of `c` lies
-    /// within one labelling. Together: the plan realises `c` with spectators still.
+    /// The certificate, labelling by labelling: each one's pulses couple its own
+    /// ions as `c` does and leave every coupling to a spectator (any other ion) and
+    /// among spectators at zero, within [`CERTIFICATE_EPS`] times its largest
+    /// coupling (as the tests ask of the pulses themselves); and every coupling of `c`
+    /// lies within one labelling. Together: the plan realises `c` with spectators
+    /// still. The sums come from `Walsh::sums`, over the rows' weights and the
+    /// ions' columns from which the pulses are made (pulse `j` gives ion `u` the
+    /// sign `H[j][c_u]`), not from the labels the construction aimed at. Each
+    /// labelling's row 0 counts as its own pulse: played as part of the shared
+    /// pulse, it adds the same term to the same sums.
     pub fn certifies(&self, c: &Coupling) -> bool {
         let mut group = vec![usize::MAX; c.n];
         for (g, w) in self.walsh.iter().enumerate() {
@@ -151,23 +300,27 @@ impl SignedPlan {
         });
         within
             && self.walsh.iter().all(|w| {
-                let mut own = Coupling::zero(w.ions.len());
-                for (a, &i) in w.ions.iter().enumerate() {
-                    for (b, &j) in w.ions.iter().enumerate().skip(a + 1) {
-                        own.set(a, b, c.get(i, j));
-                    }
+                if w.column.len() != w.ions.len() || w.column.iter().any(|&x| x as usize >= w.m) {
+                    return false;
                 }
-                let mut pulses = Vec::new();
-                let local: FxHashMap<usize, usize> =
-                    w.ions.iter().enumerate().map(|(k, &u)| (u, k)).collect();
-                w.pulses(w.ions.len(), &|u| local[&u], &mut pulses);
-                let s = Synthesis {
-                    pulses,
-                    weight: 0.0,
-                    lower_bound: 0.0,
-                    method: Method::Signed,
+                let pairs = || {
+                    w.ions
+                        .iter()
+                        .zip(&w.column)
+                        .enumerate()
+                        .flat_map(move |(a, (&i, &x))| {
+                            w.ions[a + 1..]
+                                .iter()
+                                .zip(&w.column[a + 1..])
+                                .map(move |(&j, &y)| (c.get(i, j), x ^ y))
+                        })
                 };
-                certifies_signed(&s, &own)
+                let largest = pairs().fold(0.0f64, |m, (want, _)| m.max(want.abs()));
+                let tol = CERTIFICATE_EPS * largest.max(1.0);
+                let sums = w.sums();
+                sums[0].abs() <= tol
+                    && w.column.iter().all(|&x| sums[x as usize].abs() <= tol)
+                    && pairs().all(|(want, x)| (sums[x as usize] - want).abs() <= tol)
             })
     }
 }
@@ -273,6 +426,9 @@ fn label(c: &Coupling, parts: &[&Part], share: bool) -> Option<Labels> {
         free: FxHashSet::default(),
         bits: 0,
     };
+    // Labels by weight (bits), each list ascending: the labels a coupling may share.
+    let mut by_weight: FxHashMap<u64, Vec<u32>> = FxHashMap::default();
+    let mut new: Vec<(u32, f64)> = Vec::new();
     for &(ions, _) in parts {
         let mut placed: Vec<usize> = vec![ions[0]];
         l.y[ions[0]] = Some(0);
@@ -286,34 +442,21 @@ fn label(c: &Coupling, parts: &[&Part], share: bool) -> Option<Labels> {
                     continue;
                 }
                 let yv = l.y[v]?;
-                let shared: Vec<u32> = if share {
-                    let mut s: Vec<u32> = l
-                        .weight
-                        .iter()
-                        .filter(|&(_, &lw)| lw == w)
-                        .map(|(&x, _)| x)
-                        .collect();
-                    s.sort_unstable();
-                    s
-                } else {
-                    Vec::new()
-                };
-                // Then, sharing, any value of the label bits so far that is neither
-                // a label nor a free XOR (so distinct weights need only as many bits
-                // as it takes to count them).
-                let unused: Vec<u32> = if share {
-                    (1..1u32 << l.bits)
-                        .filter(|x| !l.weight.contains_key(x) && !l.free.contains(x))
-                        .collect()
-                } else {
-                    Vec::new()
-                };
+                // Sharing: first a label of the same weight, then any value of the
+                // label bits so far that is neither a label nor a free XOR (so
+                // distinct weights need only as many bits as it takes to count
+                // them).
                 let mut done = false;
-                for x in shared.into_iter().chain(unused) {
-                    if let Some(new) = fits(c, &l, &placed, u, yv ^ x) {
-                        commit(&mut l, u, yv ^ x, new);
-                        done = true;
-                        break;
+                if share {
+                    let shared = by_weight.get(&w.to_bits()).map_or(&[][..], Vec::as_slice);
+                    let unused = (1..1u32 << l.bits)
+                        .filter(|x| !l.weight.contains_key(x) && !l.free.contains(x));
+                    for x in shared.iter().copied().chain(unused) {
+                        if fits(c, &l, &placed, u, yv ^ x, &mut new) {
+                            done = true;
+                            commit(&mut l, &mut by_weight, u, yv ^ x, &mut new);
+                            break;
+                        }
                     }
                 }
                 if !done {
@@ -322,8 +465,10 @@ fn label(c: &Coupling, parts: &[&Part], share: bool) -> Option<Labels> {
                     }
                     let x = 1u32 << l.bits;
                     l.bits += 1;
-                    let new = fits(c, &l, &placed, u, yv ^ x)?;
-                    commit(&mut l, u, yv ^ x, new);
+                    if !fits(c, &l, &placed, u, yv ^ x, &mut new) {
+                        return None;
+                    }
+                    commit(&mut l, &mut by_weight, u, yv ^ x, &mut new);
                 }
                 placed.push(u);
             }
@@ -332,12 +477,23 @@ fn label(c: &Coupling, parts: &[&Part], share: bool) -> Option<Labels> {
     Some(l)
 }
 
-/// What placing ion `u` at `y` adds (labels and free XORs), if nothing collides with
-/// the ions already placed in its component.
-fn fits(c: &Coupling, l: &Labels, placed: &[usize], u: usize, y: u32) -> Option<Vec<(u32, f64)>> {
-    let mut new: Vec<(u32, f64)> = Vec::new();
+/// Whether ion `u` fits at `y` (nothing collides with the ions already placed in
+/// its component); if so, `new` holds what placing it adds (labels, and free XORs
+/// with weight 0).
+fn fits(
+    c: &Coupling,
+    l: &Labels,
+    placed: &[usize],
+    u: usize,
+    y: u32,
+    new: &mut Vec<(u32, f64)>,
+) -> bool {
+    new.clear();
     for &v in placed.iter().filter(|&&v| v != u) {
-        let z = y ^ l.y[v]?;
+        let Some(yv) = l.y[v] else {
+            return false;
+        };
+        let z = y ^ yv;
         let w = c.get(u, v);
         let have = l
             .weight
@@ -346,52 +502,36 @@ fn fits(c: &Coupling, l: &Labels, placed: &[usize], u: usize, y: u32) -> Option<
             .or_else(|| new.iter().find(|n| n.0 == z && n.1 != 0.0).map(|n| n.1));
         match (w == 0.0, have) {
             (true, None) => new.push((z, 0.0)),
-            (true, Some(_)) => return None,
+            (true, Some(_)) => return false,
             (false, Some(h)) if h == w => {}
-            (false, Some(_)) => return None,
-            (false, None) if z == 0 || l.free.contains(&z) => return None,
+            (false, Some(_)) => return false,
+            (false, None) if z == 0 || l.free.contains(&z) => return false,
             (false, None) => new.push((z, w)),
         }
     }
     // A free XOR must not be (or become) a label.
     let labels_now =
         |z: u32| l.weight.contains_key(&z) || new.iter().any(|n| n.0 == z && n.1 != 0.0);
-    if new.iter().any(|n| n.1 == 0.0 && labels_now(n.0)) {
-        return None;
-    }
-    Some(new)
+    !new.iter().any(|n| n.1 == 0.0 && labels_now(n.0))
 }
 
-fn commit(l: &mut Labels, u: usize, y: u32, new: Vec<(u32, f64)>) {
+fn commit(
+    l: &mut Labels,
+    by_weight: &mut FxHashMap<u64, Vec<u32>>,
+    u: usize,
+    y: u32,
+    new: &mut Vec<(u32, f64)>,
+) {
     l.y[u] = Some(y);
-    for (z, w) in new {
+    for (z, w) in new.drain(..) {
         if w == 0.0 {
             l.free.insert(z);
-        } else {
-            l.weight.insert(z, w);
+        } else if l.weight.insert(z, w).is_none() {
+            let same = by_weight.entry(w.to_bits()).or_default();
+            let at = same.partition_point(|&x| x < z);
+            same.insert(at, z);
         }
     }
-}
-
-/// True when `s` (weights of either sign) realises `c` with spectators at +1: the
-/// couplings among `c`'s ions match, and `sum_k t_k s_k[u]` (ion `u` against a
-/// spectator) and `sum_k t_k` (spectators among themselves) vanish, within
-/// [`CERTIFICATE_EPS`] times the largest weight.
-pub fn certifies_signed(s: &Synthesis, c: &Coupling) -> bool {
-    let tol = CERTIFICATE_EPS * c.max_abs().max(1.0);
-    if s.pulses.iter().any(|p| p.signs.len() != c.n) || s.residual(c) > tol {
-        return false;
-    }
-    let total: f64 = s.pulses.iter().map(|p| p.weight).sum();
-    let spectator = (0..c.n).all(|u| {
-        let sum: f64 = s
-            .pulses
-            .iter()
-            .map(|p| p.weight * f64::from(p.signs[u]))
-            .sum();
-        sum.abs() <= tol
-    });
-    total.abs() <= tol && spectator
 }
 
 #[cfg(test)]
@@ -400,6 +540,27 @@ mod tests {
     use crate::compile::couple::components;
     use rand::{Rng, SeedableRng};
     use std::f64::consts::FRAC_PI_4;
+
+    /// The pulse-level check: true when `s` (weights of either sign) realises `c` with spectators at +1: the
+    /// couplings among `c`'s ions match, and `sum_k t_k s_k[u]` (ion `u` against a
+    /// spectator) and `sum_k t_k` (spectators among themselves) vanish, within
+    /// [`CERTIFICATE_EPS`] times the largest weight.
+    fn certifies_signed(s: &Synthesis, c: &Coupling) -> bool {
+        let tol = CERTIFICATE_EPS * c.max_abs().max(1.0);
+        if s.pulses.iter().any(|p| p.signs.len() != c.n) || s.residual(c) > tol {
+            return false;
+        }
+        let total: f64 = s.pulses.iter().map(|p| p.weight).sum();
+        let spectator = (0..c.n).all(|u| {
+            let sum: f64 = s
+                .pulses
+                .iter()
+                .map(|p| p.weight * f64::from(p.signs[u]))
+                .sum();
+            sum.abs() <= tol
+        });
+        total.abs() <= tol && spectator
+    }
 
     /// The couplings `sum_k t_k s_k[i] s_k[j]` of the pulses on `n + extra` ions, the
     /// `extra` spectators at +1, summed pair by pair (independently of `residual`).
@@ -597,5 +758,173 @@ mod tests {
             assert!(!plan.certifies(&off), "round {round}: one left out");
         }
         assert!(made > 200, "{made}");
+    }
+
+    /// The flips of playing `order` (rows of `w`) from all +1 and back: the ions
+    /// whose sign differs between consecutive pulses.
+    fn cycle_flips(w: &Walsh, order: &[usize]) -> u32 {
+        let pattern = |j: usize| -> u64 {
+            w.column.iter().enumerate().fold(0, |p, (k, &c)| {
+                p | (u64::from((j as u32 & c).count_ones() % 2) << k)
+            })
+        };
+        let mut frame = 0u64;
+        let mut flips = 0;
+        for &j in order.iter().chain([0usize].iter()) {
+            flips += (frame ^ pattern(j)).count_ones();
+            frame = pattern(j);
+        }
+        flips
+    }
+
+    /// The fewest flips of a Gray cycle over any ordered basis of `bits` bits,
+    /// by trying them all.
+    fn fewest_over_bases(w: &Walsh, bits: usize) -> u32 {
+        fn go(w: &Walsh, bits: usize, basis: &mut Vec<usize>, best: &mut u32) {
+            if basis.len() == bits {
+                let mut order = vec![0usize];
+                let mut j = 0;
+                for i in 1..1usize << bits {
+                    j ^= basis[i.trailing_zeros() as usize];
+                    order.push(j);
+                }
+                *best = (*best).min(cycle_flips(w, &order));
+                return;
+            }
+            for v in 1..1usize << bits {
+                // Independent of the basis so far: not in its span.
+                let span = (0..1usize << basis.len()).any(|mask| {
+                    basis
+                        .iter()
+                        .enumerate()
+                        .filter(|(k, _)| mask >> k & 1 == 1)
+                        .fold(0, |x, (_, &b)| x ^ b)
+                        == v
+                });
+                if !span {
+                    basis.push(v);
+                    go(w, bits, basis, best);
+                    basis.pop();
+                }
+            }
+        }
+        let mut best = u32::MAX;
+        go(w, bits, &mut Vec::new(), &mut best);
+        best
+    }
+
+    #[test]
+    fn the_walk_plays_every_row_once_with_the_fewest_flips_of_any_gray_cycle() {
+        // Columns at random (any ions, repeated columns and columns that do not
+        // span included), every row weighted: the walk is a permutation of the
+        // rows from row 0, and no ordered basis gives a Gray cycle of fewer flips
+        // (all 168 ordered bases of 3 bits, all 20160 of 4, tried).
+        let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(0x6a1c);
+        for round in 0..60 {
+            let bits = rng.gen_range(1..=4usize);
+            let m = 1usize << bits;
+            let k = rng.gen_range(1..=7);
+            let w = Walsh {
+                ions: (0..k).collect(),
+                column: (0..k).map(|_| rng.gen_range(0..m as u32)).collect(),
+                t: (0..m).map(|j| 1.0 + j as f64).collect(),
+                m,
+            };
+            let order = w.walk();
+            let mut sorted = order.clone();
+            sorted.sort_unstable();
+            assert_eq!(sorted, (0..m).collect::<Vec<_>>(), "round {round}");
+            assert_eq!(order[0], 0);
+            let flips = cycle_flips(&w, &order);
+            assert_eq!(flips, fewest_over_bases(&w, bits), "round {round}: {w:?}");
+            // Never more than playing the rows in their own order.
+            let plain: Vec<usize> = (0..m).collect();
+            assert!(flips <= cycle_flips(&w, &plain), "round {round}");
+        }
+    }
+
+    #[test]
+    fn labellings_share_their_all_plus_pulse() {
+        // Three pairs of distinct weights: three classes of four pulses each, whose
+        // rows 0 (every sign +1) are one pulse: 3 * 3 + 1 pulses.
+        let mut c = Coupling::zero(6);
+        c.set(0, 1, 0.3);
+        c.set(2, 3, -0.2);
+        c.set(4, 5, FRAC_PI_4);
+        let plan = signed_classes(&c, &components(&c), 64).expect("three classes");
+        assert_eq!(plan.walsh.len(), 3);
+        let s = plan.synthesis(&c);
+        assert_eq!(s.pulses.len(), 10);
+        assert_eq!(plan.count(), 10);
+        let all_plus = s.pulses.iter().filter(|p| p.signs.iter().all(|&x| x == 1));
+        assert_eq!(all_plus.count(), 1);
+        let w: f64 = s.pulses.iter().map(|p| p.weight.abs()).sum();
+        assert!((plan.weight() - w).abs() <= 1e-15 * w);
+        // Each pair's row 0 is w/4 (derived in the module doc): the shared pulse
+        // weighs their sum, (0.3 - 0.2 + pi/4) / 4.
+        assert!((s.pulses[0].weight - (0.3 - 0.2 + FRAC_PI_4) / 4.0).abs() < 1e-15);
+        assert!(plan.certifies(&c));
+        assert!(certifies_signed(&s, &c) && realises(&s, &c));
+    }
+
+    #[test]
+    fn the_certificate_agrees_with_the_pulses_on_nudged_plans() {
+        // The certificate reads the rows' weights and the columns; the pulses are
+        // made from them. Plans of random graphs with one row weight moved by
+        // 1e-8, two ions' columns swapped, a column set to the spectators', or
+        // every column of a labelling XORed with one value:
+        // the certificate says yes exactly when the pulse-level check does.
+        let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(0xce27);
+        let weights = [FRAC_PI_4, -0.3, 0.11];
+        let (mut refused, mut tried) = (0, 0);
+        for round in 0..300 {
+            let n = rng.gen_range(2..=7);
+            let mut c = Coupling::zero(n);
+            for _ in 0..rng.gen_range(1..=n) {
+                let (i, j) = (rng.gen_range(0..n), rng.gen_range(0..n));
+                if i != j {
+                    c.set(i, j, weights[rng.gen_range(0..weights.len())]);
+                }
+            }
+            let parts = components(&c);
+            let plans = [
+                signed_labels(&c, &parts, 1 << 12),
+                signed_classes(&c, &parts, 1 << 12),
+            ];
+            for mut plan in plans.into_iter().flatten() {
+                let l = rng.gen_range(0..plan.walsh.len());
+                let w = &mut plan.walsh[l];
+                match rng.gen_range(0..4) {
+                    0 => {
+                        let j = rng.gen_range(0..w.t.len());
+                        w.t[j] += 1e-8;
+                    }
+                    // Pairs within keep their XORs; against spectators they move.
+                    3 => {
+                        let d = rng.gen_range(1..w.m as u32);
+                        w.column.iter_mut().for_each(|x| *x ^= d);
+                    }
+                    1 if w.ions.len() > 1 => {
+                        let a = rng.gen_range(0..w.ions.len());
+                        let b = (a + 1) % w.ions.len();
+                        w.column.swap(a, b);
+                    }
+                    _ => {
+                        let a = rng.gen_range(0..w.ions.len());
+                        w.column[a] = 0;
+                    }
+                }
+                let pulses = certifies_signed(&plan.synthesis(&c), &c);
+                assert_eq!(plan.certifies(&c), pulses, "round {round}: {plan:?}");
+                tried += 1;
+                refused += usize::from(!pulses);
+            }
+        }
+        // Some nudges change nothing (two ions of one column swapped, a row that
+        // makes no pulse moved): most must be refused.
+        assert!(
+            tried > 250 && refused * 10 > tried * 7,
+            "{refused} of {tried}"
+        );
     }
 }

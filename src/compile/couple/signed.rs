@@ -343,6 +343,9 @@ fn labelled(c: &Coupling, parts: &[&Part], max_pulses: usize) -> Option<Walsh> {
     if parts.is_empty() {
         return None;
     }
+    if let Some(w) = pairs_of_one_weight(parts) {
+        return pairs_labelled(parts, w, max_pulses);
+    }
     let labels = label(c, parts, true).or_else(|| label(c, parts, false))?;
     let p_bits = usize::BITS - parts.len().leading_zeros();
     let bits = labels.bits + p_bits;
@@ -374,6 +377,41 @@ fn labelled(c: &Coupling, parts: &[&Part], max_pulses: usize) -> Option<Walsh> {
         })
         .collect();
     Some(Walsh { ions, column, t, m })
+}
+
+/// The weight of `parts` when every one is a pair and all have that weight (the
+/// commonest class).
+fn pairs_of_one_weight(parts: &[&Part]) -> Option<f64> {
+    let w = parts[0].1.w.first().copied()?;
+    parts
+        .iter()
+        .all(|(ions, sub)| ions.len() == 2 && sub.w[0].to_bits() == w.to_bits())
+        .then_some(w)
+}
+
+/// [`labelled`] for pairs of one weight `w`, without the search: [`label`] gives
+/// each pair's first ion 0 and its second the one label 1, of weight `w`.
+fn pairs_labelled(parts: &[&Part], w: f64, max_pulses: usize) -> Option<Walsh> {
+    let p_bits = usize::BITS - parts.len().leading_zeros();
+    let bits = 1 + p_bits;
+    if 1usize << bits > max_pulses {
+        return None;
+    }
+    let m = 1usize << bits;
+    let mut ions = Vec::with_capacity(2 * parts.len());
+    let mut column = Vec::with_capacity(2 * parts.len());
+    for (k, (members, _)) in parts.iter().enumerate() {
+        let p = (k as u32 + 1) << 1;
+        ions.extend_from_slice(members);
+        column.extend([p, p | 1]);
+    }
+    let alpha = w / m as f64;
+    Some(Walsh {
+        ions,
+        column,
+        t: vec![alpha, -alpha],
+        m,
+    })
 }
 
 /// [`signed_labels`] for each class of components with the same set of weights (all
@@ -926,5 +964,36 @@ mod tests {
             tried > 250 && refused * 10 > tried * 7,
             "{refused} of {tried}"
         );
+    }
+
+    #[test]
+    fn pairs_of_one_weight_are_labelled_as_the_search_labels_them() {
+        // The shortcut for the commonest class against the search it skips.
+        for k in 1..=9usize {
+            for w in [0.3, -FRAC_PI_4, 1e-7] {
+                let mut c = Coupling::zero(2 * k + 3);
+                for i in 0..k {
+                    c.set(2 * i + 1, 2 * i + 2, w);
+                }
+                let parts = components(&c);
+                let pairs: Vec<&Part> = parts.iter().filter(|p| p.0.len() > 1).collect();
+                let fast = labelled(&c, &pairs, 1 << 10).expect("pairs are labelled");
+                assert!(pairs_of_one_weight(&pairs).is_some());
+                let labels = label(&c, &pairs, true).expect("the search labels pairs");
+                let p_bits = usize::BITS - pairs.len().leading_zeros();
+                assert_eq!(fast.m, 1 << (labels.bits + p_bits), "k = {k}");
+                for (ion, col) in fast.ions.iter().zip(&fast.column) {
+                    let k = pairs
+                        .iter()
+                        .position(|p| p.0.contains(ion))
+                        .expect("in a pair");
+                    let y = labels.y[*ion].expect("labelled");
+                    assert_eq!(*col, ((k as u32 + 1) << labels.bits) | y);
+                }
+                let plan = SignedPlan { walsh: vec![fast] };
+                assert!(plan.certifies(&c));
+                assert!(realises(&plan.synthesis(&c), &c));
+            }
+        }
     }
 }

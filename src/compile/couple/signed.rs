@@ -263,6 +263,47 @@ impl SignedPlan {
         out
     }
 
+    /// [`Self::pulses_on`] as played from every sign +1, without writing out a sign
+    /// vector per pulse: `step(flips, Some(weight))` for each pulse in turn, `flips`
+    /// the ions (at `at(u)`, increasing) whose sign changes before it, then
+    /// `step(flips, None)` with the ions left at -1. Going from row `j` to row `j'`
+    /// of a labelling flips its ions whose column has odd overlap with `j ^ j'`;
+    /// its ions left at -1 flip back with the next labelling's first flips.
+    pub fn play(&self, at: &dyn Fn(usize) -> usize, mut step: impl FnMut(&[usize], Option<f64>)) {
+        let mut flips: Vec<usize> = Vec::new();
+        if let Some(weight) = self.shared_row() {
+            step(&flips, Some(weight));
+        }
+        let odd = |x: u32| x.count_ones() % 2 == 1;
+        for w in &self.walsh {
+            let mut now = 0usize;
+            for j in w.walk().into_iter().filter(|&j| j != 0) {
+                let change = (j ^ now) as u32;
+                flips.extend(
+                    w.ions
+                        .iter()
+                        .zip(&w.column)
+                        .filter(|&(_, &c)| odd(change & c))
+                        .map(|(&u, _)| at(u)),
+                );
+                flips.sort_unstable();
+                step(&flips, Some(w.t[j % w.t.len()]));
+                flips.clear();
+                now = j;
+            }
+            // Back to +1, played with what comes next.
+            flips.extend(
+                w.ions
+                    .iter()
+                    .zip(&w.column)
+                    .filter(|&(_, &c)| odd(now as u32 & c))
+                    .map(|(&u, _)| at(u)),
+            );
+        }
+        flips.sort_unstable();
+        step(&flips, None);
+    }
+
     /// The pulses on the coupling's own `n` ions, as a synthesis.
     pub fn synthesis(&self, c: &Coupling) -> Synthesis {
         let pulses = self.pulses_on(c.n, &|u| u);
@@ -995,5 +1036,51 @@ mod tests {
                 assert!(realises(&plan.synthesis(&c), &c));
             }
         }
+    }
+
+    #[test]
+    fn playing_a_plan_flips_what_its_pulses_differ_in() {
+        // The flips `play` reports against the pulses of `pulses_on` played from
+        // all +1 (each pulse's signs compared with the frame before it, ions in
+        // order, then the frame taken back), on the plans of random graphs placed
+        // among spare ions.
+        let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(0x91a4);
+        let weights = [FRAC_PI_4, -0.3, 0.11, 0.3];
+        let mut plans = 0;
+        for round in 0..300 {
+            let n = rng.gen_range(2..=8);
+            let mut c = Coupling::zero(n);
+            for _ in 0..rng.gen_range(1..=n) {
+                let (i, j) = (rng.gen_range(0..n), rng.gen_range(0..n));
+                if i != j {
+                    c.set(i, j, weights[rng.gen_range(0..weights.len())]);
+                }
+            }
+            let parts = components(&c);
+            let device = n + 5;
+            // Reversed, so a labelling's flips come out of order before sorting.
+            let at = |u: usize| device - 1 - u;
+            for plan in [
+                signed_labels(&c, &parts, 1 << 12),
+                signed_classes(&c, &parts, 1 << 12),
+            ]
+            .into_iter()
+            .flatten()
+            {
+                plans += 1;
+                let mut want: Vec<(Vec<usize>, Option<f64>)> = Vec::new();
+                let mut frame = vec![1i8; device];
+                for p in plan.pulses_on(device, &at) {
+                    let flips = (0..device).filter(|&i| frame[i] != p.signs[i]).collect();
+                    frame.copy_from_slice(&p.signs);
+                    want.push((flips, Some(p.weight)));
+                }
+                want.push(((0..device).filter(|&i| frame[i] < 0).collect(), None));
+                let mut got: Vec<(Vec<usize>, Option<f64>)> = Vec::new();
+                plan.play(&at, |flips, w| got.push((flips.to_vec(), w)));
+                assert_eq!(got, want, "round {round}");
+            }
+        }
+        assert!(plans > 300, "{plans}");
     }
 }

@@ -23,12 +23,20 @@ pub struct Dag {
 impl Dag {
     /// Builds the DAG of `ops` (each a `Local` or `Zz`).
     pub fn new(ops: impl IntoIterator<Item = Canon>) -> Dag {
-        let mut graph = StableDiGraph::new();
-        let mut last: rustc_hash::FxHashMap<u32, NodeIndex> = Default::default();
+        let ops = ops.into_iter();
+        // At most two wires per operation: two edges in.
+        let hint = ops.size_hint().0;
+        let mut graph = StableDiGraph::with_capacity(hint, 2 * hint);
+        // The last node on each wire, by qubit index (grown as qubits appear).
+        let mut last: Vec<Option<NodeIndex>> = Vec::new();
         for op in ops {
             let node = graph.add_node(op);
             for q in qubits(&op) {
-                if let Some(prev) = last.insert(q, node) {
+                let q_at = q as usize;
+                if q_at >= last.len() {
+                    last.resize(q_at + 1, None);
+                }
+                if let Some(prev) = last[q_at].replace(node) {
                     graph.add_edge(prev, node, q);
                 }
             }

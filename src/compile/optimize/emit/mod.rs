@@ -522,8 +522,25 @@ impl<'a> Emitter<'a> {
                     method: Method::Signed,
                     weight,
                     build: Box::new(move || {
-                        let pulses = plan.pulses_on(n, &|u| active_idx[u]);
-                        plan.certifies(local).then_some(Made::Ordered(pulses))
+                        if !plan.certifies(local) {
+                            return None;
+                        }
+                        // As `pulse_ops` would play `plan.pulses_on(n, ..)` in
+                        // their order, without a sign vector per pulse.
+                        let mut ops = Vec::with_capacity(4 * plan.count());
+                        plan.play(&|u| active_idx[u], |flips, weight| {
+                            ops.extend(flips.iter().map(|&q| NativeOp::LightShift {
+                                ion: q as u32,
+                                theta: PI,
+                            }));
+                            if let Some(w) = weight {
+                                ops.push(NativeOp::Ms {
+                                    theta: 2.0 * w,
+                                    phi: 0.0,
+                                });
+                            }
+                        });
+                        Some(Made::Ops(ops))
                     }),
                 });
             }
@@ -919,7 +936,7 @@ impl<'a> Emitter<'a> {
             keep *= (1.0 - ec.at(theta)).max(0.0);
         };
         match made {
-            Made::Pulses(p) | Made::Ordered(p) => p.iter().for_each(|p| add(2.0 * p.weight, false)),
+            Made::Pulses(p) => p.iter().for_each(|p| add(2.0 * p.weight, false)),
             Made::Quiet(groups) => groups
                 .iter()
                 .flat_map(|g| &g.pulses)
@@ -957,7 +974,6 @@ impl<'a> Emitter<'a> {
             };
             let (ops, groups) = match made {
                 Made::Pulses(p) => (pulse_ops(p), None),
-                Made::Ordered(p) => (ordered_ops(p), None),
                 Made::Ops(ops) => (ops, None),
                 Made::Quiet(groups) => {
                     let flat: Vec<Pulse> = groups
@@ -1020,11 +1036,10 @@ fn better(a: Key, b: Key) -> bool {
     a.0 < b.0 - tol || ((a.0 - b.0).abs() <= tol && a.1 < b.1)
 }
 
-/// A candidate's pulses: sign vectors still to be ordered, or already in order, the
-/// same in groups whose quiet ions still need their signs, or operations.
+/// A candidate's pulses: sign vectors still to be ordered, the same in groups whose
+/// quiet ions still need their signs, or operations.
 enum Made {
     Pulses(Vec<Pulse>),
-    Ordered(Vec<Pulse>),
     Quiet(Vec<Group>),
     Ops(Vec<NativeOp>),
 }
@@ -1078,11 +1093,7 @@ fn on_device(pulses: &[Pulse], active: &[usize], n: usize) -> Vec<Pulse> {
 /// Sign-vector pulses as native operations: ordered for few flips, each pulse
 /// `F_s MS(2t) F_s` with the flips between pulses merged.
 fn pulse_ops(pulses: Vec<Pulse>) -> Vec<NativeOp> {
-    ordered_ops(order_pulses(pulses))
-}
-
-/// [`pulse_ops`] of pulses already in order.
-fn ordered_ops(pulses: Vec<Pulse>) -> Vec<NativeOp> {
+    let pulses = order_pulses(pulses);
     let n = pulses.first().map_or(0, |p| p.signs.len());
     let mut frame = vec![1i8; n];
     let mut ops = Vec::with_capacity(2 * pulses.len());

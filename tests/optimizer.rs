@@ -86,7 +86,7 @@ fn every_pass_keeps_the_unitary() {
         let mut rewritten = Circuit::with_registers(n, 0);
         rewritten.instrs = c.instrs.clone();
         for (pass_name, pass) in circuit_passes(Target::Collective) {
-            rewritten.instrs = pass(&rewritten.instrs);
+            rewritten.instrs = pass(std::mem::take(&mut rewritten.instrs));
             assert_same(&c, &rewritten, &format!("{name}: {pass_name}"));
         }
         let canon: Vec<Canon> = lower(&rewritten)
@@ -133,7 +133,7 @@ fn cnot_rz_cnot_becomes_one_interaction() {
     let c = common::read_ok_str(
         "OPENQASM 2.0;\ninclude \"qelib1.inc\";\nqreg q[3];\nh q[2];\ncx q[0],q[1];\nrz(0.3) q[1];\ncx q[0],q[1];\nh q[2];\n",
     );
-    let out = phase_poly::rewrite(&c.instrs);
+    let out = phase_poly::rewrite(c.instrs.clone());
     let two: Vec<&Instr> = out.iter().filter(|i| i.op.qubits().len() == 2).collect();
     assert_eq!(two.len(), 1, "{out:?}");
     assert!(matches!(&two[0].op, Op::Gate { gate, .. } if gate.kind == GateKind::Rzz));
@@ -386,7 +386,7 @@ fn multi_controlled_gates_become_phase_polynomials() {
         instrs.push(gate(kind, &[], &qs));
         instrs.push(gate(GateKind::Rx, &[0.4], &[qs[0]]));
         let c = circuit_of(n, instrs);
-        let out = multi_control::rewrite(&c.instrs);
+        let out = multi_control::rewrite(c.instrs.clone());
         assert!(
             !out.iter()
                 .any(|i| matches!(&i.op, Op::Gate { gate, .. } if gate.kind == kind)),
@@ -456,7 +456,7 @@ fn cnot_ladders_become_prefix_networks() {
         instrs.extend(ladder);
         instrs.push(gate(GateKind::H, &[], &[3]));
         let c = circuit_of(n, instrs);
-        let out = ladder::rewrite(&c.instrs);
+        let out = ladder::rewrite(c.instrs.clone());
         assert!(same(&c, &circuit_of(n, out.clone())), "backward {backward}");
         let cx: Vec<usize> = out
             .iter()
@@ -512,7 +512,7 @@ fn controlled_rotations_become_one_interaction() {
                 gate(GateKind::Rx, &[0.5], &[2]),
             ],
         );
-        let out = controlled::rewrite(&c.instrs);
+        let out = controlled::rewrite(c.instrs.clone());
         let zz = out
             .iter()
             .position(|i| matches!(&i.op, Op::Gate { gate, .. } if gate.kind == GateKind::Rzz))

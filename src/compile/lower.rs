@@ -242,6 +242,9 @@ fn lower_gate(gate: &Gate, q: &[u32], out: &mut Out<'_>) {
     let t = gate.params[0];
     match gate.kind {
         Cz => out.cz(q[0], q[1]),
+        // H on the target around a CZ: exact, where the general controlled gate
+        // below finds the same from the matrix through arctangents.
+        Cx | BuiltinCx => out.cx(q[0], q[1]),
         Cu1 | Cp => out.cphase(q[0], q[1], t),
         Crz => {
             out.zz(q[0], q[1], -t / 2.0);
@@ -316,7 +319,7 @@ pub fn lower(c: &Circuit) -> Result<Vec<CanonStep>, LowerError> {
         };
         match &instr.op {
             Op::Gate { gate, qubits } => {
-                let q: Vec<u32> = qubits.iter().map(|q| q.0).collect();
+                let q: smallvec::SmallVec<[u32; 5]> = qubits.iter().map(|q| q.0).collect();
                 lower_gate(gate, &q, &mut out);
             }
             Op::Opaque { decl, .. } => {

@@ -45,7 +45,7 @@ pub fn axis_angle(u: &crate::circuit::Mat2) -> (f64, f64, f64, f64) {
 }
 
 /// Rewrites unconditioned `cy`, `ch`, `crx`, `cry` and `cu3` (the others pass).
-pub fn rewrite(instrs: &[Instr]) -> Vec<Instr> {
+pub fn rewrite(instrs: Vec<Instr>) -> Vec<Instr> {
     use GateKind::*;
     super::expand_gates(instrs, |g, q, out| {
         if !matches!(g.kind, Cy | Ch | Crx | Cry | Cu3) {

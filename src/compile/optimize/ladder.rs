@@ -125,16 +125,16 @@ impl Ladder {
 
 /// Rewrites CNOT ladders of `instrs`. Instructions on qubits the open ladder does not
 /// hold are moved before it (they commute with it); anything else closes it.
-pub fn rewrite(instrs: &[Instr]) -> Vec<Instr> {
+pub fn rewrite(instrs: Vec<Instr>) -> Vec<Instr> {
     let mut out = Vec::with_capacity(instrs.len());
     let mut ladder = Ladder::default();
     for instr in instrs {
-        if let Some((c, t)) = as_cx(instr) {
-            if ladder.extend(c, t, instr) {
+        if let Some((c, t)) = as_cx(&instr) {
+            if ladder.extend(c, t, &instr) {
                 continue;
             }
             ladder.flush(&mut out);
-            let started = ladder.extend(c, t, instr);
+            let started = ladder.extend(c, t, &instr);
             debug_assert!(started);
             continue;
         }
@@ -145,7 +145,7 @@ pub fn rewrite(instrs: &[Instr]) -> Vec<Instr> {
         {
             ladder.flush(&mut out);
         }
-        out.push(instr.clone());
+        out.push(instr);
     }
     ladder.flush(&mut out);
     out

@@ -260,7 +260,7 @@ pub(crate) fn gate(kind: crate::circuit::GateKind, params: &[f64], qs: &[u32]) -
 /// qubits and either pushes its replacement and returns true, or returns false to
 /// keep it; everything else passes unchanged.
 pub(crate) fn expand_gates(
-    instrs: &[Instr],
+    instrs: Vec<Instr>,
     mut expand: impl FnMut(&crate::circuit::Gate, &[u32], &mut Vec<Instr>) -> bool,
 ) -> Vec<Instr> {
     let mut out = Vec::with_capacity(instrs.len());
@@ -271,13 +271,14 @@ pub(crate) fn expand_gates(
                 continue;
             }
         }
-        out.push(instr.clone());
+        out.push(instr);
     }
     out
 }
 
-/// A pass over a range's instructions, keeping its unitary.
-pub type CircuitPass = fn(&[Instr]) -> Vec<Instr>;
+/// A pass over a range's instructions, keeping its unitary (it takes them, so that
+/// what it leaves alone moves through rather than being copied).
+pub type CircuitPass = fn(Vec<Instr>) -> Vec<Instr>;
 
 /// The circuit-level passes for `target`, in order, with their names. The ladder and
 /// multi-control rewrites (the first two) trade more interactions for fewer blocks, which only the
@@ -301,7 +302,7 @@ pub fn canonical(
 ) -> Result<Vec<Canon>, CompileError> {
     let mut rewritten = instrs.to_vec();
     for (_, pass) in circuit_passes(target) {
-        rewritten = pass(&rewritten);
+        rewritten = pass(rewritten);
     }
     let lowered = lower(&sub_circuit(c, rewritten))?;
     let mut g = dag::Dag::new(lowered.into_iter().map(|s| s.op));

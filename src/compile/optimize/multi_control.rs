@@ -111,7 +111,7 @@ pub fn controlled_z(qs: &[u32], out: &mut Vec<Instr>) {
 
 /// Rewrites unconditioned `ccx`, `c3x`, `c4x` and `cswap` gates (the others, and
 /// anything conditioned, pass unchanged).
-pub fn rewrite(instrs: &[Instr]) -> Vec<Instr> {
+pub fn rewrite(instrs: Vec<Instr>) -> Vec<Instr> {
     super::expand_gates(instrs, |g, q, out| {
         match g.kind {
             GateKind::Ccx | GateKind::C3x | GateKind::C4x => {

@@ -189,12 +189,12 @@ impl Region {
 /// Rewrites the regions of CNOT and diagonal gates of `instrs` (unconditioned
 /// gates only; anything else closes the regions on its qubits). Gates on qubits
 /// no region holds are moved before the open region, which they commute with.
-pub fn rewrite(instrs: &[Instr]) -> Vec<Instr> {
+pub fn rewrite(instrs: Vec<Instr>) -> Vec<Instr> {
     let mut out = Vec::with_capacity(instrs.len());
     let mut region = Region::default();
     for instr in instrs {
-        if joins(instr) {
-            region.push(instr.clone());
+        if joins(&instr) {
+            region.push(instr);
             continue;
         }
         let touches = instr
@@ -208,7 +208,7 @@ pub fn rewrite(instrs: &[Instr]) -> Vec<Instr> {
         {
             region.flush(&mut out);
         }
-        out.push(instr.clone());
+        out.push(instr);
     }
     region.flush(&mut out);
     out

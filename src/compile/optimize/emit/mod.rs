@@ -438,10 +438,15 @@ impl<'a> Emitter<'a> {
             local.set(pos(a), pos(b), w);
         }
         let n = self.n() as usize;
-        let mut device = Coupling::zero(n);
-        for &(a, b, w) in &terms {
-            device.set(a as usize, b as usize, w);
-        }
+        // The coupling on the whole device, for the candidates that need it (made
+        // when they are built: most blocks never build one).
+        let device_of = || {
+            let mut device = Coupling::zero(n);
+            for &(a, b, w) in &terms {
+                device.set(a as usize, b as usize, w);
+            }
+            device
+        };
         let active_idx: Vec<usize> = active.iter().map(|&q| q as usize).collect();
         let idle = n - active.len();
         let parts = components(&local);
@@ -449,7 +454,17 @@ impl<'a> Emitter<'a> {
         // built; `choose` builds the costly ones only while that bound could still
         // beat the best built so far. First those that need no coupling program.
         let mut cheap: Vec<Candidate> = Vec::new();
-        if let Some(m) = matching(&device) {
+        // Fact 7 needs disjoint pairs: an ion with two partners rules it out.
+        let mut partner = vec![u32::MAX; n];
+        let disjoint = terms.iter().all(|&(a, b, _)| {
+            let ok = [(a, b), (b, a)]
+                .iter()
+                .all(|&(x, y)| partner[x as usize] == u32::MAX || partner[x as usize] == y);
+            partner[a as usize] = b;
+            partner[b as usize] = a;
+            ok
+        });
+        if let Some(m) = disjoint.then(|| matching(&device_of())).flatten() {
             cheap.push(Candidate::built(
                 self,
                 Made::Pulses(m.pulses),
@@ -459,16 +474,18 @@ impl<'a> Emitter<'a> {
         }
         // Fact 6 for each coupling: m pulses of weight |w|/m, m >= n - 1, the m rows
         // of a Hadamard matrix (distinct, so at least m - 1 flip layers).
-        let nonzero = device.w.iter().filter(|w| **w != 0.0).count();
+        // The same couplings as on the device, in the same order (the active ions
+        // are sorted), so the same sums.
+        let nonzero = local.w.iter().filter(|w| **w != 0.0).count();
         let m_each = smallest_order(n.saturating_sub(1).max(1));
-        let h_total: f64 = device.w.iter().map(|w| 2.0 * w.abs()).sum();
+        let h_total: f64 = local.w.iter().map(|w| 2.0 * w.abs()).sum();
         {
-            let device = &device;
+            let device_of = &device_of;
             cheap.push(Candidate {
                 lower: self.pulse_bound(nonzero * m_each, h_total, m_each - 1),
                 method: Method::Hadamard,
                 weight: h_total / 2.0,
-                build: Box::new(move || Some(Made::Pulses(hadamard_each(device).pulses))),
+                build: Box::new(move || Some(Made::Pulses(hadamard_each(&device_of()).pulses))),
             });
         }
         if self.target == Target::Addressed && self.profile.capabilities.pair_ms {
@@ -734,7 +751,7 @@ impl<'a> Emitter<'a> {
                 .max_by(|a, b| a.1.weight.total_cmp(&b.1.weight))
                 .map_or((0.0, Method::Single), |p| (p.1.weight, p.1.method));
             let m = smallest_order(on_device.len());
-            let device = &device;
+            let device_of = &device_of;
             candidates.push(Candidate {
                 lower: with_floor(
                     all,
@@ -746,7 +763,7 @@ impl<'a> Emitter<'a> {
                 build: Box::new(move || {
                     let joined = side_by_side(n, &on_device);
                     joined
-                        .certifies(device)
+                        .certifies(&device_of())
                         .then_some(Made::Pulses(joined.pulses))
                 }),
             });

@@ -946,6 +946,33 @@ mod tests {
         assert!(certifies_signed(&s, &c) && realises(&s, &c));
     }
 
+    /// A coupling on 2 to `most` ions with up to as many couplings as ions, each of
+    /// a weight drawn from `weights`.
+    fn random_graph(rng: &mut impl Rng, most: usize, weights: &[f64]) -> Coupling {
+        let n = rng.gen_range(2..=most);
+        let mut c = Coupling::zero(n);
+        for _ in 0..rng.gen_range(1..=n) {
+            let (i, j) = (rng.gen_range(0..n), rng.gen_range(0..n));
+            if i != j {
+                c.set(i, j, weights[rng.gen_range(0..weights.len())]);
+            }
+        }
+        c
+    }
+
+    /// The plans the optimizer offers for `c`: one labelling, and the classes in
+    /// turn (each when it exists).
+    fn both_plans(c: &Coupling) -> Vec<SignedPlan> {
+        let parts = components(c);
+        [
+            signed_labels(c, &parts, 1 << 12),
+            signed_classes(c, &parts, 1 << 12),
+        ]
+        .into_iter()
+        .flatten()
+        .collect()
+    }
+
     #[test]
     fn the_certificate_agrees_with_the_pulses_on_nudged_plans() {
         // The certificate reads the rows' weights and the columns; the pulses are
@@ -957,20 +984,8 @@ mod tests {
         let weights = [FRAC_PI_4, -0.3, 0.11];
         let (mut refused, mut tried) = (0, 0);
         for round in 0..300 {
-            let n = rng.gen_range(2..=7);
-            let mut c = Coupling::zero(n);
-            for _ in 0..rng.gen_range(1..=n) {
-                let (i, j) = (rng.gen_range(0..n), rng.gen_range(0..n));
-                if i != j {
-                    c.set(i, j, weights[rng.gen_range(0..weights.len())]);
-                }
-            }
-            let parts = components(&c);
-            let plans = [
-                signed_labels(&c, &parts, 1 << 12),
-                signed_classes(&c, &parts, 1 << 12),
-            ];
-            for mut plan in plans.into_iter().flatten() {
+            let c = random_graph(&mut rng, 7, &weights);
+            for mut plan in both_plans(&c) {
                 let l = rng.gen_range(0..plan.walsh.len());
                 let w = &mut plan.walsh[l];
                 match rng.gen_range(0..4) {
@@ -1048,25 +1063,11 @@ mod tests {
         let weights = [FRAC_PI_4, -0.3, 0.11, 0.3];
         let mut plans = 0;
         for round in 0..300 {
-            let n = rng.gen_range(2..=8);
-            let mut c = Coupling::zero(n);
-            for _ in 0..rng.gen_range(1..=n) {
-                let (i, j) = (rng.gen_range(0..n), rng.gen_range(0..n));
-                if i != j {
-                    c.set(i, j, weights[rng.gen_range(0..weights.len())]);
-                }
-            }
-            let parts = components(&c);
-            let device = n + 5;
+            let c = random_graph(&mut rng, 8, &weights);
+            let device = c.n + 5;
             // Reversed, so a labelling's flips come out of order before sorting.
             let at = |u: usize| device - 1 - u;
-            for plan in [
-                signed_labels(&c, &parts, 1 << 12),
-                signed_classes(&c, &parts, 1 << 12),
-            ]
-            .into_iter()
-            .flatten()
-            {
+            for plan in both_plans(&c) {
                 plans += 1;
                 let mut want: Vec<(Vec<usize>, Option<f64>)> = Vec::new();
                 let mut frame = vec![1i8; device];

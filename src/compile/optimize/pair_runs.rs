@@ -249,6 +249,17 @@ fn resynthesise(run: &[Canon], a: u32, b: u32) -> Option<Vec<Canon>> {
     (overlap(&u, &unitary(&new, a)) > 1.0 - 1e-10).then_some(new)
 }
 
+/// A run of interactions on the pair `a < b`: its first and last operation (indices
+/// into the pass's list), its last interaction and how many it holds.
+struct Run {
+    a: u32,
+    b: u32,
+    first: usize,
+    tail: usize,
+    last_zz: usize,
+    zzs: usize,
+}
+
 /// Pass: each run of interactions on one pair, with only that pair's single-qubit
 /// gates between them, is replaced by its canonical form when that spends less.
 pub fn pair_runs(dag: &mut Dag) {
@@ -258,58 +269,71 @@ pub fn pair_runs(dag: &mut Dag) {
         .flat_map(super::dag::qubits)
         .max()
         .map_or(0, |m| m as usize + 1);
-    // Runs: (a, b, indices into ops); each qubit's open run.
-    let mut runs: Vec<(u32, u32, Vec<usize>)> = Vec::new();
+    // Runs, each a list threaded through `next` (no list of its own: most runs
+    // hold one interaction and are never resynthesised); each qubit's open run.
+    // Every run is looked at once it can grow no more, in the order it began.
+    let mut runs: Vec<Run> = Vec::new();
+    let mut next = vec![usize::MAX; ops.len()];
     let mut open: Vec<Option<usize>> = vec![None; n];
-    let mut closed: Vec<usize> = Vec::new();
+    let mut push = |run: &mut Run, k: usize, zz: bool| {
+        next[run.tail] = k;
+        run.tail = k;
+        if zz {
+            run.last_zz = k;
+            run.zzs += 1;
+        }
+    };
     for (k, op) in ops.iter().enumerate() {
         match *op {
             Canon::Local { q, .. } => {
                 if let Some(r) = open[q as usize] {
-                    runs[r].2.push(k);
+                    push(&mut runs[r], k, false);
                 }
             }
             Canon::Zz { a, b, .. } => {
                 match (open[a as usize], open[b as usize]) {
                     (Some(r), Some(s)) if r == s => {
-                        runs[r].2.push(k);
+                        push(&mut runs[r], k, true);
                         continue;
                     }
                     _ => {}
                 }
                 for q in [a, b] {
                     if let Some(r) = open[q as usize] {
-                        open[runs[r].0 as usize] = None;
-                        open[runs[r].1 as usize] = None;
-                        closed.push(r);
+                        open[runs[r].a as usize] = None;
+                        open[runs[r].b as usize] = None;
                     }
                 }
                 open[a as usize] = Some(runs.len());
                 open[b as usize] = Some(runs.len());
-                runs.push((a.min(b), a.max(b), vec![k]));
+                runs.push(Run {
+                    a: a.min(b),
+                    b: a.max(b),
+                    first: k,
+                    tail: k,
+                    last_zz: k,
+                    zzs: 1,
+                });
             }
             _ => unreachable!("segments hold gates only"),
         }
     }
-    closed.extend(open.iter().flatten().copied());
-    closed.sort_unstable();
-    closed.dedup();
     let mut replaced: Vec<Option<Vec<Canon>>> = vec![None; ops.len()];
     let mut dropped = vec![false; ops.len()];
-    for r in closed {
-        let (a, b, idx) = &mut runs[r];
-        while let Some(&last) = idx.last() {
-            if matches!(ops[last], Canon::Zz { .. }) {
-                break;
-            }
-            idx.pop();
+    // A run of one interaction has nothing to resynthesise (`resynthesise` says
+    // so too); the others up to their last interaction (the single-qubit gates
+    // after it stay where they are).
+    for run in runs.iter().filter(|run| run.zzs >= 2) {
+        let mut idx = vec![run.first];
+        while *idx.last().expect("a first") != run.last_zz {
+            idx.push(next[*idx.last().expect("a first")]);
         }
         let body: Vec<Canon> = idx.iter().map(|&k| ops[k]).collect();
-        if let Some(new) = resynthesise(&body, *a, *b) {
+        if let Some(new) = resynthesise(&body, run.a, run.b) {
             for &k in idx.iter() {
                 dropped[k] = true;
             }
-            replaced[*idx.last().expect("a run has interactions")] = Some(new);
+            replaced[run.last_zz] = Some(new);
         }
     }
     if replaced.iter().all(Option::is_none) {

@@ -83,12 +83,6 @@ impl Walsh {
         (0..self.m).filter(move |&j| keeps(j))
     }
 
-    /// Its pulses but row 0's with the signs of `ions[k]` at `at(ions[k])` among
-    /// `n`, the rest +1.
-    fn pulses(&self, n: usize, at: &dyn Fn(usize) -> usize, out: &mut Vec<Pulse>) {
-        self.pulses_by_place(n, &|k| at(self.ions[k]), false, out);
-    }
-
     /// What its pulses sum to, by the XOR of two columns: `sums[x] = sum_j T_j
     /// H[j][x]` over its rows (`T_j` the weight of row `j`, 0 for a row that makes
     /// no pulse). Since `H[j][a] H[j][b] = H[j][a ^ b]`, ions with columns `a`, `b`
@@ -172,18 +166,12 @@ impl Walsh {
         order
     }
 
-    /// Its pulses in the order of [`Self::walk`] (row 0's, all +1, only when
-    /// `row0`), with the signs of `ions[k]` at `at(k)` among `n`, the rest +1.
-    fn pulses_by_place(
-        &self,
-        n: usize,
-        at: &dyn Fn(usize) -> usize,
-        row0: bool,
-        out: &mut Vec<Pulse>,
-    ) {
-        let places: Vec<usize> = (0..self.ions.len()).map(at).collect();
+    /// Its pulses but row 0's (the shared one), in the order of [`Self::walk`],
+    /// with the signs of `ions[k]` at `at(ions[k])` among `n`, the rest +1.
+    fn pulses(&self, n: usize, at: &dyn Fn(usize) -> usize, out: &mut Vec<Pulse>) {
+        let places: Vec<usize> = self.ions.iter().map(|&u| at(u)).collect();
         out.reserve(self.m);
-        for j in self.walk().into_iter().filter(|&j| row0 || j != 0) {
+        for j in self.walk().into_iter().filter(|&j| j != 0) {
             let mut signs = Signs::from_elem(1, n);
             for (&q, &col) in places.iter().zip(&self.column) {
                 signs[q] = parity_sign(j as u32 & col);

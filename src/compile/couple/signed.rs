@@ -126,12 +126,7 @@ impl Walsh {
     /// [`Self::kept`]) are skipped.
     fn walk(&self) -> Vec<usize> {
         let bits = self.m.trailing_zeros() as usize;
-        let flips = |v: usize| {
-            self.column
-                .iter()
-                .filter(|&&c| (v as u32 & c).count_ones() % 2 == 1)
-                .count()
-        };
+        let flips = |v: usize| self.column.iter().filter(|&&c| odd(v as u32 & c)).count();
         let mut rows: Vec<(usize, usize)> = (1..self.m).map(|v| (flips(v), v)).collect();
         rows.sort_unstable();
         // Reduced vectors by their highest bit, to test independence.
@@ -184,12 +179,17 @@ impl Walsh {
     }
 }
 
-/// `+1` for an even number of set bits, else `-1`: `H[j][c]` for `x = j & c`.
+/// Whether `x` has an odd number of set bits: `H[j][c] = -1` for `x = j & c`.
+fn odd(x: u32) -> bool {
+    x.count_ones() % 2 == 1
+}
+
+/// `H[j][c]` for `x = j & c`: `-1` where [`odd`], else `+1`.
 fn parity_sign(x: u32) -> i8 {
-    if x.count_ones() % 2 == 0 {
-        1
-    } else {
+    if odd(x) {
         -1
+    } else {
+        1
     }
 }
 
@@ -217,20 +217,22 @@ impl SignedPlan {
         (f64::abs(sum) > 1e-15 * top).then_some(sum)
     }
 
-    /// The number of pulses.
-    pub fn count(&self) -> usize {
-        let own: usize = self.walsh.iter().map(|w| w.other_rows().count()).sum();
-        own + usize::from(self.shared_row().is_some())
-    }
-
-    /// The sum of the pulses' magnitudes.
-    pub fn weight(&self) -> f64 {
-        let own: f64 = self
-            .walsh
-            .iter()
-            .map(|w| w.other_rows().map(f64::abs).sum::<f64>())
-            .sum();
-        own + self.shared_row().map_or(0.0, f64::abs)
+    /// The number of pulses and the sum of their magnitudes, in one pass over the
+    /// rows.
+    pub fn size(&self) -> (usize, f64) {
+        let (mut count, mut weight) = (0, 0.0);
+        for w in &self.walsh {
+            let mut own = 0.0;
+            for t in w.other_rows() {
+                count += 1;
+                own += t.abs();
+            }
+            weight += own;
+        }
+        match self.shared_row() {
+            Some(t) => (count + 1, weight + t.abs()),
+            None => (count, weight),
+        }
     }
 
     /// The pulses on `n` ions, ion `u` of the coupling at `at(u)`, every other +1:
@@ -262,7 +264,6 @@ impl SignedPlan {
         if let Some(weight) = self.shared_row() {
             step(&flips, Some(weight));
         }
-        let odd = |x: u32| x.count_ones() % 2 == 1;
         for w in &self.walsh {
             let mut now = 0usize;
             for j in w.walk().into_iter().filter(|&j| j != 0) {
@@ -722,8 +723,9 @@ mod tests {
                     assert!(plan.certifies(&c), "round {round}");
                     let s = plan.synthesis(&c);
                     assert!(certifies_signed(&s, &c), "round {round}");
-                    assert_eq!(plan.count(), s.pulses.len());
-                    assert!((plan.weight() - s.weight).abs() <= 1e-12 * s.weight);
+                    let (count, weight) = plan.size();
+                    assert_eq!(count, s.pulses.len());
+                    assert!((weight - s.weight).abs() <= 1e-12 * s.weight);
                     assert!(realises(&s, &c), "round {round}: {c:?}");
                     let largest = c.max_abs();
                     assert!(s.weight >= largest - 1e-12, "round {round}");
@@ -815,7 +817,7 @@ mod tests {
             assert!(plan.certifies(&c), "round {round}");
             let s = plan.synthesis(&c);
             assert!(realises(&s, &c), "round {round}: {c:?}");
-            assert_eq!(plan.count(), s.pulses.len());
+            assert_eq!(plan.size().0, s.pulses.len());
             // A coupling changed by 1e-8, or one left out: refused.
             let mut off = c.clone();
             let k = off.w.iter().position(|w| *w != 0.0).expect("a coupling");
@@ -922,11 +924,11 @@ mod tests {
         assert_eq!(plan.walsh.len(), 3);
         let s = plan.synthesis(&c);
         assert_eq!(s.pulses.len(), 10);
-        assert_eq!(plan.count(), 10);
+        assert_eq!(plan.size().0, 10);
         let all_plus = s.pulses.iter().filter(|p| p.signs.iter().all(|&x| x == 1));
         assert_eq!(all_plus.count(), 1);
         let w: f64 = s.pulses.iter().map(|p| p.weight.abs()).sum();
-        assert!((plan.weight() - w).abs() <= 1e-15 * w);
+        assert!((plan.size().1 - w).abs() <= 1e-15 * w);
         // Each pair's row 0 is w/4 (derived in the module doc): the shared pulse
         // weighs their sum, (0.3 - 0.2 + pi/4) / 4.
         assert!((s.pulses[0].weight - (0.3 - 0.2 + FRAC_PI_4) / 4.0).abs() < 1e-15);

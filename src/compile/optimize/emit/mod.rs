@@ -529,11 +529,11 @@ impl<'a> Emitter<'a> {
                     kept.push(plan.synthesis(&local));
                 }
                 let (local, active_idx) = (&local, &active_idx);
-                let weight = plan.weight();
+                let (count, weight) = plan.size();
                 signed.push(Candidate {
                     lower: with_floor(
                         e.build_all,
-                        e.pulse_bound(plan.count(), 2.0 * weight, 0),
+                        e.pulse_bound(count, 2.0 * weight, 0),
                         Some(signed_floor),
                     ),
                     method: Method::Signed,
@@ -544,18 +544,9 @@ impl<'a> Emitter<'a> {
                         }
                         // As `pulse_ops` would play `plan.pulses_on(n, ..)` in
                         // their order, without a sign vector per pulse.
-                        let mut ops = Vec::with_capacity(4 * plan.count());
+                        let mut ops = Vec::with_capacity(4 * count);
                         plan.play(&|u| active_idx[u], |flips, weight| {
-                            ops.extend(flips.iter().map(|&q| NativeOp::LightShift {
-                                ion: q as u32,
-                                theta: PI,
-                            }));
-                            if let Some(w) = weight {
-                                ops.push(NativeOp::Ms {
-                                    theta: 2.0 * w,
-                                    phi: 0.0,
-                                });
-                            }
+                            flip_then_pulse(&mut ops, flips.iter().copied(), weight)
                         });
                         Some(Made::Ops(ops))
                     }),
@@ -1115,27 +1106,30 @@ fn pulse_ops(pulses: Vec<Pulse>) -> Vec<NativeOp> {
     let mut frame = vec![1i8; n];
     let mut ops = Vec::with_capacity(2 * pulses.len());
     for p in pulses {
-        for (i, (f, s)) in frame.iter_mut().zip(&p.signs).enumerate() {
-            if f != s {
-                ops.push(NativeOp::LightShift {
-                    ion: i as u32,
-                    theta: PI,
-                });
-                *f = *s;
-            }
-        }
+        let flips = (0..n).filter(|&i| frame[i] != p.signs[i]);
+        flip_then_pulse(&mut ops, flips, Some(p.weight));
+        frame.copy_from_slice(&p.signs);
+    }
+    let back = (0..n).filter(|&i| frame[i] < 0);
+    flip_then_pulse(&mut ops, back, None);
+    ops
+}
+
+/// One step of a pulse sequence: a light shift of pi on each ion of `flips` (its
+/// sign changes), then the MS pulse of `weight` (`theta = 2 weight`), if any.
+fn flip_then_pulse(
+    ops: &mut Vec<NativeOp>,
+    flips: impl Iterator<Item = usize>,
+    weight: Option<f64>,
+) {
+    ops.extend(flips.map(|q| NativeOp::LightShift {
+        ion: q as u32,
+        theta: PI,
+    }));
+    if let Some(w) = weight {
         ops.push(NativeOp::Ms {
-            theta: 2.0 * p.weight,
+            theta: 2.0 * w,
             phi: 0.0,
         });
     }
-    for (i, f) in frame.iter().enumerate() {
-        if *f < 0 {
-            ops.push(NativeOp::LightShift {
-                ion: i as u32,
-                theta: PI,
-            });
-        }
-    }
-    ops
 }

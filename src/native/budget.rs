@@ -85,6 +85,7 @@ pub fn budget(seq: &Sequence, profile: &Profile, active: u32) -> Budget {
         profile,
         active,
         true,
+        true,
     )
 }
 
@@ -92,7 +93,48 @@ pub fn budget(seq: &Sequence, profile: &Profile, active: u32) -> Budget {
 /// (`entangling_depth` is 0 and `idle_us` empty): what the optimizer ranks candidates
 /// by, at less cost. Every ion counts as used.
 pub fn figures(ops: &[NativeOp], n_ions: u32, profile: &Profile) -> Budget {
-    tally(ops.iter(), n_ions as usize, profile, n_ions, false)
+    tally(ops.iter(), n_ions as usize, profile, n_ions, false, true)
+}
+
+/// The figures of [`figures`] an objective ranks by: pulses, area and duration
+/// always, the expected error only when `with_error` (its per-operation terms and
+/// the decoherence of every ion are most of the cost of [`figures`], and only the
+/// objective `error` ranks by it). Each is computed as [`figures`] computes it.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Ranked {
+    pub ms_pulses: usize,
+    pub ms_area: f64,
+    pub duration_us: f64,
+    pub est_error: Option<f64>,
+}
+
+impl From<&Budget> for Ranked {
+    fn from(b: &Budget) -> Ranked {
+        Ranked {
+            ms_pulses: b.ms_pulses,
+            ms_area: b.ms_area,
+            duration_us: b.duration_us,
+            est_error: Some(b.est_error),
+        }
+    }
+}
+
+/// [`Ranked`] figures of `ops` on a chain of `n_ions` (every ion counts as used).
+pub fn ranked(ops: &[NativeOp], n_ions: u32, profile: &Profile, with_error: bool) -> Ranked {
+    let b = tally(
+        ops.iter(),
+        n_ions as usize,
+        profile,
+        n_ions,
+        false,
+        with_error,
+    );
+    Ranked {
+        ms_pulses: b.ms_pulses,
+        ms_area: b.ms_area,
+        duration_us: b.duration_us,
+        est_error: with_error.then_some(b.est_error),
+    }
 }
 
 /// Per-ion bookkeeping of [`budget`]: entangling depth and busy time. A whole-chain
@@ -199,6 +241,7 @@ fn tally<'a>(
     profile: &Profile,
     active: u32,
     per_ion: bool,
+    errors: bool,
 ) -> Budget {
     let mut b = Budget {
         ms_pulses: 0,
@@ -221,8 +264,10 @@ fn tally<'a>(
     let mut clock = Clock::new(profile, n);
     for op in ops {
         let dt = cost_of(&profile.durations_us, op);
-        let err = cost_of(&profile.errors, op);
-        fidelity = above_subnormal(fidelity * (1.0 - err).max(0.0));
+        if errors {
+            let err = cost_of(&profile.errors, op);
+            fidelity = above_subnormal(fidelity * (1.0 - err).max(0.0));
+        }
         match *op {
             NativeOp::Ms { theta, .. } | NativeOp::PairMs { theta, .. } => {
                 b.ms_pulses += 1;
@@ -244,11 +289,17 @@ fn tally<'a>(
     }
     b.duration_us = clock.now;
     let t = b.duration_us;
-    let c = profile.coherence;
-    for _ in 0..active {
-        fidelity *= (-t / c.t2_us).exp() * (-t / (2.0 * c.t1_us)).exp();
+    if errors {
+        let c = profile.coherence;
+        // Each ion's factor, multiplied in one ion at a time.
+        let each = (-t / c.t2_us).exp() * (-t / (2.0 * c.t1_us)).exp();
+        for _ in 0..active {
+            fidelity *= each;
+        }
+        b.est_error = 1.0 - fidelity;
+    } else {
+        b.est_error = f64::NAN;
     }
-    b.est_error = 1.0 - fidelity;
     if let Some(ions) = ions {
         b.idle_us = (0..active as usize)
             .map(|i| (t - ions.busy(i)).max(0.0))
@@ -490,6 +541,19 @@ mod tests {
                 (f.ms_pulses, f.ms_area, f.duration_us, f.est_error),
                 (b.ms_pulses, b.ms_area, b.duration_us, b.est_error)
             );
+            // And the ranked ones are those, with the error or without it.
+            for with_error in [true, false] {
+                let r = ranked(&ops, n as u32, &profile, with_error);
+                assert_eq!(
+                    (r.ms_pulses, r.ms_area, r.duration_us, r.est_error),
+                    (
+                        b.ms_pulses,
+                        b.ms_area,
+                        b.duration_us,
+                        with_error.then_some(b.est_error)
+                    )
+                );
+            }
         }
     }
 }

@@ -330,11 +330,7 @@ pub fn synthesize(c: &Coupling, budget: Budget) -> Synthesis {
                 (ions, s)
             })
             .collect();
-        let joined = side_by_side(c.n, &solved);
-        if joined.certifies(c) {
-            return joined;
-        }
-        return hadamard_each(c);
+        return join_parts(c, &solved);
     }
     let found = if c.n <= EXACT_IONS && budget.strategy == Strategy::Auto {
         exact(c)
@@ -344,6 +340,29 @@ pub fn synthesize(c: &Coupling, budget: Budget) -> Synthesis {
     match found {
         Some(s) if s.certifies(c) => s,
         _ => hadamard_each(c),
+    }
+}
+
+/// Whether [`synthesize`] makes `c` from its components' syntheses: when it has
+/// more than one component and is not a layer of disjoint pairs, and `time` is left
+/// for the program (else the construction stands). A caller that keeps the
+/// components' syntheses makes the same with [`join_parts`].
+pub fn by_parts(c: &Coupling, parts: usize, time: Duration) -> bool {
+    c.n > 2
+        && parts > 1
+        && !time.is_zero()
+        && c.w.iter().any(|w| *w != 0.0)
+        && matching_layers(c).is_none()
+}
+
+/// `c` made of its components' syntheses `solved` (ions, synthesis), side by side;
+/// the Hadamard construction where that does not certify.
+pub fn join_parts(c: &Coupling, solved: &[(Vec<usize>, Synthesis)]) -> Synthesis {
+    let joined = side_by_side(c.n, solved);
+    if joined.certifies(c) {
+        joined
+    } else {
+        hadamard_each(c)
     }
 }
 
@@ -472,11 +491,11 @@ pub const ORDER_WINDOW: usize = 32;
 /// alone), each sorted, with the coupling among its ions.
 pub fn components(c: &Coupling) -> Vec<(Vec<usize>, Coupling)> {
     let mut sets = petgraph::unionfind::UnionFind::<usize>::new(c.n);
-    for i in 0..c.n {
-        for j in i + 1..c.n {
-            if c.get(i, j) != 0.0 {
-                sets.union(i, j);
-            }
+    // Pairs in the order of `c.w` (row by row of the upper triangle).
+    let pairs = (0..c.n).flat_map(|i| (i + 1..c.n).map(move |j| (i, j)));
+    for (&w, (i, j)) in c.w.iter().zip(pairs) {
+        if w != 0.0 {
+            sets.union(i, j);
         }
     }
     let mut groups: Vec<Vec<usize>> = Vec::new();

@@ -59,6 +59,14 @@ struct Walsh {
 }
 
 impl Walsh {
+    /// The weight of row `j`: `t` repeats with the length of the label rows, a
+    /// power of two, so `j` is taken modulo it by a mask.
+    #[inline]
+    fn row(&self, j: usize) -> f64 {
+        debug_assert!(self.t.len().is_power_of_two());
+        self.t[j & (self.t.len() - 1)]
+    }
+
     /// The largest row weight.
     fn top(&self) -> f64 {
         self.t.iter().fold(0.0f64, |a, b| a.max(b.abs()))
@@ -67,14 +75,12 @@ impl Walsh {
     /// Whether row `j` makes a pulse: rows of `t` below 1e-15 of the largest do not.
     fn keeps(&self) -> impl Fn(usize) -> bool + '_ {
         let top = self.top();
-        move |j| self.t[j % self.t.len()].abs() > 1e-15 * top
+        move |j| self.row(j).abs() > 1e-15 * top
     }
 
     /// The weights of the rows other than 0 that make a pulse.
     fn other_rows(&self) -> impl Iterator<Item = f64> + '_ {
-        self.kept()
-            .filter(|&j| j != 0)
-            .map(|j| self.t[j % self.t.len()])
+        self.kept().filter(|&j| j != 0).map(|j| self.row(j))
     }
 
     /// The rows that make a pulse, in row order.
@@ -93,13 +99,7 @@ impl Walsh {
     fn sums(&self) -> Vec<f64> {
         let keeps = self.keeps();
         let mut s: Vec<f64> = (0..self.m)
-            .map(|j| {
-                if keeps(j) {
-                    self.t[j % self.t.len()]
-                } else {
-                    0.0
-                }
-            })
+            .map(|j| if keeps(j) { self.row(j) } else { 0.0 })
             .collect();
         let mut h = 1;
         while h < s.len() {
@@ -124,21 +124,23 @@ impl Walsh {
     /// algorithm, common knowledge); so the lightest toggles most, and no other
     /// basis gives a cycle of fewer flips. Rows of weight zero (dropped by
     /// [`Self::kept`]) are skipped.
-    fn walk(&self) -> Vec<usize> {
+    fn walk(&self) -> impl Iterator<Item = usize> + '_ {
         let bits = self.m.trailing_zeros() as usize;
-        let flips = |v: usize| self.column.iter().filter(|&&c| odd(v as u32 & c)).count();
-        let mut rows: Vec<(usize, usize)> = (1..self.m).map(|v| (flips(v), v)).collect();
+        let flips = |v: usize| self.column.iter().filter(|&&c| odd(v as u32 & c)).count() as u32;
+        let mut rows: smallvec::SmallVec<[(u32, u32); 16]> =
+            (1..self.m).map(|v| (flips(v), v as u32)).collect();
         rows.sort_unstable();
-        // Reduced vectors by their highest bit, to test independence.
-        let mut reduced = vec![0usize; bits];
-        let mut basis: Vec<usize> = Vec::with_capacity(bits);
-        for (_, v) in rows {
+        // Reduced vectors by their highest bit, to test independence (rows have
+        // at most 32 bits: the labellings stop at 24 label bits).
+        let mut reduced = [0u32; 32];
+        let mut basis: smallvec::SmallVec<[usize; 8]> = smallvec::SmallVec::new();
+        for &(_, v) in &rows {
             let mut x = v;
             while x != 0 {
-                let top = usize::BITS as usize - 1 - x.leading_zeros() as usize;
+                let top = 31 - x.leading_zeros() as usize;
                 if reduced[top] == 0 {
                     reduced[top] = x;
-                    basis.push(v);
+                    basis.push(v as usize);
                     break;
                 }
                 x ^= reduced[top];
@@ -148,17 +150,15 @@ impl Walsh {
             }
         }
         let kept = self.keeps();
-        let mut order = Vec::with_capacity(self.m);
         let mut j = 0usize;
-        for i in 0..self.m {
-            if i > 0 {
-                j ^= basis[i.trailing_zeros() as usize];
-            }
-            if kept(j) {
-                order.push(j);
-            }
-        }
-        order
+        (0..self.m)
+            .map(move |i| {
+                if i > 0 {
+                    j ^= basis[i.trailing_zeros() as usize];
+                }
+                j
+            })
+            .filter(move |&j| kept(j))
     }
 
     /// Its pulses but row 0's (the shared one), in the order of [`Self::walk`],
@@ -166,14 +166,14 @@ impl Walsh {
     fn pulses(&self, n: usize, at: &dyn Fn(usize) -> usize, out: &mut Vec<Pulse>) {
         let places: Vec<usize> = self.ions.iter().map(|&u| at(u)).collect();
         out.reserve(self.m);
-        for j in self.walk().into_iter().filter(|&j| j != 0) {
+        for j in self.walk().filter(|&j| j != 0) {
             let mut signs = Signs::from_elem(1, n);
             for (&q, &col) in places.iter().zip(&self.column) {
                 signs[q] = parity_sign(j as u32 & col);
             }
             out.push(Pulse {
                 signs,
-                weight: self.t[j % self.t.len()],
+                weight: self.row(j),
             });
         }
     }
@@ -266,7 +266,7 @@ impl SignedPlan {
         }
         for w in &self.walsh {
             let mut now = 0usize;
-            for j in w.walk().into_iter().filter(|&j| j != 0) {
+            for j in w.walk().filter(|&j| j != 0) {
                 let change = (j ^ now) as u32;
                 flips.extend(
                     w.ions
@@ -276,7 +276,7 @@ impl SignedPlan {
                         .map(|(&u, _)| at(u)),
                 );
                 flips.sort_unstable();
-                step(&flips, Some(w.t[j % w.t.len()]));
+                step(&flips, Some(w.row(j)));
                 flips.clear();
                 now = j;
             }
@@ -324,9 +324,11 @@ impl SignedPlan {
                 group[u] = g;
             }
         }
-        let within = (0..c.n).all(|i| {
-            (i + 1..c.n)
-                .all(|j| c.get(i, j) == 0.0 || (group[i] == group[j] && group[i] != usize::MAX))
+        // Pairs in the order of `c.w` (row by row of the upper triangle).
+        let mut pairs = (0..c.n).flat_map(|i| (i + 1..c.n).map(move |j| (i, j)));
+        let within = c.w.iter().all(|&w| {
+            let (i, j) = pairs.next().expect("one pair per coupling");
+            w == 0.0 || (group[i] == group[j] && group[i] != usize::MAX)
         });
         within
             && self.walsh.iter().all(|w| {
@@ -899,7 +901,7 @@ mod tests {
                 t: (0..m).map(|j| 1.0 + j as f64).collect(),
                 m,
             };
-            let order = w.walk();
+            let order: Vec<usize> = w.walk().collect();
             let mut sorted = order.clone();
             sorted.sort_unstable();
             assert_eq!(sorted, (0..m).collect::<Vec<_>>(), "round {round}");

@@ -22,14 +22,14 @@ use super::schedule::Schedule;
 use super::Objective;
 use crate::circuit::{Condition, Mat2};
 use crate::compile::couple::{
-    components, floor_of_parts, hadamard_each, matching, order_pulses, pad_idle, side_by_side,
-    side_by_side_pulses, signed_classes, signed_labels, synthesize, Budget as SynthBudget,
-    Coupling, Floor, Method, Pulse, Synthesis,
+    by_parts, components, floor_of_parts, hadamard_each, join_parts, matching, order_pulses,
+    pad_idle, side_by_side, side_by_side_pulses, signed_classes, signed_labels, synthesize,
+    Budget as SynthBudget, Coupling, Floor, Method, Pulse, Synthesis,
 };
 use crate::compile::hadamard::{smallest_hadamard, smallest_order};
 use crate::compile::lower::zyz;
 use crate::compile::Target;
-use crate::native::budget::figures;
+use crate::native::budget::{figures, ranked, Ranked};
 use crate::native::profile::Profile;
 use crate::native::{NativeOp, Step};
 use rustc_hash::FxHashMap;
@@ -326,15 +326,17 @@ impl<'a> Emitter<'a> {
 
     /// The objective's figures of a list of operations (smaller is better).
     fn key(&self, ops: &[NativeOp]) -> Key {
-        self.key_of(&figures(ops, self.n(), self.profile))
+        let with_error = self.objective == Objective::Error;
+        self.key_of(ranked(ops, self.n(), self.profile, with_error))
     }
 
-    fn key_of(&self, b: &crate::native::budget::Budget) -> Key {
+    fn key_of(&self, b: impl Into<Ranked>) -> Key {
+        let b = b.into();
         match self.objective {
             Objective::Pulses => (b.ms_pulses as f64, b.ms_area),
             Objective::Area => (b.ms_area, b.ms_pulses as f64),
             Objective::Duration => (b.duration_us, b.ms_area),
-            Objective::Error => (b.est_error, b.duration_us),
+            Objective::Error => (b.est_error.expect("ranked with the error"), b.duration_us),
         }
     }
 
@@ -464,13 +466,21 @@ impl<'a> Emitter<'a> {
             partner[b as usize] = a;
             ok
         });
-        if let Some(m) = disjoint.then(|| matching(&device_of())).flatten() {
-            cheap.push(Candidate::built(
-                self,
-                Made::Pulses(m.pulses),
-                Method::Matching,
-                m.weight,
-            ));
+        if disjoint {
+            // m rows of a Hadamard matrix with a column per pair and per other ion
+            // (when the pairs' weights agree), each of weight |w|/m, all distinct:
+            // bounded before it is built, as it seldom wins. Its weight as
+            // `matching` reports it: that of the last pair in ion order.
+            let m = smallest_order(n - terms.len());
+            let last = terms.iter().max_by_key(|&&(a, b, _)| (a.min(b), a.max(b)));
+            let weight = last.map_or(0.0, |t| t.2.abs());
+            let device_of = &device_of;
+            cheap.push(Candidate {
+                lower: self.pulse_bound(m, 2.0 * weight, m - 1),
+                method: Method::Matching,
+                weight,
+                build: Box::new(move || matching(&device_of()).map(|s| Made::Pulses(s.pulses))),
+            });
         }
         // Fact 6 for each coupling: m pulses of weight |w|/m, m >= n - 1, the m rows
         // of a Hadamard matrix (distinct, so at least m - 1 flip layers).
@@ -833,10 +843,11 @@ impl<'a> Emitter<'a> {
     /// A block's pulses between the collective rotations that take Z to X and back:
     /// R(pi/2, pi/2) maps X to Z (Ry(-pi/2) X Ry(pi/2) = Z).
     fn sandwich(&self, chosen: Vec<NativeOp>) -> Vec<NativeOp> {
-        let mut ops = vec![NativeOp::Collective {
+        let mut ops = Vec::with_capacity(chosen.len() + 2);
+        ops.push(NativeOp::Collective {
             theta: FRAC_PI_2,
             phi: FRAC_PI_2,
-        }];
+        });
         ops.extend(chosen);
         ops.push(NativeOp::Collective {
             theta: -FRAC_PI_2,
@@ -852,7 +863,16 @@ impl<'a> Emitter<'a> {
             return Arc::clone(s);
         }
         let left = self.shared.solver_left();
-        let s = if c.n <= 2 || left.is_zero() {
+        let parts = components(c);
+        let s = if by_parts(c, parts.len(), left) {
+            // Each component through the cache (the components side by side over
+            // the device ask for them again), then joined as `synthesize` joins them.
+            let solved: Vec<(Vec<usize>, Synthesis)> = parts
+                .into_iter()
+                .map(|(ions, sub)| (ions, (*self.synthesis(&sub)).clone()))
+                .collect();
+            Arc::new(join_parts(c, &solved))
+        } else if c.n <= 2 || left.is_zero() {
             // Two ions need no solver; without solver time, the construction.
             let mut cheap = SynthBudget {
                 time_limit: std::time::Duration::ZERO,

@@ -33,16 +33,32 @@
 //! optimizer plans several per block and checks only those it may keep.
 
 use super::{Coupling, Method, Pulse, Signs, Synthesis, CERTIFICATE_EPS};
-use rustc_hash::{FxHashMap, FxHashSet};
 
 /// The labelling of a coupling's ions: columns, and each label with its weight.
 struct Labels {
     y: Vec<Option<u32>>,
-    /// Label -> the coupling weight of the pairs that XOR to it.
-    weight: FxHashMap<u32, f64>,
-    /// XORs of uncoupled pairs: never a label.
-    free: FxHashSet<u32>,
+    /// By value of the label bits (`2^bits` of them): the coupling weight of the
+    /// pairs that XOR to it, 0 where it is no label (a label's weight never is).
+    weight: Vec<f64>,
+    /// By value of the label bits: whether an uncoupled pair XORs to it (then it
+    /// is never a label).
+    free: Vec<bool>,
     bits: u32,
+}
+
+impl Labels {
+    /// The weight of label `z`, if it is one.
+    fn label(&self, z: u32) -> Option<f64> {
+        let w = self.weight[z as usize];
+        (w != 0.0).then_some(w)
+    }
+
+    /// One more label bit: the values double.
+    fn widen(&mut self) {
+        self.bits += 1;
+        self.weight.resize(1 << self.bits, 0.0);
+        self.free.resize(1 << self.bits, false);
+    }
 }
 
 /// A component of a coupling: its ions and the coupling among them.
@@ -378,13 +394,11 @@ fn labelled(c: &Coupling, parts: &[&Part], max_pulses: usize) -> Option<Walsh> {
     if let Some(w) = pairs_of_one_weight(parts) {
         return pairs_labelled(parts, w, max_pulses);
     }
-    let labels = label(c, parts, true).or_else(|| label(c, parts, false))?;
     let p_bits = usize::BITS - parts.len().leading_zeros();
-    let bits = labels.bits + p_bits;
-    if bits > 24 || 1usize << bits > max_pulses {
-        return None;
-    }
-    let m = 1usize << bits;
+    // The most label bits that leave at most `max_pulses` rows (and 24 bits).
+    let most = max_pulses.checked_ilog2()?.min(24).checked_sub(p_bits)?;
+    let labels = label(c, parts, true, most).or_else(|| label(c, parts, false, most))?;
+    let m = 1usize << (labels.bits + p_bits);
     let mut ions = Vec::new();
     let mut column = Vec::new();
     for (k, (members, _)) in parts.iter().enumerate() {
@@ -393,12 +407,10 @@ fn labelled(c: &Coupling, parts: &[&Part], max_pulses: usize) -> Option<Walsh> {
             column.push(((k as u32 + 1) << labels.bits) | labels.y[u]?);
         }
     }
-    let mut alphas: Vec<(u32, f64)> = labels
-        .weight
-        .iter()
-        .map(|(&x, &w)| (x, w / m as f64))
+    // In increasing order of the label.
+    let alphas: Vec<(u32, f64)> = (0..labels.weight.len() as u32)
+        .filter_map(|x| labels.label(x).map(|w| (x, w / m as f64)))
         .collect();
-    alphas.sort_by_key(|a| a.0);
     // The weights depend on the label bits of j alone: one sum per label row.
     let t: Vec<f64> = (0..1u32 << labels.bits)
         .map(|j| {
@@ -455,9 +467,9 @@ fn pairs_labelled(parts: &[&Part], w: f64, max_pulses: usize) -> Option<Walsh> {
 /// [`signed_labels`].
 pub fn signed_classes(c: &Coupling, parts: &[Part], max_pulses: usize) -> Option<SignedPlan> {
     // Each class: its weights (as bits) and its components.
-    let mut classes: Vec<(Vec<u64>, Vec<&Part>)> = Vec::new();
+    let mut classes: Vec<(smallvec::SmallVec<[u64; 4]>, Vec<&Part>)> = Vec::new();
     for part in parts {
-        let mut key: Vec<u64> = part
+        let mut key: smallvec::SmallVec<[u64; 4]> = part
             .1
             .w
             .iter()
@@ -488,19 +500,23 @@ pub fn signed_classes(c: &Coupling, parts: &[Part], max_pulses: usize) -> Option
 /// lets couplings of equal weight share a label, and new labels take unused values
 /// before a new bit, where nothing collides. Without it every coupling of a
 /// component's spanning tree takes a bit of its own, which always succeeds: each
-/// pair's XOR is then the tree path between them.
-fn label(c: &Coupling, parts: &[&Part], share: bool) -> Option<Labels> {
+/// pair's XOR is then the tree path between them. `None` when that takes more
+/// than `most` label bits (sharing never takes more bits than not sharing: each
+/// ion placed adds at most one).
+fn label(c: &Coupling, parts: &[&Part], share: bool, most: u32) -> Option<Labels> {
     let mut l = Labels {
         y: vec![None; c.n],
-        weight: FxHashMap::default(),
-        free: FxHashSet::default(),
+        weight: Vec::with_capacity(1 << most.min(10)),
+        free: Vec::with_capacity(1 << most.min(10)),
         bits: 0,
     };
-    // Labels by weight (bits), each list ascending: the labels a coupling may share.
-    let mut by_weight: FxHashMap<u64, Vec<u32>> = FxHashMap::default();
-    let mut new: Vec<(u32, f64)> = Vec::new();
+    l.weight.push(0.0);
+    l.free.push(false);
+    let mut new: Vec<(u32, f64)> = Vec::with_capacity(c.n);
+    let mut placed: Vec<usize> = Vec::with_capacity(c.n);
     for &(ions, _) in parts {
-        let mut placed: Vec<usize> = vec![ions[0]];
+        placed.clear();
+        placed.push(ions[0]);
         l.y[ions[0]] = Some(0);
         let mut head = 0;
         while head < placed.len() {
@@ -518,27 +534,29 @@ fn label(c: &Coupling, parts: &[&Part], share: bool) -> Option<Labels> {
                 // them).
                 let mut done = false;
                 if share {
-                    let shared = by_weight.get(&w.to_bits()).map_or(&[][..], Vec::as_slice);
+                    // The labels of this weight, in increasing order.
+                    let shared = (1..1u32 << l.bits)
+                        .filter(|&x| l.weight[x as usize].to_bits() == w.to_bits());
                     let unused = (1..1u32 << l.bits)
-                        .filter(|x| !l.weight.contains_key(x) && !l.free.contains(x));
-                    for x in shared.iter().copied().chain(unused) {
+                        .filter(|&x| l.label(x).is_none() && !l.free[x as usize]);
+                    for x in shared.chain(unused) {
                         if fits(c, &l, &placed, u, yv ^ x, &mut new) {
                             done = true;
-                            commit(&mut l, &mut by_weight, u, yv ^ x, &mut new);
+                            commit(&mut l, u, yv ^ x, &mut new);
                             break;
                         }
                     }
                 }
                 if !done {
-                    if l.bits >= 24 {
+                    if l.bits >= most {
                         return None;
                     }
                     let x = 1u32 << l.bits;
-                    l.bits += 1;
+                    l.widen();
                     if !fits(c, &l, &placed, u, yv ^ x, &mut new) {
                         return None;
                     }
-                    commit(&mut l, &mut by_weight, u, yv ^ x, &mut new);
+                    commit(&mut l, u, yv ^ x, &mut new);
                 }
                 placed.push(u);
             }
@@ -566,40 +584,29 @@ fn fits(
         let z = y ^ yv;
         let w = c.get(u, v);
         let have = l
-            .weight
-            .get(&z)
-            .copied()
+            .label(z)
             .or_else(|| new.iter().find(|n| n.0 == z && n.1 != 0.0).map(|n| n.1));
         match (w == 0.0, have) {
             (true, None) => new.push((z, 0.0)),
             (true, Some(_)) => return false,
             (false, Some(h)) if h == w => {}
             (false, Some(_)) => return false,
-            (false, None) if z == 0 || l.free.contains(&z) => return false,
+            (false, None) if z == 0 || l.free[z as usize] => return false,
             (false, None) => new.push((z, w)),
         }
     }
     // A free XOR must not be (or become) a label.
-    let labels_now =
-        |z: u32| l.weight.contains_key(&z) || new.iter().any(|n| n.0 == z && n.1 != 0.0);
+    let labels_now = |z: u32| l.label(z).is_some() || new.iter().any(|n| n.0 == z && n.1 != 0.0);
     !new.iter().any(|n| n.1 == 0.0 && labels_now(n.0))
 }
 
-fn commit(
-    l: &mut Labels,
-    by_weight: &mut FxHashMap<u64, Vec<u32>>,
-    u: usize,
-    y: u32,
-    new: &mut Vec<(u32, f64)>,
-) {
+fn commit(l: &mut Labels, u: usize, y: u32, new: &mut Vec<(u32, f64)>) {
     l.y[u] = Some(y);
     for (z, w) in new.drain(..) {
         if w == 0.0 {
-            l.free.insert(z);
-        } else if l.weight.insert(z, w).is_none() {
-            let same = by_weight.entry(w.to_bits()).or_default();
-            let at = same.partition_point(|&x| x < z);
-            same.insert(at, z);
+            l.free[z as usize] = true;
+        } else {
+            l.weight[z as usize] = w;
         }
     }
 }
@@ -1027,7 +1034,7 @@ mod tests {
                 let pairs: Vec<&Part> = parts.iter().filter(|p| p.0.len() > 1).collect();
                 let fast = labelled(&c, &pairs, 1 << 10).expect("pairs are labelled");
                 assert!(pairs_of_one_weight(&pairs).is_some());
-                let labels = label(&c, &pairs, true).expect("the search labels pairs");
+                let labels = label(&c, &pairs, true, 24).expect("the search labels pairs");
                 let p_bits = usize::BITS - pairs.len().leading_zeros();
                 assert_eq!(fast.m, 1 << (labels.bits + p_bits), "k = {k}");
                 for (ion, col) in fast.ions.iter().zip(&fast.column) {

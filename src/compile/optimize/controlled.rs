@@ -47,10 +47,7 @@ pub fn axis_angle(u: &crate::circuit::Mat2) -> (f64, f64, f64, f64) {
 /// Rewrites unconditioned `cy`, `ch`, `crx`, `cry` and `cu3` (the others pass).
 pub fn rewrite(instrs: Vec<Instr>) -> Vec<Instr> {
     use GateKind::*;
-    super::expand_gates(instrs, |g, q, out| {
-        if !matches!(g.kind, Cy | Ch | Crx | Cry | Cu3) {
-            return false;
-        }
+    super::expand_gates(instrs, &[Cy, Ch, Crx, Cry, Cu3], |g, q, out| {
         let (_, u) = g.controlled().expect("a singly controlled gate");
         let (c, t) = (q[0], q[1]);
         let (alpha, theta, beta, phi) = axis_angle(&u);

@@ -256,16 +256,21 @@ pub(crate) fn gate(kind: crate::circuit::GateKind, params: &[f64], qs: &[u32]) -
     }
 }
 
-/// A pass that expands single gates: `expand` sees each unconditioned gate with its
-/// qubits and either pushes its replacement and returns true, or returns false to
-/// keep it; everything else passes unchanged.
+/// A pass that expands single gates: `expand` sees each unconditioned gate of one
+/// of the `kinds` with its qubits and either pushes its replacement and returns
+/// true, or returns false to keep it; everything else passes unchanged.
 pub(crate) fn expand_gates(
     instrs: Vec<Instr>,
+    kinds: &[crate::circuit::GateKind],
     mut expand: impl FnMut(&crate::circuit::Gate, &[u32], &mut Vec<Instr>) -> bool,
 ) -> Vec<Instr> {
     let mut out = Vec::with_capacity(instrs.len());
     for instr in instrs {
         if let (Op::Gate { gate, qubits }, None) = (&instr.op, &instr.condition) {
+            if !kinds.contains(&gate.kind) {
+                out.push(instr);
+                continue;
+            }
             let q: smallvec::SmallVec<[u32; 5]> = qubits.iter().map(|q| q.0).collect();
             if expand(gate, &q, &mut out) {
                 continue;

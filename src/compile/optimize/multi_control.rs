@@ -112,7 +112,8 @@ pub fn controlled_z(qs: &[u32], out: &mut Vec<Instr>) {
 /// Rewrites unconditioned `ccx`, `c3x`, `c4x` and `cswap` gates (the others, and
 /// anything conditioned, pass unchanged).
 pub fn rewrite(instrs: Vec<Instr>) -> Vec<Instr> {
-    super::expand_gates(instrs, |g, q, out| {
+    use GateKind::*;
+    super::expand_gates(instrs, &[Ccx, C3x, C4x, Cswap], |g, q, out| {
         match g.kind {
             GateKind::Ccx | GateKind::C3x | GateKind::C4x => {
                 let t = *q.last().expect("a controlled gate has a target");

@@ -491,11 +491,14 @@ pub const ORDER_WINDOW: usize = 32;
 /// alone), each sorted, with the coupling among its ions.
 pub fn components(c: &Coupling) -> Vec<(Vec<usize>, Coupling)> {
     let mut sets = petgraph::unionfind::UnionFind::<usize>::new(c.n);
-    // Pairs in the order of `c.w` (row by row of the upper triangle).
-    let pairs = (0..c.n).flat_map(|i| (i + 1..c.n).map(move |j| (i, j)));
-    for (&w, (i, j)) in c.w.iter().zip(pairs) {
-        if w != 0.0 {
-            sets.union(i, j);
+    let mut p = 0;
+    for i in 0..c.n {
+        for j in i + 1..c.n {
+            // `c.w` row by row: the pair (i, j).
+            if c.w[p] != 0.0 {
+                sets.union(i, j);
+            }
+            p += 1;
         }
     }
     let mut groups: Vec<Vec<usize>> = Vec::new();

@@ -340,36 +340,39 @@ impl SignedPlan {
                 group[u] = g;
             }
         }
-        // Pairs in the order of `c.w` (row by row of the upper triangle).
-        let mut pairs = (0..c.n).flat_map(|i| (i + 1..c.n).map(move |j| (i, j)));
-        let within = c.w.iter().all(|&w| {
-            let (i, j) = pairs.next().expect("one pair per coupling");
-            w == 0.0 || (group[i] == group[j] && group[i] != usize::MAX)
-        });
-        within
-            && self.walsh.iter().all(|w| {
-                if w.column.len() != w.ions.len() || w.column.iter().any(|&x| x as usize >= w.m) {
+        let mut p = 0;
+        for i in 0..c.n {
+            for j in i + 1..c.n {
+                // `c.w` row by row: the pair (i, j).
+                if c.w[p] != 0.0 && (group[i] != group[j] || group[i] == usize::MAX) {
                     return false;
                 }
-                let pairs = || {
-                    w.ions
-                        .iter()
-                        .zip(&w.column)
-                        .enumerate()
-                        .flat_map(move |(a, (&i, &x))| {
-                            w.ions[a + 1..]
-                                .iter()
-                                .zip(&w.column[a + 1..])
-                                .map(move |(&j, &y)| (c.get(i, j), x ^ y))
-                        })
-                };
-                let largest = pairs().fold(0.0f64, |m, (want, _)| m.max(want.abs()));
-                let tol = CERTIFICATE_EPS * largest.max(1.0);
-                let sums = w.sums();
-                sums[0].abs() <= tol
-                    && w.column.iter().all(|&x| sums[x as usize].abs() <= tol)
-                    && pairs().all(|(want, x)| (sums[x as usize] - want).abs() <= tol)
-            })
+                p += 1;
+            }
+        }
+        self.walsh.iter().all(|w| {
+            if w.column.len() != w.ions.len() || w.column.iter().any(|&x| x as usize >= w.m) {
+                return false;
+            }
+            // Each pair of its ions: the coupling wanted, and the XOR of their
+            // columns.
+            let k = w.ions.len();
+            let mut pairs: Vec<(f64, u32)> = Vec::with_capacity(k * k.saturating_sub(1) / 2);
+            for a in 0..k {
+                for b in a + 1..k {
+                    let want = c.get(w.ions[a], w.ions[b]);
+                    pairs.push((want, w.column[a] ^ w.column[b]));
+                }
+            }
+            let largest = pairs.iter().fold(0.0f64, |m, &(want, _)| m.max(want.abs()));
+            let tol = CERTIFICATE_EPS * largest.max(1.0);
+            let sums = w.sums();
+            sums[0].abs() <= tol
+                && w.column.iter().all(|&x| sums[x as usize].abs() <= tol)
+                && pairs
+                    .iter()
+                    .all(|&(want, x)| (sums[x as usize] - want).abs() <= tol)
+        })
     }
 }
 

@@ -245,7 +245,17 @@ impl<'a> Emitter<'a> {
                 let (part, report) = self.block(block, &mut carry, quiet);
                 match (&part, &mut without) {
                     (Part::Quiet(q), w) => {
-                        let w = w.get_or_insert_with(|| (ops.clone(), reports.clone()));
+                        // Until now every part is operations, the same as planned.
+                        let w = w.get_or_insert_with(|| {
+                            let mut made: Vec<NativeOp> = Vec::new();
+                            for p in &parts {
+                                if let Part::Ops(v) = p {
+                                    made.extend_from_slice(v);
+                                }
+                            }
+                            made.extend_from_slice(&ops);
+                            (made, reports.clone())
+                        });
                         w.0.extend_from_slice(&q.plain);
                         w.1.extend(q.plain_report.clone());
                     }
@@ -257,11 +267,12 @@ impl<'a> Emitter<'a> {
                 }
                 let at = reports.len();
                 reports.extend(report);
+                // Parts are joined once, at their full length, in `resolve_quiet`.
+                parts.push(Part::Ops(std::mem::take(&mut ops)));
                 match part {
-                    Part::Ops(v) => ops.extend(v),
+                    Part::Ops(v) => parts.push(Part::Ops(v)),
                     Part::Quiet(mut q) => {
                         q.report = at;
-                        parts.push(Part::Ops(std::mem::take(&mut ops)));
                         parts.push(Part::Quiet(q));
                     }
                 }

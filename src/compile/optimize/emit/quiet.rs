@@ -102,8 +102,8 @@ pub(super) enum QuietSigns<'a> {
 ///
 /// Ions marked in `drop_z` are measured right after the segment: the light shifts
 /// that undo Z on them are left out like the segment's other final Z rotations.
-pub(super) fn resolve_quiet(
-    parts: &[Part],
+pub(super) fn resolve_quiet<'a>(
+    parts: &'a [Part],
     quiet: &[bool],
     how: QuietSigns,
     drop_z: &[bool],
@@ -122,13 +122,13 @@ pub(super) fn resolve_quiet(
         .map(|q| q.weight())
         .sum();
     let Some(last_quiet) = (0..parts.len()).rev().find(|&k| shared(k).is_some()) else {
-        return parts
-            .iter()
-            .flat_map(|p| match p {
-                Part::Ops(v) => v.iter().copied(),
-                Part::Quiet(q) => q.plain.iter().copied(),
-            })
-            .collect();
+        let plain = |p: &'a Part| match p {
+            Part::Ops(v) => v.as_slice(),
+            Part::Quiet(q) => q.plain.as_slice(),
+        };
+        let mut out = Vec::with_capacity(parts.iter().map(|p| plain(p).len()).sum());
+        parts.iter().for_each(|p| out.extend_from_slice(plain(p)));
+        return out;
     };
     let quiet_ions: Vec<usize> = (0..quiet.len()).filter(|&i| quiet[i]).collect();
     let split = !folded && quiet_ions.len() > 1;

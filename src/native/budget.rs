@@ -46,7 +46,7 @@ pub struct Budget {
 }
 
 /// What `op` costs by the table `t` (durations or errors) of the profile.
-#[inline]
+#[inline(always)]
 fn cost_of(t: &PerOp, op: &NativeOp) -> f64 {
     let opt = |c: Option<Cost>, theta: f64| c.map_or(0.0, |c| c.at(theta));
     match *op {
@@ -356,7 +356,7 @@ impl Clock {
     }
 
     /// Marks `ion` in the open layer; false if it was there already.
-    #[inline]
+    #[inline(always)]
     fn mark(&mut self, ion: u32) -> bool {
         let (w, bit) = (ion as usize / 64, 1u64 << (ion % 64));
         if w >= self.in_layer.len() {
@@ -381,7 +381,7 @@ impl Clock {
     }
 
     /// Places `op`, taking `dt` microseconds; returns its slot.
-    #[inline]
+    #[inline(always)]
     fn place(&mut self, op: &NativeOp, dt: f64) -> Slot {
         let layered = match *op {
             NativeOp::LightShift { ion, .. } if self.parallel_light_shifts => Some((false, ion)),

@@ -556,9 +556,12 @@ pub fn side_by_side(n: usize, parts: &[(Vec<usize>, Synthesis)]) -> Synthesis {
         }
         for row in h.iter() {
             let mut signs = Signs::from_elem(1, n);
+            let out: &mut [i8] = &mut signs;
             for (k, (ions, _)) in parts.iter().enumerate() {
-                for (x, &ion) in ions.iter().enumerate() {
-                    signs[ion] = row[k] * plan.steps[k][at[k]].1[x];
+                let own: &[i8] = &plan.steps[k][at[k]].1;
+                debug_assert_eq!(own.len(), ions.len());
+                for (&ion, &s) in ions.iter().zip(own) {
+                    out[ion] = row[k] * s;
                 }
             }
             pulses.push(Pulse {

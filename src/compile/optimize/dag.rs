@@ -18,6 +18,12 @@ pub const ZERO: f64 = 1e-13;
 /// One segment's canonical operations (no measurement, reset or condition).
 pub struct Dag {
     pub graph: StableDiGraph<Canon, u32>,
+    /// Nodes removed so far, and how many had been when [`fuse_locals`] last
+    /// finished: if none since, no local is next to another or the identity (it
+    /// fused them all, and only a removal can bring two together again), so it
+    /// has nothing to do.
+    removed: u64,
+    fused_at: Option<u64>,
 }
 
 impl Dag {
@@ -41,7 +47,11 @@ impl Dag {
                 }
             }
         }
-        Dag { graph }
+        Dag {
+            graph,
+            removed: 0,
+            fused_at: None,
+        }
     }
 
     /// The operations in a topological order (by node index).
@@ -75,6 +85,7 @@ impl Dag {
             }
         }
         self.graph.remove_node(node);
+        self.removed += 1;
     }
 }
 
@@ -111,6 +122,9 @@ pub fn is_identity(m: &Mat2) -> bool {
 /// Pass: each run of single-qubit unitaries on a wire becomes one, and a product
 /// that is the identity (up to phase) disappears.
 pub fn fuse_locals(dag: &mut Dag) {
+    if dag.fused_at == Some(dag.removed) {
+        return;
+    }
     let mut idx: Vec<NodeIndex> = dag.graph.node_indices().collect();
     idx.sort_unstable();
     for node in idx {
@@ -129,6 +143,7 @@ pub fn fuse_locals(dag: &mut Dag) {
             _ => {}
         }
     }
+    dag.fused_at = Some(dag.removed);
 }
 
 /// Pass: ZZ interactions of angle zero (mod 2 pi, a global phase) disappear, and one

@@ -1137,9 +1137,10 @@ fn pulse_ops(pulses: Vec<Pulse>) -> Vec<NativeOp> {
     let mut frame = vec![1i8; n];
     let mut ops = Vec::with_capacity(2 * pulses.len());
     for p in pulses {
-        let flips = (0..n).filter(|&i| frame[i] != p.signs[i]);
+        let signs: &[i8] = &p.signs;
+        let flips = (0..n).filter(|&i| frame[i] != signs[i]);
         flip_then_pulse(&mut ops, flips, Some(p.weight));
-        frame.copy_from_slice(&p.signs);
+        frame.copy_from_slice(signs);
     }
     let back = (0..n).filter(|&i| frame[i] < 0);
     flip_then_pulse(&mut ops, back, None);

@@ -501,15 +501,23 @@ pub fn components(c: &Coupling) -> Vec<(Vec<usize>, Coupling)> {
             p += 1;
         }
     }
-    let mut groups: Vec<Vec<usize>> = Vec::new();
+    // Each ion's group, numbered by first ion; then the groups at their sizes.
     let mut index = vec![usize::MAX; c.n];
-    for i in 0..c.n {
-        let r = sets.find(i);
-        if index[r] == usize::MAX {
-            index[r] = groups.len();
-            groups.push(Vec::new());
-        }
-        groups[index[r]].push(i);
+    let mut sizes: Vec<usize> = Vec::new();
+    let group: Vec<usize> = (0..c.n)
+        .map(|i| {
+            let r = sets.find(i);
+            if index[r] == usize::MAX {
+                index[r] = sizes.len();
+                sizes.push(0);
+            }
+            sizes[index[r]] += 1;
+            index[r]
+        })
+        .collect();
+    let mut groups: Vec<Vec<usize>> = sizes.iter().map(|&k| Vec::with_capacity(k)).collect();
+    for (i, &g) in group.iter().enumerate() {
+        groups[g].push(i);
     }
     groups
         .into_iter()

@@ -402,8 +402,9 @@ fn labelled(c: &Coupling, parts: &[&Part], max_pulses: usize) -> Option<Walsh> {
     let most = max_pulses.checked_ilog2()?.min(24).checked_sub(p_bits)?;
     let labels = label(c, parts, true, most).or_else(|| label(c, parts, false, most))?;
     let m = 1usize << (labels.bits + p_bits);
-    let mut ions = Vec::new();
-    let mut column = Vec::new();
+    let count = parts.iter().map(|p| p.0.len()).sum();
+    let mut ions = Vec::with_capacity(count);
+    let mut column = Vec::with_capacity(count);
     for (k, (members, _)) in parts.iter().enumerate() {
         for &u in members {
             ions.push(u);

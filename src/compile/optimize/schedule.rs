@@ -38,6 +38,10 @@ const IDENTITY: Mat2 = [
     [C64::new(0.0, 0.0), C64::new(1.0, 0.0)],
 ];
 
+/// The room a new layer or block starts with (a handful of operations each, the
+/// usual case, without growing).
+const ROOM: usize = 8;
+
 /// Schedules the `Local` and `Zz` operations of one segment on `n` qubits.
 pub fn schedule(ops: &[Canon], n: usize) -> Schedule {
     let mut pending = vec![IDENTITY; n];
@@ -50,7 +54,7 @@ pub fn schedule(ops: &[Canon], n: usize) -> Schedule {
     let mut blocks: Vec<Vec<(u32, u32, f64)>> = Vec::new();
     let place = |layers: &mut Vec<Vec<(u32, Mat2)>>, q: usize, m: Mat2, at: usize| {
         while layers.len() <= at {
-            layers.push(Vec::new());
+            layers.push(Vec::with_capacity(ROOM));
         }
         match layers[at].iter_mut().find(|(p, _)| *p as usize == q) {
             Some((_, old)) => *old = mul(&m, old),
@@ -102,7 +106,7 @@ pub fn schedule(ops: &[Canon], n: usize) -> Schedule {
                     }
                 }
                 while blocks.len() <= k {
-                    blocks.push(Vec::new());
+                    blocks.push(Vec::with_capacity(ROOM));
                 }
                 let (x, y) = if a < b { (a, b) } else { (b, a) };
                 blocks[k].push((x, y, w));

@@ -268,7 +268,9 @@ impl<'a> Emitter<'a> {
                 let at = reports.len();
                 reports.extend(report);
                 // Parts are joined once, at their full length, in `resolve_quiet`.
-                parts.push(Part::Ops(std::mem::take(&mut ops)));
+                // (`ops` keeps its room for the next layer.)
+                parts.push(Part::Ops(ops.to_vec()));
+                ops.clear();
                 match part {
                     Part::Ops(v) => parts.push(Part::Ops(v)),
                     Part::Quiet(mut q) => {
@@ -357,8 +359,8 @@ impl<'a> Emitter<'a> {
         carry: &mut FxHashMap<u32, f64>,
         ops: &mut Vec<NativeOp>,
     ) {
-        let mut ys: Vec<(u32, f64)> = Vec::new();
-        let mut after: Vec<(u32, f64)> = Vec::new();
+        let mut ys: Vec<(u32, f64)> = Vec::with_capacity(layer.len());
+        let mut after: Vec<(u32, f64)> = Vec::with_capacity(layer.len());
         for &(q, m) in layer {
             let c = carry.remove(&q).unwrap_or(0.0);
             // U Rz(c): Rz(c) first, then U.
@@ -375,10 +377,11 @@ impl<'a> Emitter<'a> {
             // One collective sandwich for the whole layer (gate-set fact 4), or, where
             // the target and device allow, addressed rotations: whichever the
             // objective prefers under the budget model.
-            let mut sandwich = vec![NativeOp::Collective {
+            let mut sandwich = Vec::with_capacity(ys.len() + 2);
+            sandwich.push(NativeOp::Collective {
                 theta: FRAC_PI_2,
                 phi: 0.0,
-            }];
+            });
             for &(q, g) in &ys {
                 push_shift(&mut sandwich, q, g);
             }

@@ -30,30 +30,35 @@ pub fn peephole_passes(mut ops: Vec<NativeOp>, n: u32) -> (Vec<NativeOp>, usize)
 
 /// Adjacent collective rotations become one rotation after a frame change:
 /// `M = Rz(b) Ry(g) Rz(d) = R(g, b + pi/2) Rz(b + d)` (up to phase).
-pub(super) fn merge_collective(ops: Vec<NativeOp>) -> Vec<NativeOp> {
-    let mut out: Vec<NativeOp> = Vec::with_capacity(ops.len());
-    let mut run: Option<Mat2> = None;
-    let flush = |out: &mut Vec<NativeOp>, m: Mat2| {
+pub(super) fn merge_collective(mut ops: Vec<NativeOp>) -> Vec<NativeOp> {
+    // Rewritten in place: a run of rotations becomes at most two operations, so the
+    // write cursor `w` never passes the read cursor.
+    let mut w = 0;
+    let flush = |ops: &mut Vec<NativeOp>, w: &mut usize, m: Mat2| {
         let (_, b, g, d) = zyz(&m);
         let z = wrap(b + d);
         if z.abs() > EPS {
-            out.push(NativeOp::VirtualZ { theta: z });
+            ops[*w] = NativeOp::VirtualZ { theta: z };
+            *w += 1;
         }
         if g.abs() > EPS {
-            out.push(NativeOp::Collective {
+            ops[*w] = NativeOp::Collective {
                 theta: g,
                 phi: wrap(b + FRAC_PI_2),
-            });
+            };
+            *w += 1;
         }
     };
+    let mut run: Option<Mat2> = None;
     let mut count = 0;
     let mut first = None;
-    for op in ops {
+    for r in 0..ops.len() {
+        let op = ops[r];
         if let NativeOp::Collective { theta, phi } = op {
-            let r = crate::native::rotation(theta, phi);
+            let rot = crate::native::rotation(theta, phi);
             run = Some(match run {
-                Some(m) => crate::compile::optimize::dag::mul(&r, &m),
-                None => r,
+                Some(m) => crate::compile::optimize::dag::mul(&rot, &m),
+                None => rot,
             });
             count += 1;
             first = Some(op);
@@ -61,22 +66,26 @@ pub(super) fn merge_collective(ops: Vec<NativeOp>) -> Vec<NativeOp> {
         }
         if let Some(m) = run.take() {
             if count == 1 {
-                out.push(first.expect("one rotation"));
+                ops[w] = first.expect("one rotation");
+                w += 1;
             } else {
-                flush(&mut out, m);
+                flush(&mut ops, &mut w, m);
             }
             count = 0;
         }
-        out.push(op);
+        ops[w] = op;
+        w += 1;
     }
     if let Some(m) = run {
         if count == 1 {
-            out.push(first.expect("one rotation"));
+            ops[w] = first.expect("one rotation");
+            w += 1;
         } else {
-            flush(&mut out, m);
+            flush(&mut ops, &mut w, m);
         }
     }
-    out
+    ops.truncate(w);
+    ops
 }
 
 /// Each run of light shifts and frame changes (they commute) becomes the frame
@@ -90,9 +99,11 @@ pub(super) fn rephase_z_runs(ops: Vec<NativeOp>, n: u32) -> (Vec<NativeOp>, bool
 
 /// [`rephase_z_runs`], with runs that [`keeps_its_frame`] copied without the
 /// rewrite's work when `shortcut` (its tests compare both).
-fn rephase(ops: Vec<NativeOp>, n: u32, shortcut: bool) -> (Vec<NativeOp>, bool) {
+fn rephase(mut ops: Vec<NativeOp>, n: u32, shortcut: bool) -> (Vec<NativeOp>, bool) {
     let n = n as usize;
-    let mut out = Vec::with_capacity(ops.len());
+    // Rewritten in place: a run is rewritten only to as many operations or fewer,
+    // so the write cursor `w` never passes the run being read.
+    let mut w = 0;
     let mut hidden = 0usize;
     let mut angle = vec![0.0f64; n];
     let mut seen = vec![false; n];
@@ -110,7 +121,8 @@ fn rephase(ops: Vec<NativeOp>, n: u32, shortcut: bool) -> (Vec<NativeOp>, bool) 
                 NativeOp::Unhide { .. } => hidden = hidden.saturating_sub(1),
                 _ => {}
             }
-            out.push(ops[i]);
+            ops[w] = ops[i];
+            w += 1;
             i += 1;
             continue;
         }
@@ -120,7 +132,8 @@ fn rephase(ops: Vec<NativeOp>, n: u32, shortcut: bool) -> (Vec<NativeOp>, bool) 
         }
         let run = &ops[start..i];
         if run.len() == 1 || (shortcut && keeps_its_frame(run, n)) {
-            out.extend_from_slice(run);
+            ops.copy_within(start..i, w);
+            w += i - start;
             continue;
         }
         let mut frame = 0.0;
@@ -188,12 +201,15 @@ fn rephase(ops: Vec<NativeOp>, n: u32, shortcut: bool) -> (Vec<NativeOp>, bool) 
         }
         if rewritten.len() <= run.len() {
             emptied |= rewritten.is_empty();
-            out.extend_from_slice(&rewritten);
+            ops[w..w + rewritten.len()].copy_from_slice(&rewritten);
+            w += rewritten.len();
         } else {
-            out.extend_from_slice(run);
+            ops.copy_within(start..i, w);
+            w += i - start;
         }
     }
-    (out, emptied)
+    ops.truncate(w);
+    (ops, emptied)
 }
 
 /// Whether the rewrite leaves `run` as it is, seen without the rewrite's work: light

@@ -105,17 +105,25 @@ impl Walsh {
         (0..self.m).filter(move |&j| keeps(j))
     }
 
-    /// What its pulses sum to, by the XOR of two columns: `sums[x] = sum_j T_j
+    /// What its pulses sum to, by the XOR of two columns: `sums(x) = sum_j T_j
     /// H[j][x]` over its rows (`T_j` the weight of row `j`, 0 for a row that makes
     /// no pulse). Since `H[j][a] H[j][b] = H[j][a ^ b]`, ions with columns `a`, `b`
-    /// are coupled by `sums[a ^ b]`, an ion and a spectator (column 0) by
-    /// `sums[a]`, and two spectators by `sums[0]`. One fast Walsh-Hadamard
-    /// transform of the weights (`m log m` additions) gives them all, where a sum
-    /// over the pulses for each pair of ions would take `m` per pair.
-    fn sums(&self) -> Vec<f64> {
+    /// are coupled by `sums(a ^ b)`, an ion and a spectator (column 0) by
+    /// `sums(a)`, and two spectators by `sums(0)`. One fast Walsh-Hadamard
+    /// transform of the weights gives them all, where a sum over the pulses for
+    /// each pair of ions would take `m` per pair. The weights repeat with the
+    /// period `L = t.len()` (row `j` weighs `t[j mod L]`, and whether it makes a
+    /// pulse depends on that weight alone), so the transform of all `m` rows is
+    /// that of one period times `m / L` below `L`, and 0 from `L` on: the stages
+    /// that span more than a period add and subtract equal copies, which is exact
+    /// in floating point too (as is scaling by a power of two). So one transform
+    /// of the `L` weights (`L log L` additions) gives every sum.
+    fn sums(&self) -> impl Fn(u32) -> f64 {
         let keeps = self.keeps();
-        let mut s: Vec<f64> = (0..self.m)
-            .map(|j| if keeps(j) { self.row(j) } else { 0.0 })
+        let period = self.t.len();
+        debug_assert!(self.m % period == 0);
+        let mut s: Vec<f64> = (0..period)
+            .map(|j| if keeps(j) { self.t[j] } else { 0.0 })
             .collect();
         let mut h = 1;
         while h < s.len() {
@@ -127,7 +135,8 @@ impl Walsh {
             }
             h *= 2;
         }
-        s
+        let scale = (self.m / period) as f64;
+        move |x| s.get(x as usize).map_or(0.0, |v| v * scale)
     }
 
     /// Its rows in the order that flips few ions between pulses: a Gray code over a
@@ -367,11 +376,9 @@ impl SignedPlan {
             let largest = pairs.iter().fold(0.0f64, |m, &(want, _)| m.max(want.abs()));
             let tol = CERTIFICATE_EPS * largest.max(1.0);
             let sums = w.sums();
-            sums[0].abs() <= tol
-                && w.column.iter().all(|&x| sums[x as usize].abs() <= tol)
-                && pairs
-                    .iter()
-                    .all(|&(want, x)| (sums[x as usize] - want).abs() <= tol)
+            sums(0).abs() <= tol
+                && w.column.iter().all(|&x| sums(x).abs() <= tol)
+                && pairs.iter().all(|&(want, x)| (sums(x) - want).abs() <= tol)
         })
     }
 }

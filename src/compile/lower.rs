@@ -123,8 +123,10 @@ impl Out<'_> {
     /// diag(1,1,1,e^{i l}) = exp(i l/4 (1 - Z_a - Z_b + Z_a Z_b)).
     fn cphase(&mut self, a: u32, b: u32, l: f64) {
         self.zz(a, b, -l / 2.0);
-        self.rz(a, l / 2.0);
-        self.rz(b, l / 2.0);
+        // One matrix for both (the same rotation).
+        let half = g(GateKind::Rz, &[l / 2.0]);
+        self.local(a, half);
+        self.local(b, half);
     }
     fn cx(&mut self, c: u32, t: u32) {
         let h = g(GateKind::H, &[]);

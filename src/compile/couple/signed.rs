@@ -94,17 +94,6 @@ impl Walsh {
         move |j| self.row(j).abs() > 1e-15 * top
     }
 
-    /// The weights of the rows other than 0 that make a pulse.
-    fn other_rows(&self) -> impl Iterator<Item = f64> + '_ {
-        self.kept().filter(|&j| j != 0).map(|j| self.row(j))
-    }
-
-    /// The rows that make a pulse, in row order.
-    fn kept(&self) -> impl Iterator<Item = usize> + '_ {
-        let keeps = self.keeps();
-        (0..self.m).filter(move |&j| keeps(j))
-    }
-
     /// What its pulses sum to, by the XOR of two columns: `sums(x) = sum_j T_j
     /// H[j][x]` over its rows (`T_j` the weight of row `j`, 0 for a row that makes
     /// no pulse). Since `H[j][a] H[j][b] = H[j][a ^ b]`, ions with columns `a`, `b`
@@ -148,7 +137,7 @@ impl Walsh {
     /// weights each at most those of any other basis (the matroid greedy
     /// algorithm, common knowledge); so the lightest toggles most, and no other
     /// basis gives a cycle of fewer flips. Rows of weight zero (dropped by
-    /// [`Self::kept`]) are skipped.
+    /// [`Self::keeps`]) are skipped.
     fn walk(&self) -> impl Iterator<Item = usize> + '_ {
         let bits = self.m.trailing_zeros() as usize;
         let flips = |v: usize| self.column.iter().filter(|&&c| odd(v as u32 & c)).count() as u32;
@@ -247,10 +236,16 @@ impl SignedPlan {
     pub fn size(&self) -> (usize, f64) {
         let (mut count, mut weight) = (0, 0.0);
         for w in &self.walsh {
+            // Every row but 0 that makes a pulse (see `keeps`), with the largest
+            // weight found once.
+            let top = w.top();
             let mut own = 0.0;
-            for t in w.other_rows() {
-                count += 1;
-                own += t.abs();
+            for j in 1..w.m {
+                let t = w.row(j);
+                if t.abs() > 1e-15 * top {
+                    count += 1;
+                    own += t.abs();
+                }
             }
             weight += own;
         }

@@ -264,6 +264,15 @@ pub(crate) fn expand_gates(
     kinds: &[crate::circuit::GateKind],
     mut expand: impl FnMut(&crate::circuit::Gate, &[u32], &mut Vec<Instr>) -> bool,
 ) -> Vec<Instr> {
+    let wanted = |instr: &Instr| match (&instr.op, &instr.condition) {
+        (Op::Gate { gate, .. }, None) => kinds.contains(&gate.kind),
+        _ => false,
+    };
+    // Nothing to expand (the usual case for most of these passes): the list as it
+    // is, without moving every instruction into a new one.
+    if !instrs.iter().any(wanted) {
+        return instrs;
+    }
     let mut out = Vec::with_capacity(instrs.len());
     for instr in instrs {
         if let (Op::Gate { gate, qubits }, None) = (&instr.op, &instr.condition) {

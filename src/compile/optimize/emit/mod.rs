@@ -568,7 +568,8 @@ impl<'a> Emitter<'a> {
                         }
                         // As `pulse_ops` would play `plan.pulses_on(n, ..)` in
                         // their order, without a sign vector per pulse.
-                        let mut ops = Vec::with_capacity(4 * count);
+                        // (Room for the collective rotations around the block too.)
+                        let mut ops = Vec::with_capacity(4 * count + 2);
                         plan.play(&|u| active_idx[u], |flips, weight| {
                             flip_then_pulse(&mut ops, flips.iter().copied(), weight)
                         });
@@ -856,13 +857,16 @@ impl<'a> Emitter<'a> {
 
     /// A block's pulses between the collective rotations that take Z to X and back:
     /// R(pi/2, pi/2) maps X to Z (Ry(-pi/2) X Ry(pi/2) = Z).
-    fn sandwich(&self, chosen: Vec<NativeOp>) -> Vec<NativeOp> {
-        let mut ops = Vec::with_capacity(chosen.len() + 2);
-        ops.push(NativeOp::Collective {
-            theta: FRAC_PI_2,
-            phi: FRAC_PI_2,
-        });
-        ops.extend(chosen);
+    fn sandwich(&self, mut ops: Vec<NativeOp>) -> Vec<NativeOp> {
+        // In place: one move of the operations within their own buffer.
+        ops.reserve(2);
+        ops.insert(
+            0,
+            NativeOp::Collective {
+                theta: FRAC_PI_2,
+                phi: FRAC_PI_2,
+            },
+        );
         ops.push(NativeOp::Collective {
             theta: -FRAC_PI_2,
             phi: FRAC_PI_2,

@@ -140,12 +140,13 @@ impl Walsh {
     /// [`Self::keeps`]) are skipped.
     fn walk(&self) -> impl Iterator<Item = usize> + '_ {
         let bits = self.m.trailing_zeros() as usize;
+        debug_assert!(bits <= 32, "{bits} row bits");
         let flips = |v: usize| self.column.iter().filter(|&&c| odd(v as u32 & c)).count() as u32;
         let mut rows: smallvec::SmallVec<[(u32, u32); 16]> =
             (1..self.m).map(|v| (flips(v), v as u32)).collect();
         rows.sort_unstable();
-        // Reduced vectors by their highest bit, to test independence (rows have
-        // at most 32 bits: the labellings stop at 24 label bits).
+        // Reduced vectors by their highest bit, to test independence (rows fit 32
+        // bits: plans stop at `max_pulses` rows, 1024 in the optimizer).
         let mut reduced = [0u32; 32];
         let mut basis: smallvec::SmallVec<[usize; 8]> = smallvec::SmallVec::new();
         for &(_, v) in &rows {

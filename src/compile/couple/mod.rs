@@ -85,6 +85,21 @@ impl Coupling {
         self.w[p] = v;
     }
 
+    /// Whether `f(i, j, w_ij)` holds for every pair `i < j`, asked in the order of
+    /// `w` (row by row of the upper triangle) until one does not.
+    pub fn all_pairs(&self, mut f: impl FnMut(usize, usize, f64) -> bool) -> bool {
+        let mut p = 0;
+        for i in 0..self.n {
+            for j in i + 1..self.n {
+                if !f(i, j, self.w[p]) {
+                    return false;
+                }
+                p += 1;
+            }
+        }
+        true
+    }
+
     /// The largest coupling in absolute value.
     pub fn max_abs(&self) -> f64 {
         self.w.iter().fold(0.0f64, |m, x| m.max(x.abs()))
@@ -172,11 +187,12 @@ impl Synthesis {
             self.pulses[k].weight * signs[(i, k)]
         });
         let made = weighted * signs.transpose();
-        (0..n)
-            .flat_map(|i| (i + 1..n).map(move |j| (i, j)))
-            .fold(0.0f64, |m, (i, j)| {
-                m.max((made[(i, j)] - c.get(i, j)).abs())
-            })
+        let mut worst = 0.0f64;
+        c.all_pairs(|i, j, w| {
+            worst = worst.max((made[(i, j)] - w).abs());
+            true
+        });
+        worst
     }
 
     /// True when the certificate holds: weights non-negative, couplings matched.
@@ -491,16 +507,12 @@ pub const ORDER_WINDOW: usize = 32;
 /// alone), each sorted, with the coupling among its ions.
 pub fn components(c: &Coupling) -> Vec<(Vec<usize>, Coupling)> {
     let mut sets = petgraph::unionfind::UnionFind::<usize>::new(c.n);
-    let mut p = 0;
-    for i in 0..c.n {
-        for j in i + 1..c.n {
-            // `c.w` row by row: the pair (i, j).
-            if c.w[p] != 0.0 {
-                sets.union(i, j);
-            }
-            p += 1;
+    c.all_pairs(|i, j, w| {
+        if w != 0.0 {
+            sets.union(i, j);
         }
-    }
+        true
+    });
     // Each ion's group, numbered by first ion; then the groups at their sizes.
     let mut index = vec![usize::MAX; c.n];
     let mut sizes: Vec<usize> = Vec::new();
@@ -652,6 +664,70 @@ fn finish(pulses: Vec<Pulse>, lower_bound: f64, method: Method) -> Synthesis {
 mod tests {
     use super::lp::{all_signs, price_exact, unpair};
     use super::*;
+    use rand::{Rng, SeedableRng};
+
+    /// What the optimizer does for a coupling of several components (each
+    /// component's synthesis, cached there, then `join_parts` when `by_parts` says
+    /// so) makes the same pulses as `synthesize` itself, on random couplings of two
+    /// or three components of 2 to 4 ions; and `by_parts` refuses one component, a
+    /// layer of disjoint pairs, and no time.
+    #[test]
+    fn joining_cached_components_is_what_synthesize_makes() {
+        let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(0x9a27);
+        let budget = Budget::default();
+        let mut joined = 0;
+        for round in 0..40 {
+            let sizes: Vec<usize> = (0..rng.gen_range(2..=3))
+                .map(|_| rng.gen_range(2..=4))
+                .collect();
+            let n: usize = sizes.iter().sum();
+            let mut c = Coupling::zero(n);
+            let mut first = 0;
+            for &k in &sizes {
+                for i in first..first + k - 1 {
+                    c.set(i, i + 1, rng.gen_range(-0.7..0.7));
+                }
+                if k > 2 && rng.gen_bool(0.5) {
+                    c.set(first, first + k - 1, rng.gen_range(-0.7..0.7));
+                }
+                first += k;
+            }
+            let parts = components(&c);
+            assert_eq!(parts.len(), sizes.len(), "round {round}");
+            let whole = synthesize(&c, budget);
+            if !by_parts(&c, parts.len(), budget.time_limit) {
+                // Disjoint pairs only: the matching layers, not the components.
+                assert!(matching_layers(&c).is_some(), "round {round}");
+                continue;
+            }
+            let solved: Vec<(Vec<usize>, Synthesis)> = parts
+                .into_iter()
+                .map(|(ions, sub)| (ions, synthesize(&sub, budget)))
+                .collect();
+            let made = join_parts(&c, &solved);
+            assert_eq!(made.pulses, whole.pulses, "round {round}");
+            assert!(made.certifies(&c), "round {round}");
+            joined += 1;
+        }
+        assert!(joined > 20, "{joined} joined");
+        let mut one = Coupling::zero(3);
+        one.set(0, 1, 0.2);
+        one.set(1, 2, 0.3);
+        assert!(!by_parts(&one, components(&one).len(), budget.time_limit));
+        let mut pairs = Coupling::zero(4);
+        pairs.set(0, 1, 0.2);
+        pairs.set(2, 3, 0.3);
+        assert!(!by_parts(&pairs, 2, budget.time_limit));
+        let mut two = pairs.clone();
+        two.set(0, 2, 0.1);
+        let mut three = Coupling::zero(5);
+        three.set(0, 1, 0.2);
+        three.set(1, 2, 0.3);
+        three.set(3, 4, 0.1);
+        assert!(by_parts(&three, 2, budget.time_limit));
+        assert!(!by_parts(&three, 2, Duration::ZERO));
+        assert!(!by_parts(&two, components(&two).len(), budget.time_limit));
+    }
 
     #[test]
     fn pair_indices_cover_the_triangle() {

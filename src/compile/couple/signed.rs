@@ -83,6 +83,16 @@ impl Walsh {
         self.t[j & (self.t.len() - 1)]
     }
 
+    /// Its ions that change sign between rows `j` and `j ^ x`: those whose column
+    /// has odd overlap with `x`.
+    fn flipped(&self, x: u32) -> impl Iterator<Item = usize> + '_ {
+        self.ions
+            .iter()
+            .zip(&self.column)
+            .filter(move |&(_, &c)| odd(x & c))
+            .map(|(&u, _)| u)
+    }
+
     /// The largest row weight.
     fn top(&self) -> f64 {
         self.t.iter().fold(0.0f64, |a, b| a.max(b.abs()))
@@ -141,7 +151,7 @@ impl Walsh {
     fn walk(&self) -> impl Iterator<Item = usize> + '_ {
         let bits = self.m.trailing_zeros() as usize;
         debug_assert!(bits <= 32, "{bits} row bits");
-        let flips = |v: usize| self.column.iter().filter(|&&c| odd(v as u32 & c)).count() as u32;
+        let flips = |v: usize| self.flipped(v as u32).count() as u32;
         let mut rows: smallvec::SmallVec<[(u32, u32); 16]> =
             (1..self.m).map(|v| (flips(v), v as u32)).collect();
         rows.sort_unstable();
@@ -237,16 +247,12 @@ impl SignedPlan {
     pub fn size(&self) -> (usize, f64) {
         let (mut count, mut weight) = (0, 0.0);
         for w in &self.walsh {
-            // Every row but 0 that makes a pulse (see `keeps`), with the largest
-            // weight found once.
-            let top = w.top();
+            // Every row but 0 that makes a pulse.
+            let keeps = w.keeps();
             let mut own = 0.0;
-            for j in 1..w.m {
-                let t = w.row(j);
-                if t.abs() > 1e-15 * top {
-                    count += 1;
-                    own += t.abs();
-                }
+            for j in (1..w.m).filter(|&j| keeps(j)) {
+                count += 1;
+                own += w.row(j).abs();
             }
             weight += own;
         }
@@ -288,27 +294,14 @@ impl SignedPlan {
         for w in &self.walsh {
             let mut now = 0usize;
             for j in w.walk().filter(|&j| j != 0) {
-                let change = (j ^ now) as u32;
-                flips.extend(
-                    w.ions
-                        .iter()
-                        .zip(&w.column)
-                        .filter(|&(_, &c)| odd(change & c))
-                        .map(|(&u, _)| at(u)),
-                );
+                flips.extend(w.flipped((j ^ now) as u32).map(at));
                 flips.sort_unstable();
                 step(&flips, Some(w.row(j)));
                 flips.clear();
                 now = j;
             }
             // Back to +1, played with what comes next.
-            flips.extend(
-                w.ions
-                    .iter()
-                    .zip(&w.column)
-                    .filter(|&(_, &c)| odd(now as u32 & c))
-                    .map(|(&u, _)| at(u)),
-            );
+            flips.extend(w.flipped(now as u32).map(at));
         }
         flips.sort_unstable();
         step(&flips, None);
@@ -345,37 +338,30 @@ impl SignedPlan {
                 group[u] = g;
             }
         }
-        let mut p = 0;
-        for i in 0..c.n {
-            for j in i + 1..c.n {
-                // `c.w` row by row: the pair (i, j).
-                if c.w[p] != 0.0 && (group[i] != group[j] || group[i] == usize::MAX) {
+        let within =
+            c.all_pairs(|i, j, w| w == 0.0 || (group[i] == group[j] && group[i] != usize::MAX));
+        within
+            && self.walsh.iter().all(|w| {
+                if w.column.len() != w.ions.len() || w.column.iter().any(|&x| x as usize >= w.m) {
                     return false;
                 }
-                p += 1;
-            }
-        }
-        self.walsh.iter().all(|w| {
-            if w.column.len() != w.ions.len() || w.column.iter().any(|&x| x as usize >= w.m) {
-                return false;
-            }
-            // Each pair of its ions: the coupling wanted, and the XOR of their
-            // columns.
-            let k = w.ions.len();
-            let mut pairs: Vec<(f64, u32)> = Vec::with_capacity(k * k.saturating_sub(1) / 2);
-            for a in 0..k {
-                for b in a + 1..k {
-                    let want = c.get(w.ions[a], w.ions[b]);
-                    pairs.push((want, w.column[a] ^ w.column[b]));
+                // Each pair of its ions: the coupling wanted, and the XOR of their
+                // columns.
+                let k = w.ions.len();
+                let mut pairs: Vec<(f64, u32)> = Vec::with_capacity(k * k.saturating_sub(1) / 2);
+                for a in 0..k {
+                    for b in a + 1..k {
+                        let want = c.get(w.ions[a], w.ions[b]);
+                        pairs.push((want, w.column[a] ^ w.column[b]));
+                    }
                 }
-            }
-            let largest = pairs.iter().fold(0.0f64, |m, &(want, _)| m.max(want.abs()));
-            let tol = CERTIFICATE_EPS * largest.max(1.0);
-            let sums = w.sums();
-            sums(0).abs() <= tol
-                && w.column.iter().all(|&x| sums(x).abs() <= tol)
-                && pairs.iter().all(|&(want, x)| (sums(x) - want).abs() <= tol)
-        })
+                let largest = pairs.iter().fold(0.0f64, |m, &(want, _)| m.max(want.abs()));
+                let tol = CERTIFICATE_EPS * largest.max(1.0);
+                let sums = w.sums();
+                sums(0).abs() <= tol
+                    && w.column.iter().all(|&x| sums(x).abs() <= tol)
+                    && pairs.iter().all(|&(want, x)| (sums(x) - want).abs() <= tol)
+            })
     }
 }
 

@@ -58,6 +58,5 @@ pub fn rewrite(instrs: Vec<Instr>) -> Vec<Instr> {
         out.push(gate(Rz, &[theta / 2.0], &[t]));
         out.push(gate(Ry, &[beta], &[t]));
         out.push(gate(Rz, &[phi], &[t]));
-        true
     })
 }

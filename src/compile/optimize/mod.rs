@@ -257,12 +257,12 @@ pub(crate) fn gate(kind: crate::circuit::GateKind, params: &[f64], qs: &[u32]) -
 }
 
 /// A pass that expands single gates: `expand` sees each unconditioned gate of one
-/// of the `kinds` with its qubits and either pushes its replacement and returns
-/// true, or returns false to keep it; everything else passes unchanged.
+/// of the `kinds` with its qubits and pushes its replacement; everything else
+/// passes unchanged.
 pub(crate) fn expand_gates(
     instrs: Vec<Instr>,
     kinds: &[crate::circuit::GateKind],
-    mut expand: impl FnMut(&crate::circuit::Gate, &[u32], &mut Vec<Instr>) -> bool,
+    mut expand: impl FnMut(&crate::circuit::Gate, &[u32], &mut Vec<Instr>),
 ) -> Vec<Instr> {
     let wanted = |instr: &Instr| match (&instr.op, &instr.condition) {
         (Op::Gate { gate, .. }, None) => kinds.contains(&gate.kind),
@@ -275,17 +275,13 @@ pub(crate) fn expand_gates(
     }
     let mut out = Vec::with_capacity(instrs.len());
     for instr in instrs {
-        if let (Op::Gate { gate, qubits }, None) = (&instr.op, &instr.condition) {
-            if !kinds.contains(&gate.kind) {
-                out.push(instr);
-                continue;
+        match &instr.op {
+            Op::Gate { gate, qubits } if wanted(&instr) => {
+                let q: smallvec::SmallVec<[u32; 5]> = qubits.iter().map(|q| q.0).collect();
+                expand(gate, &q, &mut out);
             }
-            let q: smallvec::SmallVec<[u32; 5]> = qubits.iter().map(|q| q.0).collect();
-            if expand(gate, &q, &mut out) {
-                continue;
-            }
+            _ => out.push(instr),
         }
-        out.push(instr);
     }
     out
 }

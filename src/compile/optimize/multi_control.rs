@@ -114,23 +114,18 @@ pub fn controlled_z(qs: &[u32], out: &mut Vec<Instr>) {
 pub fn rewrite(instrs: Vec<Instr>) -> Vec<Instr> {
     use GateKind::*;
     super::expand_gates(instrs, &[Ccx, C3x, C4x, Cswap], |g, q, out| {
-        match g.kind {
-            GateKind::Ccx | GateKind::C3x | GateKind::C4x => {
-                let t = *q.last().expect("a controlled gate has a target");
-                out.push(gate(GateKind::H, &[], &[t]));
-                controlled_z(q, out);
-                out.push(gate(GateKind::H, &[], &[t]));
-            }
-            GateKind::Cswap => {
-                // Fredkin = CNOT(c, b) Toffoli(a, b, c) CNOT(c, b) (common practice).
-                out.push(gate(GateKind::Cx, &[], &[q[2], q[1]]));
-                out.push(gate(GateKind::H, &[], &[q[2]]));
-                controlled_z(q, out);
-                out.push(gate(GateKind::H, &[], &[q[2]]));
-                out.push(gate(GateKind::Cx, &[], &[q[2], q[1]]));
-            }
-            _ => return false,
+        if g.kind == Cswap {
+            // Fredkin = CNOT(c, b) Toffoli(a, b, c) CNOT(c, b) (common practice).
+            out.push(gate(Cx, &[], &[q[2], q[1]]));
+            out.push(gate(H, &[], &[q[2]]));
+            controlled_z(q, out);
+            out.push(gate(H, &[], &[q[2]]));
+            out.push(gate(Cx, &[], &[q[2], q[1]]));
+        } else {
+            let t = *q.last().expect("a controlled gate has a target");
+            out.push(gate(H, &[], &[t]));
+            controlled_z(q, out);
+            out.push(gate(H, &[], &[t]));
         }
-        true
     })
 }

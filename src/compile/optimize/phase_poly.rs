@@ -143,9 +143,8 @@ impl Region {
         match gate.kind {
             Cx => {
                 let pc = self.parity(q[0]);
-                let pt = self.parity(q[1]);
                 let t = self.bit_of(q[1]);
-                self.inputs[t].1 = pc ^ pt;
+                self.inputs[t].1 ^= pc;
                 self.cx.push((q[0], q[1]));
                 self.two_qubit += 1;
             }

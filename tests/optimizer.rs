@@ -96,6 +96,7 @@ fn every_pass_keeps_the_unitary() {
             .collect();
         assert_same(&c, &canon_circuit(n, &canon), &format!("{name}: lower"));
         let mut dag = Dag::new(canon);
+        assert_same(&c, &canon_circuit(n, &dag.ops()), &format!("{name}: build"));
         for (pass_name, pass) in PASSES {
             pass(&mut dag);
             assert_same(

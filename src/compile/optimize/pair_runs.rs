@@ -263,17 +263,18 @@ struct Run {
 /// Pass: each run of interactions on one pair, with only that pair's single-qubit
 /// gates between them, is replaced by its canonical form when that spends less.
 pub fn pair_runs(dag: &mut Dag) {
-    let ops = dag.ops();
-    let n = ops
+    let nodes = dag.nodes();
+    let op = |k: usize| dag.graph[nodes[k]];
+    let n = nodes
         .iter()
-        .flat_map(super::dag::qubits)
+        .flat_map(|&x| super::dag::qubits(&dag.graph[x]))
         .max()
         .map_or(0, |m| m as usize + 1);
     // Runs, each a list threaded through `next` (no list of its own: most runs
     // hold one interaction and are never resynthesised); each qubit's open run.
     // Every run is looked at once it can grow no more, in the order it began.
     let mut runs: Vec<Run> = Vec::new();
-    let mut next = vec![usize::MAX; ops.len()];
+    let mut next = vec![usize::MAX; nodes.len()];
     let mut open: Vec<Option<usize>> = vec![None; n];
     let mut push = |run: &mut Run, k: usize, zz: bool| {
         next[run.tail] = k;
@@ -283,8 +284,8 @@ pub fn pair_runs(dag: &mut Dag) {
             run.zzs += 1;
         }
     };
-    for (k, op) in ops.iter().enumerate() {
-        match *op {
+    for k in 0..nodes.len() {
+        match op(k) {
             Canon::Local { q, .. } => {
                 if let Some(r) = open[q as usize] {
                     push(&mut runs[r], k, false);
@@ -318,36 +319,25 @@ pub fn pair_runs(dag: &mut Dag) {
             _ => unreachable!("segments hold gates only"),
         }
     }
-    let mut replaced: Vec<Option<Vec<Canon>>> = vec![None; ops.len()];
-    let mut dropped = vec![false; ops.len()];
     // A run of one interaction has nothing to resynthesise (`resynthesise` says
     // so too); the others up to their last interaction (the single-qubit gates
-    // after it stay where they are).
+    // after it stay where they are). Runs share no node: replacing one leaves
+    // the others' nodes as they were.
+    let mut replaced = Vec::new();
     for run in runs.iter().filter(|run| run.zzs >= 2) {
         let mut idx = vec![run.first];
         while *idx.last().expect("a first") != run.last_zz {
             idx.push(next[*idx.last().expect("a first")]);
         }
-        let body: Vec<Canon> = idx.iter().map(|&k| ops[k]).collect();
+        let body: Vec<Canon> = idx.iter().map(|&k| op(k)).collect();
         if let Some(new) = resynthesise(&body, run.a, run.b) {
-            for &k in idx.iter() {
-                dropped[k] = true;
-            }
-            replaced[run.last_zz] = Some(new);
+            replaced.push((idx, new));
         }
     }
-    if replaced.iter().all(Option::is_none) {
-        return;
+    for (idx, new) in replaced {
+        let run: Vec<_> = idx.into_iter().map(|k| nodes[k]).collect();
+        dag.replace(&run, &new);
     }
-    let mut out = Vec::with_capacity(ops.len());
-    for (k, op) in ops.into_iter().enumerate() {
-        if let Some(new) = replaced[k].take() {
-            out.extend(new);
-        } else if !dropped[k] {
-            out.push(op);
-        }
-    }
-    *dag = Dag::new(out);
 }
 
 #[cfg(test)]

@@ -37,7 +37,7 @@ pub struct Dag {
 impl Dag {
     /// Builds the DAG of `ops` (each a `Local` or `Zz`), with each run of
     /// single-qubit unitaries on a wire already one node: what [`fuse_locals`]
-    /// makes of it (see [`fused`]), without making the nodes it would remove.
+    /// makes of it, without making the nodes it would remove.
     pub fn new(ops: impl IntoIterator<Item = Canon>) -> Dag {
         let ops = fused(ops);
         Dag::build(ops.len(), ops.into_iter().flatten(), Some(0))

@@ -80,10 +80,15 @@ impl Dag {
     /// (in slots of any index) are sorted apart and merged in.
     pub fn nodes(&self) -> Vec<NodeIndex> {
         let place = |i: &NodeIndex| self.place[i.index()];
-        let (built, mut put): (Vec<NodeIndex>, Vec<NodeIndex>) = self
-            .graph
-            .node_indices()
-            .partition(|i| place(i) % ROOM == 0);
+        let mut built = Vec::with_capacity(self.graph.node_count());
+        let mut put = Vec::new();
+        for i in self.graph.node_indices() {
+            if place(&i) % ROOM == 0 {
+                built.push(i);
+            } else {
+                put.push(i);
+            }
+        }
         if put.is_empty() {
             return built;
         }

@@ -43,6 +43,9 @@ pub fn prefix_levels(n: usize) -> Vec<Vec<(usize, usize)>> {
     levels
 }
 
+/// The fewest CNOTs of a ladder whose network has fewer levels than it has gates.
+const SHORTEST_GAIN: usize = 4;
+
 /// The unconditioned CNOT `(control, target)` of an instruction, if it is one.
 fn as_cx(instr: &Instr) -> Option<(u32, u32)> {
     match &instr.op {
@@ -70,8 +73,8 @@ impl Ladder {
         self.path.contains(&q)
     }
 
-    /// Takes the CNOT if it continues the ladder.
-    fn extend(&mut self, c: u32, t: u32, instr: &Instr) -> bool {
+    /// Takes the CNOT if it continues the ladder, else hands it back.
+    fn extend(&mut self, c: u32, t: u32, instr: Instr) -> Result<(), Instr> {
         let ok = match self.path.len() {
             0 => {
                 self.path = vec![c, t];
@@ -97,13 +100,22 @@ impl Ladder {
             }
             _ => false,
         };
-        if ok {
-            self.gates.push(instr.clone());
+        if !ok {
+            return Err(instr);
         }
-        ok
+        self.gates.push(instr);
+        Ok(())
     }
 
     fn flush(&mut self, out: &mut Vec<Instr>) {
+        // Up to three CNOTs the network has as many levels as the ladder has
+        // gates (tested with `prefix_levels`): the ladder stays.
+        if self.gates.len() < SHORTEST_GAIN {
+            out.append(&mut self.gates);
+            self.path.clear();
+            self.backward = false;
+            return;
+        }
         let ladder = std::mem::take(self);
         let levels = prefix_levels(ladder.path.len());
         if levels.len() >= ladder.gates.len() {
@@ -130,12 +142,11 @@ pub fn rewrite(instrs: Vec<Instr>) -> Vec<Instr> {
     let mut ladder = Ladder::default();
     for instr in instrs {
         if let Some((c, t)) = as_cx(&instr) {
-            if ladder.extend(c, t, &instr) {
-                continue;
+            if let Err(instr) = ladder.extend(c, t, instr) {
+                ladder.flush(&mut out);
+                let started = ladder.extend(c, t, instr);
+                debug_assert!(started.is_ok());
             }
-            ladder.flush(&mut out);
-            let started = ladder.extend(c, t, &instr);
-            debug_assert!(started);
             continue;
         }
         let touches = instr.op.qubits().iter().any(|q| ladder.holds(q.0));
@@ -175,6 +186,14 @@ mod tests {
             }
             let log = (usize::BITS - (n.max(1) - 1).leading_zeros()) as usize;
             assert!(levels.len() <= 2 * log, "n={n}: {} levels", levels.len());
+            // What `flush` takes for granted without building the levels.
+            let gates = n.saturating_sub(1);
+            assert_eq!(
+                levels.len() < gates,
+                gates >= SHORTEST_GAIN,
+                "n={n}: {} levels for {gates} gates",
+                levels.len()
+            );
         }
     }
 }

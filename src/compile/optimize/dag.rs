@@ -75,6 +75,24 @@ impl Dag {
         }
     }
 
+    /// Rebuilds the graph from its operations in order when it holds a
+    /// replacement's nodes, so that every node is a built one again and a run may
+    /// end anywhere (see [`Dag::replace`]). Fusion's state carries over: the
+    /// operations are the same.
+    pub fn settle(&mut self) {
+        if self
+            .graph
+            .node_indices()
+            .all(|i| self.place[i.index()] % ROOM == 0)
+        {
+            return;
+        }
+        let ops = self.ops();
+        let (removed, fused_at) = (self.removed, self.fused_at);
+        *self = Dag::build(ops.len(), ops.into_iter(), fused_at);
+        self.removed = removed;
+    }
+
     /// The live nodes in a topological order (by place). Built nodes come in
     /// order of index, which is their order of place; the few replacements' nodes
     /// (in slots of any index) are sorted apart and merged in.
@@ -120,7 +138,8 @@ impl Dag {
             return;
         };
         let at = self.place[last.index()];
-        // Built nodes only: two replacements after one node would share places.
+        // Built nodes only: two replacements after one node would share places
+        // ([`Dag::settle`] makes every node a built one).
         assert!(
             at % ROOM == 0 && (new.len() as u64) < ROOM,
             "a replacement after a replacement, or too long"

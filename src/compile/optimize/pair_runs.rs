@@ -263,6 +263,8 @@ struct Run {
 /// Pass: each run of interactions on one pair, with only that pair's single-qubit
 /// gates between them, is replaced by its canonical form when that spends less.
 pub fn pair_runs(dag: &mut Dag) {
+    // Runs are replaced where their last node stands: a built node.
+    dag.settle();
     let nodes = dag.nodes();
     let op = |k: usize| dag.graph[nodes[k]];
     let n = nodes

@@ -411,24 +411,10 @@ unsafe fn order_pulses_popcnt(pulses: Vec<Pulse>) -> Vec<Pulse> {
 #[inline(always)]
 fn order_pulses_any(pulses: Vec<Pulse>) -> Vec<Pulse> {
     let n = pulses.first().map_or(0, |p| p.signs.len());
-    let words = n.div_ceil(64).max(1);
-    // Sign vectors as bit sets (bit set = -1), one row of `words` per pulse, so a
-    // distance is a few popcounts; `-s` is the complement within the n bits.
-    let mut bits = vec![0u64; pulses.len() * words];
-    for (row, p) in bits.chunks_mut(words).zip(&pulses) {
-        for (word, signs) in row.iter_mut().zip(p.signs.chunks(64)) {
-            *word = signs
-                .iter()
-                .enumerate()
-                .fold(0u64, |w, (i, &s)| w | (u64::from(s < 0) << i));
-        }
-    }
-    let all: Vec<u64> = (0..words)
-        .map(|w| match n - 64 * w {
-            r if r >= 64 => u64::MAX,
-            r => (1u64 << r) - 1,
-        })
-        .collect();
+    // As bit sets, a distance is a few popcounts; `-s` is the complement within
+    // the n bits.
+    let (bits, words) = packed(&pulses);
+    let all: Vec<u64> = (0..words).map(|w| word_mask(n, w)).collect();
     // One word per pulse (up to 64 ions, the usual case) is the same loop with the
     // word count known when compiling.
     let order = if words == 1 {
@@ -437,6 +423,74 @@ fn order_pulses_any(pulses: Vec<Pulse>) -> Vec<Pulse> {
         greedy_order::<0>(&bits, words, &all, n)
     };
     placed(pulses, order)
+}
+
+/// The pulses' sign vectors as bit sets (bit set = -1), one row of `words` words per
+/// pulse (at least one), and `words`.
+fn packed(pulses: &[Pulse]) -> (Vec<u64>, usize) {
+    let n = pulses.first().map_or(0, |p| p.signs.len());
+    let words = n.div_ceil(64).max(1);
+    let mut bits = vec![0u64; pulses.len() * words];
+    for (row, p) in bits.chunks_mut(words).zip(pulses) {
+        for (word, signs) in row.iter_mut().zip(p.signs.chunks(64)) {
+            *word = sign_bits(signs);
+        }
+    }
+    (bits, words)
+}
+
+/// Bit `i` set where `signs[i] < 0`, for up to 64 signs: eight at a time, each
+/// byte's sign bit gathered by one multiplication (bit `7 + 8k` of the masked word
+/// lands on bit `56 + k`; the other products fall below bit 56 without carrying
+/// into it, or above bit 63), then the rest one by one.
+fn sign_bits(signs: &[i8]) -> u64 {
+    debug_assert!(signs.len() <= 64);
+    let mut word = 0u64;
+    let mut eights = signs.chunks_exact(8);
+    for (k, chunk) in eights.by_ref().enumerate() {
+        let bytes: [u8; 8] = std::array::from_fn(|i| chunk[i] as u8);
+        let high = u64::from_le_bytes(bytes) & 0x8080_8080_8080_8080;
+        word |= (high.wrapping_mul(0x0002_0408_1020_4081) >> 56) << (8 * k);
+    }
+    let done = signs.len() - eights.remainder().len();
+    for (i, &s) in eights.remainder().iter().enumerate() {
+        word |= u64::from(s < 0) << (done + i);
+    }
+    word
+}
+
+/// The bits of word `w` that hold ions of `n`.
+fn word_mask(n: usize, w: usize) -> u64 {
+    match n.saturating_sub(64 * w) {
+        r if r >= 64 => u64::MAX,
+        r => (1u64 << r) - 1,
+    }
+}
+
+/// How many distinct sign vectors the pulses have, a vector and its negation
+/// counted once (they make the same MS pulse, and [`order_pulses`] takes either).
+/// However they are ordered, a change from one to another flips at least one ion.
+pub fn distinct_up_to_sign(pulses: &[Pulse]) -> usize {
+    let (mut bits, words) = packed(pulses);
+    let n = pulses.first().map_or(0, |p| p.signs.len());
+    // Each vector with its first ion at +1 (its negation, where that ion is -1).
+    for row in bits.chunks_mut(words) {
+        if row[0] & 1 == 1 {
+            for (w, word) in row.iter_mut().enumerate() {
+                *word = !*word & word_mask(n, w);
+            }
+        }
+    }
+    if words == 1 {
+        // Up to 64 ions (the usual case): plain words sort faster than slices.
+        bits.sort_unstable();
+        bits.dedup();
+        return bits.len();
+    }
+    let mut rows: Vec<&[u64]> = bits.chunks(words).collect();
+    rows.sort_unstable();
+    rows.dedup();
+    rows.len()
 }
 
 /// The order of [`order_pulses`] on sign vectors packed `words` to a row (`W`, when
@@ -665,6 +719,65 @@ mod tests {
     use super::lp::{all_signs, price_exact, unpair};
     use super::*;
     use rand::{Rng, SeedableRng};
+
+    /// The packed signs are the signs: for 0 to 64 random signs (of runs of equal
+    /// and of alternating signs too), `sign_bits` sets bit `i` exactly where sign
+    /// `i` is -1, as a plain loop says.
+    #[test]
+    fn sign_bits_are_the_negative_signs() {
+        let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(0x5b17);
+        for round in 0..2000 {
+            let len = round % 65;
+            let signs: Vec<i8> = (0..len)
+                .map(|i| match round % 4 {
+                    0 => -1,
+                    1 => 1 - 2 * (i % 2) as i8,
+                    _ => [1, -1][rng.gen_range(0..2)],
+                })
+                .collect();
+            let plain = signs
+                .iter()
+                .enumerate()
+                .fold(0u64, |w, (i, &s)| w | (u64::from(s < 0) << i));
+            assert_eq!(sign_bits(&signs), plain, "round {round}: {signs:?}");
+        }
+    }
+
+    /// Distinct vectors up to sign, as a set of normalised vectors counts them: on
+    /// random pulse lists over 1 to 130 ions drawn from a few vectors and their
+    /// negations (so repeats and negations occur), over one word and several.
+    #[test]
+    fn distinct_up_to_sign_counts_each_vector_and_its_negation_once() {
+        let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(0xd157);
+        for round in 0..300 {
+            let n = rng.gen_range(1..=130);
+            let pool: Vec<Signs> = (0..rng.gen_range(1..8))
+                .map(|_| (0..n).map(|_| [1i8, -1][rng.gen_range(0..2)]).collect())
+                .collect();
+            let pulses: Vec<Pulse> = (0..rng.gen_range(1..30))
+                .map(|_| {
+                    let v = &pool[rng.gen_range(0..pool.len())];
+                    let sign = [1i8, -1][rng.gen_range(0..2)];
+                    Pulse {
+                        signs: v.iter().map(|&s| s * sign).collect(),
+                        weight: 0.1,
+                    }
+                })
+                .collect();
+            let set: std::collections::HashSet<Vec<i8>> = pulses
+                .iter()
+                .map(|p| {
+                    let flip = p.signs[0];
+                    p.signs.iter().map(|&s| s * flip).collect()
+                })
+                .collect();
+            assert_eq!(
+                distinct_up_to_sign(&pulses),
+                set.len(),
+                "round {round}, n {n}"
+            );
+        }
+    }
 
     /// What the optimizer does for a coupling of several components (each
     /// component's synthesis, cached there, then `join_parts` when `by_parts` says

@@ -22,9 +22,9 @@ use super::schedule::Schedule;
 use super::Objective;
 use crate::circuit::{Condition, Mat2};
 use crate::compile::couple::{
-    by_parts, components, floor_of_parts, hadamard_each, join_parts, matching, order_pulses,
-    pad_idle, side_by_side, side_by_side_pulses, signed_classes, signed_labels, synthesize,
-    Budget as SynthBudget, Coupling, Floor, Method, Pulse, Synthesis,
+    by_parts, components, distinct_up_to_sign, floor_of_parts, hadamard_each, join_parts, matching,
+    order_pulses, pad_idle, side_by_side, side_by_side_pulses, signed_classes, signed_labels,
+    synthesize, Budget as SynthBudget, Coupling, Floor, Method, Pulse, Synthesis,
 };
 use crate::compile::hadamard::{smallest_hadamard, smallest_order};
 use crate::compile::lower::zyz;
@@ -499,19 +499,23 @@ impl<'a> Emitter<'a> {
         // Fact 6 for each coupling: m pulses of weight |w|/m, m >= n - 1, the m rows
         // of a Hadamard matrix (distinct, so at least m - 1 flip layers).
         // The same couplings as on the device, in the same order (the active ions
-        // are sorted), so the same sums.
+        // are sorted), so the same sums. It seldom wins and is the costliest to
+        // order and rank (m pulses per coupling), so it is tried with the coupling
+        // program's candidates, first among equal bounds (where it stood before
+        // them): when one of those is built first, `choose` counts its pulses'
+        // distinct sign vectors against that before ordering them.
         let nonzero = local.w.iter().filter(|w| **w != 0.0).count();
         let m_each = smallest_order(n.saturating_sub(1).max(1));
         let h_total: f64 = local.w.iter().map(|w| 2.0 * w.abs()).sum();
-        {
+        let hadamard = {
             let device_of = &device_of;
-            cheap.push(Candidate {
+            Candidate {
                 lower: self.pulse_bound(nonzero * m_each, h_total, m_each - 1),
                 method: Method::Hadamard,
                 weight: h_total / 2.0,
                 build: Box::new(move || Some(Made::Pulses(hadamard_each(&device_of()).pulses))),
-            });
-        }
+            }
+        };
         if self.target == Target::Addressed && self.profile.capabilities.pair_ms {
             let pair: Vec<NativeOp> = terms
                 .iter()
@@ -705,6 +709,7 @@ impl<'a> Emitter<'a> {
             (e.sandwich(chosen), Some(report))
         };
         if !plain_could_win && !could_win(quiet_pre.as_slice()) {
+            let found = self.choose(vec![hadamard], found);
             let (ops, report) = cheap_result(self, found);
             return (Part::Ops(ops), report);
         }
@@ -712,7 +717,7 @@ impl<'a> Emitter<'a> {
         if let Some(certs) = &mut self.certificates {
             certs.push((local.clone(), Arc::clone(&best)));
         }
-        let mut candidates: Vec<Candidate> = Vec::new();
+        let mut candidates: Vec<Candidate> = vec![hadamard];
         let total: f64 = best.pulses.iter().map(|p| 2.0 * p.weight).sum();
         // Building everything, each candidate also carries the bound its kind got
         // from the floors (`pre`, `quiet_pre`), so `choose` checks both bounds.
@@ -809,7 +814,10 @@ impl<'a> Emitter<'a> {
         let mut plain = if plain_could_win {
             self.choose(candidates, found)
         } else {
-            found
+            // The Hadamard construction (first in the list) still against the
+            // cheap ones' best.
+            candidates.truncate(1);
+            self.choose(candidates, found)
         };
         let report_of = |built: &Built| BlockReport {
             ions: active.len(),
@@ -1018,8 +1026,27 @@ impl<'a> Emitter<'a> {
             let Some(made) = (c.build)() else {
                 continue;
             };
+            let mut refined_lower = None;
             let (ops, groups) = match made {
-                Made::Pulses(p) => (pulse_ops(p), None),
+                Made::Pulses(p) => {
+                    // Before ordering them, against a best built already: their
+                    // count and angle are known, and each change between distinct
+                    // vectors (up to sign: `pulse_ops` plays a pulse or its
+                    // negation) takes a flip layer. (Building everything, the bound
+                    // is checked against the key below.)
+                    if best.is_some() || self.build_all {
+                        let refined = self.pulse_bound(
+                            p.len(),
+                            p.iter().map(|x| 2.0 * x.weight.abs()).sum(),
+                            distinct_up_to_sign(&p).saturating_sub(1),
+                        );
+                        if !self.build_all && !may_beat(refined, &best) {
+                            continue;
+                        }
+                        refined_lower = Some(refined);
+                    }
+                    (pulse_ops(p), None)
+                }
                 Made::Ops(ops) => (ops, None),
                 Made::Quiet(groups) => {
                     let flat: Vec<Pulse> = groups
@@ -1030,11 +1057,11 @@ impl<'a> Emitter<'a> {
                 }
             };
             let key = self.key(&ops);
-            let broken = key.0 < c.lower.0 - 1e-9 * c.lower.0.abs().max(1.0);
+            let lower = refined_lower.map_or(c.lower.0, |r| r.0.max(c.lower.0));
+            let broken = key.0 < lower - 1e-9 * lower.abs().max(1.0);
             debug_assert!(
                 !broken,
-                "a candidate's bound {:?} exceeds its key {key:?}",
-                c.lower
+                "a candidate's bound {lower} exceeds its key {key:?}"
             );
             if broken && self.build_all {
                 self.shared.bound_violations.fetch_add(1, Ordering::Relaxed);

@@ -720,11 +720,16 @@ mod tests {
     use super::*;
     use rand::{Rng, SeedableRng};
 
-    /// The packed signs are the signs: for 0 to 64 random signs (of runs of equal
-    /// and of alternating signs too), `sign_bits` sets bit `i` exactly where sign
-    /// `i` is -1, as a plain loop says.
+    /// The packed signs are the signs: for every pattern of eight signs (each
+    /// gathered by one multiplication, so no two bits may collide) and for 0 to 64
+    /// random signs (of runs of equal and of alternating signs too), `sign_bits`
+    /// sets bit `i` exactly where sign `i` is -1, as a plain loop says.
     #[test]
     fn sign_bits_are_the_negative_signs() {
+        for pattern in 0..256u64 {
+            let signs: Vec<i8> = (0..8).map(|i| 1 - 2 * ((pattern >> i) & 1) as i8).collect();
+            assert_eq!(sign_bits(&signs), pattern, "{signs:?}");
+        }
         let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(0x5b17);
         for round in 0..2000 {
             let len = round % 65;

@@ -1075,10 +1075,12 @@ impl<'a> Emitter<'a> {
 }
 
 /// Whether a candidate bounded below by `bound` may still beat `best` (the best
-/// found so far, if any): its first figure not above the best's, within 1e-12.
+/// found so far, if any): its first figure not above the best's beyond the
+/// rounding within which [`better`] lets the second figures decide.
 fn may_beat(bound: Key, best: &Option<(Key, Built)>) -> bool {
-    best.as_ref()
-        .map_or(true, |(k, _)| bound.0 <= k.0 + 1e-12 * k.0.abs())
+    best.as_ref().map_or(true, |(k, _)| {
+        bound.0 <= k.0 + 1e-9 * k.0.abs().max(bound.0.abs())
+    })
 }
 
 /// `own`, or the floor's bound where that is higher and every candidate is built
@@ -1197,5 +1199,36 @@ fn flip_then_pulse(
             theta: 2.0 * w,
             phi: 0.0,
         });
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use rand::{Rng, SeedableRng};
+
+    /// Skipping by bounds never drops what choosing would take: a candidate whose
+    /// key `better` prefers to the best is never refused by `may_beat`, even with a
+    /// bound equal to its key, when the first figures tie within rounding and the
+    /// second decide (keys drawn within a few 1e-9 of each other).
+    #[test]
+    fn a_bound_never_refuses_what_better_would_choose() {
+        let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(0xbe77);
+        let mut close = 0;
+        for round in 0..20_000 {
+            let first = rng.gen_range(1.0..1e5);
+            let best: Key = (first, rng.gen_range(0.0..10.0));
+            let key: Key = (
+                first * (1.0 + rng.gen_range(-3e-9..3e-9)),
+                rng.gen_range(0.0..10.0),
+            );
+            let found = Some((best, (Vec::new(), Method::Single, 0.0, None)));
+            if better(key, best) {
+                assert!(may_beat(key, &found), "round {round}: {key:?} vs {best:?}");
+                close += usize::from(key.0 > best.0);
+            }
+        }
+        // Wins by the second figure with a larger first one happened.
+        assert!(close > 1000, "{close}");
     }
 }

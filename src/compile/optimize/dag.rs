@@ -18,12 +18,12 @@ use petgraph::Direction;
 pub const ZERO: f64 = 1e-13;
 
 /// Places between two built nodes, for a replacement put after the first.
-const ROOM: u64 = 1 << 16;
+const SPACING: u64 = 1 << 16;
 
 /// One segment's canonical operations (no measurement, reset or condition).
 pub struct Dag {
     pub graph: StableDiGraph<Canon, u32>,
-    /// Each node's place, by node index: a built node's index times [`ROOM`], a
+    /// Each node's place, by node index: a built node's index times [`SPACING`], a
     /// replacement's just after the place of the node it follows.
     place: Vec<u64>,
     /// Nodes removed so far, and how many had been when [`fuse_locals`] last
@@ -66,7 +66,9 @@ impl Dag {
                 }
             }
         }
-        let place = (0..graph.node_count() as u64).map(|k| k * ROOM).collect();
+        let place = (0..graph.node_count() as u64)
+            .map(|k| k * SPACING)
+            .collect();
         Dag {
             graph,
             place,
@@ -83,7 +85,7 @@ impl Dag {
         if self
             .graph
             .node_indices()
-            .all(|i| self.place[i.index()] % ROOM == 0)
+            .all(|i| self.place[i.index()] % SPACING == 0)
         {
             return;
         }
@@ -101,7 +103,7 @@ impl Dag {
         let mut built = Vec::with_capacity(self.graph.node_count());
         let mut put = Vec::new();
         for i in self.graph.node_indices() {
-            if place(&i) % ROOM == 0 {
+            if place(&i) % SPACING == 0 {
                 built.push(i);
             } else {
                 put.push(i);
@@ -141,7 +143,7 @@ impl Dag {
         // Built nodes only: two replacements after one node would share places
         // ([`Dag::settle`] makes every node a built one).
         assert!(
-            at % ROOM == 0 && (new.len() as u64) < ROOM,
+            at % SPACING == 0 && (new.len() as u64) < SPACING,
             "a replacement after a replacement, or too long"
         );
         // Each wire's node before the run (then the last of `new` on it so far)

@@ -108,20 +108,17 @@ impl Ladder {
     }
 
     fn flush(&mut self, out: &mut Vec<Instr>) {
-        // Up to three CNOTs the network has as many levels as the ladder has
-        // gates (tested with `prefix_levels`): the ladder stays.
-        if self.gates.len() < SHORTEST_GAIN {
-            out.append(&mut self.gates);
-            self.path.clear();
-            self.backward = false;
-            return;
-        }
         let ladder = std::mem::take(self);
-        let levels = prefix_levels(ladder.path.len());
-        if levels.len() >= ladder.gates.len() {
+        // The network where it has fewer levels than the ladder has gates; up to
+        // three CNOTs it never has (tested with `prefix_levels`), so it is not
+        // built for them.
+        let levels = (ladder.gates.len() >= SHORTEST_GAIN)
+            .then(|| prefix_levels(ladder.path.len()))
+            .filter(|levels| levels.len() < ladder.gates.len());
+        let Some(levels) = levels else {
             out.extend(ladder.gates);
             return;
-        }
+        };
         let mut gates: Vec<Instr> = levels
             .iter()
             .flatten()

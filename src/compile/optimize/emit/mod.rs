@@ -717,7 +717,7 @@ impl<'a> Emitter<'a> {
         if let Some(certs) = &mut self.certificates {
             certs.push((local.clone(), Arc::clone(&best)));
         }
-        let mut candidates: Vec<Candidate> = vec![hadamard];
+        let mut candidates: Vec<Candidate> = Vec::new();
         let total: f64 = best.pulses.iter().map(|p| 2.0 * p.weight).sum();
         // Building everything, each candidate also carries the bound its kind got
         // from the floors (`pre`, `quiet_pre`), so `choose` checks both bounds.
@@ -811,13 +811,14 @@ impl<'a> Emitter<'a> {
             });
         }
         // The best without the quiet column, then the quiet column against it.
+        // The Hadamard construction first among equal bounds (`choose` sorts
+        // stably), as when it was tried before the program's candidates; without
+        // those, still against the cheap ones' best.
         let mut plain = if plain_could_win {
+            candidates.insert(0, hadamard);
             self.choose(candidates, found)
         } else {
-            // The Hadamard construction (first in the list) still against the
-            // cheap ones' best.
-            candidates.truncate(1);
-            self.choose(candidates, found)
+            self.choose(vec![hadamard], found)
         };
         let report_of = |built: &Built| BlockReport {
             ions: active.len(),
